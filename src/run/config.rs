@@ -45,7 +45,7 @@ impl RawDuration {
 }
 
 fn seconds(s: f64) -> Result<Duration, String> {
-    if s.is_finite() && s >= 0.0 && s < 1e9 {
+    if (0.0..1e9).contains(&s) {
         Ok(Duration::from_secs_f64(s))
     } else {
         Err(format!("expected a non-negative number of seconds, found {s}"))
