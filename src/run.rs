@@ -3,6 +3,7 @@
 //! store.
 
 pub mod downsample;
+pub mod headless;
 pub mod ingest;
 pub mod store;
 

@@ -68,7 +68,11 @@ struct Done {
     record: ActionRecord,
 }
 
-/// Fires the actions of one run.
+/// Fires the actions of one run (keep one per run).
+///
+/// Dropping it does not stop commands already running: each one's thread still enforces
+/// its timeout, but when settle itself exits, those threads end with it. Call
+/// [`ActionRunner::wait_finished`] before exiting to collect their audit entries.
 pub struct ActionRunner {
     plan: ActionPlan,
     latches: Vec<Latch>,
