@@ -4,6 +4,7 @@
 
 pub mod config;
 pub mod downsample;
+pub mod headless;
 pub mod ingest;
 pub mod store;
 
