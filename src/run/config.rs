@@ -8,6 +8,7 @@ use std::time::Duration;
 use serde::Deserialize;
 use thiserror::Error;
 
+use crate::actions::ActionConfig;
 use crate::judge::Criteria;
 
 /// File name looked for in case directories.
@@ -97,7 +98,7 @@ pub struct RawConfig {
     pub job: Option<String>,
     /// Opt-in commands on verdict transitions; validated by the actions module.
     #[serde(default)]
-    pub action: Vec<toml::Table>,
+    pub action: Vec<ActionConfig>,
 }
 
 /// A source ready to follow.
@@ -120,7 +121,7 @@ pub struct RunSpec {
     pub criteria: Criteria,
     pub stale_limit: Duration,
     pub job: Option<String>,
-    pub actions: Vec<toml::Table>,
+    pub actions: Vec<ActionConfig>,
     /// The config file, when there is one.
     pub config_path: Option<PathBuf>,
 }
@@ -265,6 +266,10 @@ below = 1e-5
 
 [criteria.series."res*"]
 ignore = true
+
+[[action]]
+on = "diverging"
+command = ["scancel", "{job}"]
 "#;
         let spec = parse(text, Path::new("/case/settle.toml")).unwrap();
         assert_eq!(spec.name, "duct-bend-07");
@@ -277,6 +282,8 @@ ignore = true
         assert_eq!(spec.criteria.series["p"].below, Some(1e-5));
         assert!(spec.criteria.series["res*"].ignore);
         assert_eq!(spec.job.as_deref(), Some("4711"));
+        assert_eq!(spec.actions.len(), 1);
+        assert_eq!(spec.actions[0].command, vec!["scancel", "{job}"]);
     }
 
     #[test]
