@@ -508,6 +508,7 @@ impl ReadCtx {
         let (start, junk_before) = (file.offset, self.splitter.junk_bytes());
         let big = total - file.offset > cfg.progress_every;
         let mut next_progress = file.offset + cfg.progress_every;
+        let mut last_progress = file.offset;
         while file.offset < size {
             let want =
                 usize::try_from(size - file.offset).unwrap_or(usize::MAX).min(cfg.read_chunk);
@@ -562,10 +563,11 @@ impl ReadCtx {
             }
             if big && file.offset >= next_progress {
                 sink(FollowItem::Progress { read: file.offset, total });
+                last_progress = file.offset;
                 next_progress = file.offset + cfg.progress_every;
             }
         }
-        if big {
+        if big && last_progress != file.offset {
             sink(FollowItem::Progress { read: file.offset, total });
         }
         let junk = self.splitter.junk_bytes() - junk_before;

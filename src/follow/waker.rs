@@ -22,7 +22,7 @@ use std::collections::{HashMap, VecDeque};
 use std::os::unix::fs::MetadataExt;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
-use std::sync::mpsc::{Receiver, RecvTimeoutError, SyncSender, TryRecvError, sync_channel};
+use std::sync::mpsc::{Receiver, RecvTimeoutError, SyncSender, sync_channel};
 use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
@@ -118,9 +118,11 @@ impl WakeSender {
                 self.wake();
             }
             Err(e) => {
+                // Events may have been lost: look at every file now. The watches themselves
+                // are re-checked on their own schedule, so a persistent error (the watch
+                // limit) does not turn into a retry storm.
                 self.shared.note(describe_error(&e, None));
                 self.mark_names();
-                self.shared.revalidate.store(true, Ordering::SeqCst);
                 self.wake();
             }
         }
@@ -276,12 +278,8 @@ impl Waker {
         match self.rx.recv_timeout(timeout) {
             Ok(()) => {
                 std::thread::sleep(COALESCE.min(timeout));
-                loop {
-                    match self.rx.try_recv() {
-                        Ok(()) => continue,
-                        Err(TryRecvError::Empty | TryRecvError::Disconnected) => break,
-                    }
-                }
+                // Drain the rest of the burst.
+                while self.rx.try_recv().is_ok() {}
                 Wake::Event
             }
             Err(RecvTimeoutError::Timeout | RecvTimeoutError::Disconnected) => Wake::Timeout,
