@@ -939,3 +939,29 @@ fn waker_wakes_on_a_write() {
     assert_eq!(waker.wait(Duration::from_secs(2)), Wake::Event);
     assert!(waker.take_names_dirty());
 }
+
+/// A one-shot read of many restart files: all of them, in natural order, with a restart
+/// before each later file and the final unterminated line flushed.
+#[test]
+fn read_to_end_over_many_restart_files() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    for n in 1..=60 {
+        fs::write(dir.path().join(format!("run.log.{n}")), format!("part {n}\nend {n}"))
+            .expect("write");
+    }
+    let mut h = H::new(dir.path().join("run.log.*"), cfg());
+    let items = &mut h.items;
+    let total = h.f.read_to_end(&mut |it| items.push(own(it)));
+    let mut want = Vec::new();
+    for n in 1..=60 {
+        if n > 1 {
+            let path = dir.path().join(format!("run.log.{n}"));
+            want.push(It::R(SegmentReason::NewFile { path }));
+        }
+        want.push(l(&format!("part {n}")));
+        want.push(l(&format!("end {n}")));
+    }
+    assert_eq!(h.flow(), want);
+    assert_eq!(total.lines, 120);
+    assert_eq!(h.f.stats().files, 60);
+}

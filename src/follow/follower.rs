@@ -38,9 +38,12 @@ const NUL_HOLD_MAX: usize = 64 * 1024;
 /// Notes of one repeating kind (long lines, NUL runs, read errors) shown before they are
 /// only counted in [`FollowStats`].
 const NOTES_PER_KIND: u32 = 5;
-/// Upper bound on state transitions within one poll (a glob gaining files faster than
-/// they can be opened must not keep one poll busy forever).
-const MAX_STEPS: usize = 64;
+/// Upper bound on state transitions within one poll: a restart file costs three (open,
+/// find its successor, finish it), so one poll reads over a thousand existing restart files,
+/// while a glob gaining files faster than they can be read cannot keep one poll busy forever.
+const MAX_STEPS: usize = 4096;
+/// Upper bound on polls in [`Follower::read_to_end`] (a writer outrunning the reader).
+const MAX_POLLS_TO_END: usize = 1000;
 
 /// Follows one log file by name, or the files of a restart glob in natural order.
 #[derive(Debug)]
@@ -62,6 +65,8 @@ pub struct Follower {
     /// Why the target could not be opened, while it cannot.
     unreadable: Option<(PathBuf, String)>,
     waiting_noted: bool,
+    /// When a poll last consumed bytes.
+    last_growth: Option<Instant>,
 }
 
 #[derive(Debug)]
@@ -128,6 +133,7 @@ impl Follower {
             missing: false,
             unreadable: None,
             waiting_noted: false,
+            last_growth: None,
         }
     }
 
@@ -172,11 +178,32 @@ impl Follower {
                     } else if now < *until {
                         break;
                     }
-                    self.end_drain(sink);
+                    out.lines += self.end_drain(sink);
                 }
             }
         }
+        if out.bytes > 0 {
+            self.last_growth = Some(now);
+        }
         out
+    }
+
+    /// One-shot read (`check`, `parse`, `report`): poll until a poll finds nothing new, then
+    /// [`finish`](Self::finish). Stops after a bounded number of polls if a writer keeps
+    /// outrunning the reader. Returns the total of all polls.
+    pub fn read_to_end(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> PollOutcome {
+        let mut total = PollOutcome::default();
+        for _ in 0..MAX_POLLS_TO_END {
+            let o = self.poll(sink);
+            total.bytes += o.bytes;
+            total.lines += o.lines;
+            total.restarted |= o.restarted;
+            if !o.grew() && !o.restarted {
+                break;
+            }
+        }
+        total.lines += self.io.flush_partial(sink);
+        total
     }
 
     /// End of data (one-shot `check`/`parse`): hand out the final unterminated line, if any.
@@ -234,6 +261,12 @@ impl Follower {
     /// writer may not have finished it).
     pub fn partial_line(&self) -> Option<&[u8]> {
         self.io.splitter.has_partial().then(|| self.io.splitter.partial())
+    }
+
+    /// When a poll last read new bytes. With [`partial_line`](Self::partial_line) this lets
+    /// a view show an unterminated line as pending once it has been quiet for a while.
+    pub fn last_growth(&self) -> Option<Instant> {
+        self.last_growth
     }
 
     /// Byte offset reached in the current file.
@@ -387,6 +420,22 @@ impl Follower {
         if self.spec.is_glob()
             && let Ok(Some(next)) = self.spec.next_after(&file.path)
         {
+            if let Ok((_, meta)) = open_path(&next)
+                && file.same_identity(&meta)
+            {
+                // The current file was renamed to a later name (`run.log` → `run.log.1`
+                // under `run.log*`): same file, same offset, no restart.
+                sink(FollowItem::Note(format!(
+                    "{} renamed to {}; continuing at byte {}",
+                    file.path.display(),
+                    next.display(),
+                    file.offset
+                )));
+                file.path = next.clone();
+                self.last_path = Some(next);
+                self.missing = false;
+                return false;
+            }
             // Revalidate the finished file once more so its last bytes are not lost to a
             // stale cached size, then drain it with no grace.
             if let Ok((f, meta)) = open_path(&file.path)
@@ -457,17 +506,20 @@ impl Follower {
     }
 
     /// The drained file is done: flush its unterminated line and queue the restart.
-    fn end_drain(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) {
+    /// Returns the number of lines flushed.
+    fn end_drain(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> u64 {
+        let mut flushed = 0;
         if let Phase::Draining { reason, next, .. } =
             std::mem::replace(&mut self.phase, Phase::Closed)
         {
-            self.io.flush_partial(sink);
+            flushed = self.io.flush_partial(sink);
             self.pending_restart = Some(reason);
             if next.is_some() {
                 self.next_path = next;
             }
             self.missing = false;
         }
+        flushed
     }
 }
 
@@ -583,10 +635,13 @@ impl ReadCtx {
     }
 
     /// Hand out the unterminated line, if any (end of data or end of a drained file).
-    fn flush_partial(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) {
+    /// Returns the number of lines handed out (0 or 1).
+    fn flush_partial(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> u64 {
         let stats = &mut self.stats;
         let notes = &mut self.notes_long;
+        let mut n = 0;
         self.splitter.finish(&mut |line| {
+            n += 1;
             stats.lines += 1;
             sink(FollowItem::Line(line.bytes));
             if line.truncated {
@@ -598,6 +653,7 @@ impl ReadCtx {
                 });
             }
         });
+        n
     }
 
     fn error_note(
@@ -659,4 +715,67 @@ fn limited_note(
         )));
     }
     *count = count.saturating_add(1);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn collect(f: &mut Follower) -> Vec<String> {
+        let mut out = Vec::new();
+        f.poll(&mut |it| match it {
+            FollowItem::Line(b) => out.push(String::from_utf8_lossy(b).into_owned()),
+            FollowItem::Restart(r) => out.push(format!("restart {r:?}")),
+            FollowItem::Note(_) | FollowItem::Progress { .. } => {}
+        });
+        out
+    }
+
+    #[test]
+    fn follower_and_waker_can_move_to_the_ingest_thread() {
+        fn assert_send<T: Send>() {}
+        assert_send::<Follower>();
+        assert_send::<super::super::Waker>();
+    }
+
+    #[test]
+    fn a_glob_file_renamed_to_a_later_name_is_not_read_twice() {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let log = dir.path().join("run.log");
+        std::fs::write(&log, b"a\nb\n").expect("write");
+        let cfg =
+            FollowConfig { name_check_interval: std::time::Duration::ZERO, ..Default::default() };
+        let mut f = Follower::new(dir.path().join("run.log*"), cfg);
+        assert_eq!(collect(&mut f), ["a", "b"]);
+        let moved = dir.path().join("run.log.1");
+        std::fs::rename(&log, &moved).expect("mv");
+        assert!(collect(&mut f).is_empty());
+        assert_eq!(f.current_path(), Some(moved.as_path()));
+        let mut w = std::fs::OpenOptions::new().append(true).open(&moved).expect("open");
+        std::io::Write::write_all(&mut w, b"c\n").expect("write");
+        assert_eq!(collect(&mut f), ["c"]);
+        assert_eq!(f.stats().files, 1);
+    }
+
+    #[test]
+    fn repeating_notes_are_limited() {
+        let mut count = 0;
+        let mut notes = Vec::new();
+        for i in 0..20 {
+            limited_note(
+                &mut count,
+                "long-line",
+                &mut |it| {
+                    if let FollowItem::Note(n) = it {
+                        notes.push(n)
+                    }
+                },
+                || format!("note {i}"),
+            );
+        }
+        assert_eq!(notes.len(), NOTES_PER_KIND as usize + 1);
+        assert_eq!(notes[0], "note 0");
+        assert!(notes[NOTES_PER_KIND as usize].contains("further long-line notes suppressed"));
+        assert_eq!(count, 20);
+    }
 }
