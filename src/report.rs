@@ -1,1 +1,4 @@
-//! (module under construction)
+//! The convergence report: content shared by every format, and the HTML, Markdown and JSON
+//! serialisers, plus grid convergence (GCI) for mesh studies.
+
+pub mod gci;
