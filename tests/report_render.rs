@@ -256,7 +256,7 @@ impl Fixture {
                 "built-in",
                 "[parser]\nname = \"tarn-lines\"\n",
             )],
-            &[log.clone()],
+            std::slice::from_ref(&log),
             &criteria,
         )
         .expect("collect provenance");
@@ -542,6 +542,7 @@ fn markdown_writes_its_svg_files_beside_it() {
     assert_eq!(written[0], path);
     assert_eq!(written.len(), 4, "report + residual plot + two monitor plots: {written:?}");
     let md = std::fs::read_to_string(&path).expect("read md");
+    keep_sample("wing a4.md", &md);
     no_control_characters(&md);
     for p in &written[1..] {
         assert_eq!(p.parent(), Some(dir.path()), "SVG beside the report");
@@ -549,6 +550,7 @@ fn markdown_writes_its_svg_files_beside_it() {
         assert!(name.starts_with("wing-a4-") && name.ends_with(".svg"), "{name}");
         assert!(md.contains(&format!("]({name})")), "markdown links {name}");
         let svg = std::fs::read_to_string(p).expect("read svg");
+        keep_sample(name, &svg);
         assert!(svg.starts_with("<?xml"));
         assert!(svg.contains("xmlns=\"http://www.w3.org/2000/svg\""));
         check_markup(&svg).unwrap_or_else(|e| panic!("{name}: {e}"));
@@ -633,7 +635,7 @@ fn unknown_extension_is_a_clear_error() {
 fn empty_run_and_default_judgement_still_render() {
     let run = RunStore::new("empty");
     let judgement = Judgement::default();
-    let criteria = Criteria::default();
+    let criteria = Criteria { drift: Some(0.2), ..Default::default() };
     let provenance = Provenance::default();
     let input = ReportInput {
         run: &run,
@@ -647,6 +649,13 @@ fn empty_run_and_default_judgement_still_render() {
     assert!(html.contains("no residual values were read"));
     assert!(html.contains("No monitors were read"));
     assert!(!html.contains("grid-convergence"));
+    // No criteria rows recorded in the provenance: they come from the criteria themselves.
+    let prov = section(&html, "provenance");
+    assert!(
+        prov.contains("<td>drift</td><td class=\"num\">0.2 %</td><td>set by user</td>"),
+        "{prov}"
+    );
+    assert!(prov.contains("<td>residual_drop</td><td class=\"num\">3 dec</td><td>default"));
     let v = render_json(&input);
     assert_eq!(v["grid_convergence"], serde_json::Value::Null);
     assert_eq!(v["verdict"], "converging");

@@ -8,7 +8,7 @@ use crate::judge::{Judgement, MonitorSummary, RunInput};
 use crate::record::{Role, Severity};
 use crate::report::ReportInput;
 use crate::report::gci::{GciResult, GridSize};
-use crate::report::provenance::format_utc;
+use crate::report::provenance::{criteria_in_effect, format_utc};
 use crate::report::svg::{self, Line, MonitorMarks, Target};
 use crate::report::text::{
     bytes, criterion_words, evidence, iteration, kind_words, num, p_value, range, threshold_text,
@@ -547,13 +547,21 @@ pub fn files_table(input: &ReportInput<'_>) -> Table {
     }
 }
 
+/// The criteria settings in effect: as recorded in the provenance, or computed from the
+/// criteria when the provenance recorded none.
+pub fn criteria_settings(input: &ReportInput<'_>) -> Vec<(String, String, bool)> {
+    if input.provenance.criteria.is_empty() {
+        criteria_in_effect(input.criteria)
+    } else {
+        input.provenance.criteria.clone()
+    }
+}
+
 pub fn criteria_settings_table(input: &ReportInput<'_>) -> Table {
     Table {
         class: None,
         head: vec!["setting", "value", "from"],
-        rows: input
-            .provenance
-            .criteria
+        rows: criteria_settings(input)
             .iter()
             .map(|(k, v, d)| {
                 vec![t(k), n(v), t(if *d { "default (common practice)" } else { "set by user" })]

@@ -100,16 +100,16 @@ pub fn render_html(input: &ReportInput<'_>) -> String {
         facts.push(s);
     }
     facts.push(format!("last iteration {}", text::iteration(j.iterations)));
-    let _ = write!(h, "{}</p>\n", xml(&facts.join(" · ")));
+    let _ = writeln!(h, "{}</p>", xml(&facts.join(" · ")));
     let _ = write!(
         h,
         "<p class=\"meaning\">Verdict <b>{}</b>: {}.</p>\n</header>\n",
         j.verdict.as_str(),
         xml(text::verdict_meaning(j.verdict))
     );
-    let _ = write!(
+    let _ = writeln!(
         h,
-        "<aside class=\"safety\" id=\"safety\"><strong>{}</strong>{}</aside>\n",
+        "<aside class=\"safety\" id=\"safety\"><strong>{}</strong>{}</aside>",
         xml(SAFETY_TITLE),
         xml(SAFETY)
     );

@@ -3,7 +3,8 @@
 //! The keys are built here explicitly (not derived from the judge's types), so the format
 //! changes only when this file does. Numbers that are NaN or infinite become `null`.
 //!
-//! Top-level keys, in order of meaning:
+//! Objects are written with their keys in alphabetical order (serde_json's default map), so
+//! the same report always serialises to the same bytes. Top-level keys, grouped by meaning:
 //!
 //! | key | value |
 //! | --- | --- |
@@ -254,7 +255,7 @@ pub fn render_json(input: &ReportInput<'_>) -> Value {
             "mtime": x.mtime.map(format_utc),
             "sha256": x.sha256,
         })).collect::<Vec<_>>(),
-        "criteria": p.criteria.iter().map(|(k, v, d)| json!({
+        "criteria": content::criteria_settings(input).iter().map(|(k, v, d)| json!({
             "key": k, "value": v, "default": d,
         })).collect::<Vec<_>>(),
     });
@@ -280,7 +281,7 @@ pub fn render_json(input: &ReportInput<'_>) -> Value {
     Value::Object(o)
 }
 
-/// The top-level keys of [`render_json`], in order; tests pin them.
+/// The top-level keys of [`render_json`], grouped by meaning; tests pin them.
 pub const TOP_LEVEL_KEYS: [&str; 17] = [
     "format",
     "format_version",

@@ -749,6 +749,16 @@ pub fn monitor_plot(line: &Line<'_>, marks: &MonitorMarks, standalone: bool) -> 
         xml(line.name)
     );
     non_finite_marks(&mut out, &f, &env, colour);
+    if let Some(t) = marks.transient_end {
+        let x = f.px(t as f64);
+        if x > 180.0 {
+            let _ = write!(
+                out,
+                r##"<text x="{:.1}" y="13" text-anchor="end" font-size="10.5" fill="#222" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round" paint-order="stroke">start-up transient (not judged)</text>"##,
+                x - 5.0
+            );
+        }
+    }
     // Mean and confidence band on top of the (often dense) history, so they stay visible.
     if let (Some((a, b)), Some(m)) = (marks.window, marks.mean.filter(|m| m.is_finite())) {
         let (xa, xb) = (f.px(a as f64), f.px(b as f64));
