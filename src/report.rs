@@ -1,19 +1,28 @@
 //! The convergence report (`settle report`): what a run did, what the judge concluded and why,
 //! with plots, evidence, provenance and, for a mesh study, the grid-convergence index.
 //!
-//! Three formats share one content model ([`content`]): a self-contained HTML file with inline
+//! Three formats share one content model (the private `content` module): a self-contained HTML file with inline
 //! SVG ([`render_html`]), Markdown with SVG files beside it ([`render_markdown`]) and JSON
 //! ([`render_json`]). The renderers are pure functions of a [`ReportInput`]; only
 //! [`Provenance::collect`] (hashing the sources) and [`write_report`] (writing the files) do
 //! I/O. Every report states plainly that a verdict is evidence, not proof (DESIGN §9).
+//!
+//! Sections, in every format: the run name with its verdict, `since` and meaning; the safety
+//! statement; *why* (the findings that caused the verdict, with evidence); the criteria table
+//! (threshold, final value, met, held since, default or user-set); the residual history plot
+//! (log scale, thresholds dashed, restarts marked) with per-residual trends; per monitor a
+//! summary row and a plot (final window shaded, mean and confidence band, start-up transient
+//! marked, extrapolated value); all findings; grid convergence when a mesh study is given;
+//! what was read (line counts, restarts, last warnings and errors); provenance (version,
+//! command line, time, parser hashes, file sizes, times and hashes, criteria in effect).
 
-pub mod content;
+mod content;
 pub mod gci;
 pub mod html;
 pub mod json;
 pub mod markdown;
 pub mod provenance;
-pub mod svg;
+mod svg;
 pub mod text;
 
 use std::fs;

@@ -706,3 +706,54 @@ fn keep_sample(name: &str, text: &str) {
         std::fs::write(dir.join(name), text).expect("write sample");
     }
 }
+
+#[test]
+fn hostile_values_and_names_stay_well_formed() {
+    // Non-finite, zero and negative residuals; names with markup and control characters.
+    let mut src = SourceStore::new("a<b>.log", "p\"q");
+    src.apply([
+        series(0, "res<p>&\u{1b}[0m", Role::Residual),
+        series(1, "Cd\u{0}'x'", Role::Monitor),
+    ]);
+    let vals = [1.0, f64::NAN, 0.5, 0.0, -1.0, f64::INFINITY, 1e-300, 0.25];
+    for (k, v) in vals.iter().enumerate() {
+        src.apply([Output::Record(Record {
+            iteration: Some(k as i64 + 1),
+            values: vec![(0, *v), (1, if k == 3 { f64::NAN } else { 1.0 })],
+            ..Default::default()
+        })]);
+    }
+    let mut run = RunStore::new("r\u{7}");
+    run.sources.push(src);
+    let j = Judgement {
+        monitors: vec![MonitorSummary {
+            series: "Cd\u{0}'x'".into(),
+            mean: 1.0,
+            ci_half: f64::INFINITY,
+            window_first: 1,
+            window_last: 8,
+            extrapolated: Some(1e300),
+            ..Default::default()
+        }],
+        ..Default::default()
+    };
+    let c = Criteria::default();
+    let p = Provenance::default();
+    let input = ReportInput { run: &run, judgement: &j, criteria: &c, provenance: &p, mesh: None };
+    let html = render_html(&input);
+    check_markup(&html).unwrap_or_else(|e| panic!("{e}"));
+    no_control_characters(&html);
+    assert!(html.contains("res&lt;p&gt;&amp; [0m"));
+    assert!(html.contains("non-finite value near iteration"), "NaN marked, not hidden");
+    assert!(html.contains("(off scale)"), "a wild extrapolated value does not wreck the scale");
+    let (md, files) = render_markdown(&input, "h-");
+    no_control_characters(&md);
+    for (name, svg) in &files {
+        check_markup(svg).unwrap_or_else(|e| panic!("{name}: {e}"));
+        no_control_characters(svg);
+    }
+    assert_eq!(files[1].0, "h-monitor-1-Cd--x-.svg");
+    let v = render_json(&input);
+    assert_eq!(v["series"][0]["last_value"], 0.25);
+    assert_eq!(v["monitors"][0]["ci_half"], serde_json::Value::Null);
+}

@@ -678,7 +678,8 @@ pub fn monitor_plot(line: &Line<'_>, marks: &MonitorMarks, standalone: bool) -> 
     }
     let mut extrap_off_scale = false;
     if let Some(x) = marks.extrapolated.filter(|x| x.is_finite()) {
-        let span = if hi > lo { hi - lo } else { x.abs().max(1.0) };
+        // Scale of the data itself (for a flat history: its magnitude), never of `x`.
+        let span = if hi > lo { hi - lo } else { lo.abs().max(f64::MIN_POSITIVE) };
         if lo <= hi && (x < lo - 2.0 * span || x > hi + 2.0 * span) {
             extrap_off_scale = true;
         } else {
