@@ -1,11 +1,11 @@
 //! The convergence report (`settle report`): what a run did, what the judge concluded and why,
 //! with plots, evidence, provenance and, for a mesh study, the grid-convergence index.
 //!
-//! Three formats share one content model (the private `content` module): a self-contained HTML file with inline
-//! SVG ([`render_html`]), Markdown with SVG files beside it ([`render_markdown`]) and JSON
-//! ([`render_json`]). The renderers are pure functions of a [`ReportInput`]; only
-//! [`Provenance::collect`] (hashing the sources) and [`write_report`] (writing the files) do
-//! I/O. Every report states plainly that a verdict is evidence, not proof (DESIGN §9).
+//! Three formats share one content model (the private `content` module): a self-contained
+//! HTML file with inline SVG ([`render_html`]), Markdown with SVG files beside it
+//! ([`render_markdown`]) and JSON ([`render_json`]). The renderers are pure functions of a
+//! [`ReportInput`]; only [`Provenance::collect`] (hashing the sources) and [`write_report`]
+//! (writing the files) do I/O. Every report states plainly that a verdict is evidence, not proof (DESIGN §9).
 //!
 //! Sections, in every format: the run name with its verdict, `since` and meaning; the safety
 //! statement; *why* (the findings that caused the verdict, with evidence); the criteria table
