@@ -21,6 +21,9 @@ die() { echo "render-report: $*" >&2; exit 1; }
 [[ $# -ge 1 ]] || die "usage: $0 REPORT.html|--sample [OUT.png] [WIDTHxHEIGHT]"
 
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+sample_dir=""
+profile=""
+trap 'rm -rf "$profile" "$sample_dir"' EXIT
 if [[ $1 == --sample ]]; then
     sample_dir="$(mktemp -d)"
     (cd "$here" && SETTLE_REPORT_SAMPLE_DIR="$sample_dir" \
@@ -40,7 +43,6 @@ browser="$(command -v chromium || command -v chromium-browser || true)"
 [[ -n $browser ]] || die "chromium not found; install the Debian package: apt-get install chromium"
 
 profile="$(mktemp -d)"
-trap 'rm -rf "$profile"' EXIT
 abs="$(cd "$(dirname "$report")" && pwd)/$(basename "$report")"
 mkdir -p "$(dirname "$out")"
 
