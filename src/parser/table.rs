@@ -43,7 +43,8 @@ pub enum Column {
 /// How vector components are named.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum VectorNames {
-    /// `name_x`, `name_y`, `name_z` for up to three components, `name[i]` beyond.
+    /// `name_x`, `name_y`, `name_z` when the column's first vector has at most three
+    /// components, else `name[i]`.
     Xyz,
     /// Always `name[0]`, `name[1]`, …
     Index,
@@ -115,7 +116,14 @@ enum Col {
     Iteration,
     Time,
     Ignored,
-    Value { name: String, role: Role, scalar: Option<SeriesId>, comps: Vec<SeriesId> },
+    Value {
+        name: String,
+        role: Role,
+        scalar: Option<SeriesId>,
+        comps: Vec<SeriesId>,
+        /// Components named `_x/_y/_z`; decided from the first vector seen in the column.
+        xyz: bool,
+    },
 }
 
 #[derive(Debug, Clone)]
@@ -303,8 +311,12 @@ impl TableParser {
                         });
                     }
                 },
-                Col::Value { name, role, scalar, comps } => {
+                Col::Value { name, role, scalar, comps, xyz } => {
                     if cell.kind == CellKind::Vector {
+                        if comps.is_empty() {
+                            *xyz = self.prog.vectors == VectorNames::Xyz
+                                && components(bytes).count() <= 3;
+                        }
                         for (k, comp) in components(bytes).enumerate() {
                             let Some(v) = parse_number(comp) else {
                                 failure.get_or_insert(Failure::NotANumber {
@@ -314,7 +326,7 @@ impl TableParser {
                                 continue;
                             };
                             if k >= comps.len() {
-                                let cname = component_name(name, k, self.prog.vectors);
+                                let cname = component_name(name, k, *xyz);
                                 match self.series.intern(&cname, *role, out) {
                                     Some(id) => comps.push(id),
                                     None => {
@@ -405,9 +417,13 @@ impl TableParser {
                 } else {
                     match prog.role_of(n) {
                         None => Col::Ignored,
-                        Some(role) => {
-                            Col::Value { name: n.clone(), role, scalar: None, comps: Vec::new() }
-                        }
+                        Some(role) => Col::Value {
+                            name: n.clone(),
+                            role,
+                            scalar: None,
+                            comps: Vec::new(),
+                            xyz: false,
+                        },
                     }
                 }
             })
@@ -441,11 +457,8 @@ fn missing_index(prog: &TableProgram, h: &Header) -> Option<String> {
     None
 }
 
-fn component_name(base: &str, k: usize, mode: VectorNames) -> String {
-    match mode {
-        VectorNames::Xyz if k < 3 => format!("{base}_{}", ["x", "y", "z"][k]),
-        _ => format!("{base}[{k}]"),
-    }
+fn component_name(base: &str, k: usize, xyz: bool) -> String {
+    if xyz && k < 3 { format!("{base}_{}", ["x", "y", "z"][k]) } else { format!("{base}[{k}]") }
 }
 
 fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> String {
