@@ -8,7 +8,8 @@
 //! 2. the first matching step rule closes the open record (emitting it) and opens a new one,
 //!    taking over any values that were waiting for it (`attach = "next"`);
 //! 3. every value rule is tried, then every event rule, then the end rules;
-//! 4. anchors (`after = "..."`) are updated last, so an anchor line itself is not "after" it.
+//! 4. anchors (`after = "..."`) are updated last, so an anchor line itself is not "after" it
+//!    (an anchor line counts as used).
 //!
 //! The common path allocates nothing: prefilters reject most rules with a prefix or `memmem`
 //! test, captures are read into per-rule reusable `CaptureLocations`, numbers are parsed from
@@ -318,6 +319,7 @@ impl State {
         for (i, anchor) in prog.anchors.iter().enumerate() {
             if self.anchor_seen[i] != self.scope && anchor.is_match(line, ws) {
                 self.anchor_seen[i] = self.scope;
+                used = used.and(LineUse::Used);
             }
         }
 
