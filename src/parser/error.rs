@@ -107,13 +107,15 @@ pub fn from_toml_error(file: &str, text: &str, err: &toml::de::Error) -> Definit
 /// Place a compile-time [`Problem`] in the file: find its key's line when possible.
 pub fn from_problem(file: &str, text: &str, problem: Problem) -> DefinitionError {
     let (line, column) = match DeTable::parse(text) {
-        Ok(doc) => match span_of(doc.get_ref(), &problem.key) {
-            Some(span) => {
-                let (l, c) = line_column(text, span.start);
-                (Some(l), Some(c))
-            }
-            None => (None, None),
-        },
+        // A key that is missing (the problem is its absence) is placed at its parent.
+        Ok(doc) => std::iter::successors(Some(problem.key.as_str()), |k| {
+            k.rfind(['.', '[']).map(|i| &k[..i])
+        })
+        .find_map(|k| span_of(doc.get_ref(), k))
+        .map_or((None, None), |span| {
+            let (l, c) = line_column(text, span.start);
+            (Some(l), Some(c))
+        }),
         Err(_) => (None, None),
     };
     DefinitionError::Invalid {

@@ -52,11 +52,31 @@ pub fn build_regex(pattern: &str) -> Result<Regex, String> {
         .unicode(false)
         .size_limit(SIZE_LIMIT)
         .build()
-        .map_err(|e| format!("invalid regex: {}", one_line(&e.to_string())))
+        .map_err(|e| format!("invalid regex: {}", regex_problem(&e.to_string())))
 }
 
-fn one_line(s: &str) -> String {
-    s.lines().map(str::trim_end).filter(|l| !l.is_empty()).collect::<Vec<_>>().join(" | ")
+/// The regex crate prints a multi-line picture (pattern, caret, `error: ...`); keep the
+/// problem and the caret position, on one line.
+fn regex_problem(s: &str) -> String {
+    let lines: Vec<&str> = s.lines().map(str::trim_end).filter(|l| !l.is_empty()).collect();
+    let problem = lines.iter().find_map(|l| l.strip_prefix("error: "));
+    let caret = lines
+        .iter()
+        .find(|l| l.trim_start().starts_with('^') && l.trim().chars().all(|c| c == '^'));
+    let pattern = lines
+        .iter()
+        .position(|l| Some(l) == caret)
+        .and_then(|i| i.checked_sub(1))
+        .map(|i| lines[i]);
+    match (problem, caret, pattern) {
+        (Some(p), Some(c), Some(pat)) => {
+            let indent = pat.len() - pat.trim_start().len();
+            let col = c.len() - c.trim_start().len();
+            format!("{p} (at character {} of the pattern)", col.saturating_sub(indent) + 1)
+        }
+        (Some(p), _, _) => p.to_string(),
+        _ => lines.join(" "),
+    }
 }
 
 impl Matcher {
