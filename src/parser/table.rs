@@ -325,17 +325,19 @@ impl TableParser {
                                 });
                                 continue;
                             };
-                            if k >= comps.len() {
-                                let cname = component_name(name, k, *xyz);
+                            // Components before `k` may have failed to parse; name them too.
+                            while comps.len() <= k {
+                                let cname = component_name(name, comps.len(), *xyz);
                                 match self.series.intern(&cname, *role, out) {
                                     Some(id) => comps.push(id),
-                                    None => {
-                                        failure.get_or_insert(Failure::TooManySeries);
-                                        break;
-                                    }
+                                    None => break,
                                 }
                             }
-                            rec.values.push((comps[k], v));
+                            let Some(&id) = comps.get(k) else {
+                                failure.get_or_insert(Failure::TooManySeries);
+                                break;
+                            };
+                            rec.values.push((id, v));
                         }
                         continue;
                     }
