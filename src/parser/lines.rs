@@ -1,0 +1,602 @@
+//! The `lines` engine: regex rules over free-text logs, one line at a time.
+//!
+//! A compiled [`LinesProgram`] (built by `lines/compile.rs` from the raw definition) is shared
+//! read-only by every [`LinesParser`]; the parser owns only its mutable state. For each line:
+//!
+//! 1. before the `start_after` marker has been seen, only event and end rules apply (a crash
+//!    while reading the mesh is still reported; banner lines cannot open records);
+//! 2. the first matching step rule closes the open record (emitting it) and opens a new one,
+//!    taking over any values that were waiting for it (`attach = "next"`);
+//! 3. every value rule is tried, then every event rule, then the end rules;
+//! 4. anchors (`after = "..."`) are updated last, so an anchor line itself is not "after" it
+//!    (an anchor line counts as used).
+//!
+//! The common path allocates nothing: prefilters reject most rules with a prefix or `memmem`
+//! test, captures are read into per-rule reusable `CaptureLocations`, numbers are parsed from
+//! the bytes, and series ids are found by byte lookups. Allocation happens when a record is
+//! emitted, a series is first seen, or an event or skip reason is produced.
+
+pub mod compile;
+
+use std::sync::Arc;
+
+use regex::bytes::CaptureLocations;
+
+use super::matcher::{Matcher, leading_ws};
+use super::number::{parse_integer, parse_number};
+use super::series::{FnvMap, LineUse, SeriesTable, Tally, clean_text, excerpt};
+use crate::record::{Event, LineStats, Output, Record, Role, SeriesId, Severity};
+
+/// Most values one record may hold (repeat policy `all` over a huge step-less stretch).
+const MAX_RECORD_VALUES: usize = 100_000;
+
+/// What a rule does.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Kind {
+    Step,
+    Value,
+    Event,
+    End,
+}
+
+impl Kind {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Kind::Step => "step",
+            Kind::Value => "value",
+            Kind::Event => "event",
+            Kind::End => "end",
+        }
+    }
+}
+
+/// What to do when a rule gives the same series more than once in one record.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Repeat {
+    First,
+    Last,
+    Min,
+    Max,
+    /// Keep every value, in order (inner iterations).
+    All,
+}
+
+/// Which record a value rule's values belong to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Attach {
+    /// The record open when the line is read.
+    Current,
+    /// The record the next step line opens (values printed before their step line).
+    Next,
+}
+
+/// How one named capture group becomes a series.
+#[derive(Debug, Clone)]
+pub struct ValueCapture {
+    /// Capture group index in the rule's regex.
+    pub group: usize,
+    /// Group name, for messages.
+    pub label: String,
+    /// Series name, or a template containing `{name}`.
+    pub series: String,
+    /// Does `series` contain `{name}`?
+    pub uses_name: bool,
+    pub role: Role,
+}
+
+/// One compiled rule.
+#[derive(Debug, Clone)]
+pub struct Rule {
+    /// `rules[i]` plus the rule's name when it has one, for skip reasons.
+    pub label: String,
+    pub kind: Kind,
+    pub matcher: Matcher,
+    /// Index into [`LinesProgram::anchors`].
+    pub after: Option<usize>,
+    pub repeat: Repeat,
+    pub attach: Attach,
+    pub name_group: Option<usize>,
+    pub iteration_group: Option<usize>,
+    pub time_group: Option<usize>,
+    pub message_group: Option<usize>,
+    pub values: Vec<ValueCapture>,
+    pub severity: Severity,
+    /// Event rule name (`Event::rule`).
+    pub event_name: String,
+}
+
+/// A validated `lines` definition, ready to run.
+#[derive(Debug, Clone)]
+pub struct LinesProgram {
+    pub start_after: Option<Matcher>,
+    pub rules: Vec<Rule>,
+    pub steps: Vec<usize>,
+    pub values: Vec<usize>,
+    pub events: Vec<usize>,
+    pub ends: Vec<usize>,
+    pub anchors: Vec<Matcher>,
+}
+
+/// Values gathered for one record, with the repeat policy applied as they arrive.
+#[derive(Debug, Clone)]
+struct Accum {
+    values: Vec<(SeriesId, f64)>,
+    /// Generation of this record; `slot_gen[s] == generation` means series `s` has a slot.
+    generation: u64,
+    slot_gen: Vec<u64>,
+    slot_idx: Vec<u32>,
+}
+
+impl Accum {
+    fn new() -> Accum {
+        Accum { values: Vec::new(), generation: 1, slot_gen: Vec::new(), slot_idx: Vec::new() }
+    }
+
+    /// Add a value; `false` when the record is full.
+    fn push(&mut self, s: SeriesId, v: f64, repeat: Repeat) -> bool {
+        let si = s as usize;
+        if repeat == Repeat::All {
+            if self.values.len() >= MAX_RECORD_VALUES {
+                return false;
+            }
+            self.values.push((s, v));
+            return true;
+        }
+        if si >= self.slot_gen.len() {
+            self.slot_gen.resize(si + 1, 0);
+            self.slot_idx.resize(si + 1, 0);
+        }
+        if self.slot_gen[si] == self.generation {
+            let slot = &mut self.values[self.slot_idx[si] as usize].1;
+            let old = *slot;
+            *slot = match repeat {
+                Repeat::First | Repeat::All => old,
+                Repeat::Last => v,
+                // A nan among the matches wins: it is the signal, not noise.
+                Repeat::Min if old.is_nan() || v.is_nan() => f64::NAN,
+                Repeat::Max if old.is_nan() || v.is_nan() => f64::NAN,
+                Repeat::Min => old.min(v),
+                Repeat::Max => old.max(v),
+            };
+            return true;
+        }
+        if self.values.len() >= MAX_RECORD_VALUES {
+            return false;
+        }
+        self.slot_gen[si] = self.generation;
+        self.slot_idx[si] = self.values.len() as u32;
+        self.values.push((s, v));
+        true
+    }
+
+    /// Hand out the values and start an empty record.
+    fn take(&mut self) -> Vec<(SeriesId, f64)> {
+        self.generation += 1;
+        let cap = self.values.len();
+        std::mem::replace(&mut self.values, Vec::with_capacity(cap))
+    }
+
+    fn clear(&mut self) {
+        self.generation += 1;
+        self.values.clear();
+    }
+}
+
+/// Mutable per-rule state.
+#[derive(Debug, Clone)]
+struct RuleState {
+    locs: CaptureLocations,
+    /// Series id of each value capture with a fixed name, once created.
+    fixed: Vec<Option<SeriesId>>,
+    /// Series ids by captured name bytes, per value capture using `{name}`.
+    named: Vec<FnvMap<Box<[u8]>, SeriesId>>,
+    /// Scope in which this (event) rule last fired, for `repeat = "first"`.
+    fired_scope: u64,
+}
+
+/// The record being filled.
+#[derive(Debug, Clone, Copy)]
+struct OpenRecord {
+    iteration: Option<i64>,
+    time: Option<f64>,
+    line: u64,
+}
+
+/// A failure on the current line, formatted only if it will be reported.
+#[derive(Debug, Clone, Copy)]
+enum Failure {
+    NotANumber { rule: usize, capture: usize, span: (usize, usize) },
+    BadIteration { rule: usize, span: (usize, usize) },
+    BadTime { rule: usize, span: (usize, usize) },
+    NoRecord { rule: usize },
+    NoName { rule: usize },
+    TooManySeries { rule: usize },
+    RecordFull { rule: usize },
+}
+
+/// A running `lines` parser for one source.
+#[derive(Debug, Clone)]
+pub struct LinesParser {
+    prog: Arc<LinesProgram>,
+    st: State,
+}
+
+#[derive(Debug, Clone)]
+struct State {
+    line_no: u64,
+    tally: Tally,
+    started: bool,
+    open: Option<OpenRecord>,
+    cur: Accum,
+    pending: Accum,
+    /// Incremented whenever a record opens; anchors and `first` events are per scope.
+    scope: u64,
+    anchor_seen: Vec<u64>,
+    rules: Vec<RuleState>,
+    series: SeriesTable,
+    failure: Option<Failure>,
+}
+
+impl LinesParser {
+    pub fn new(prog: Arc<LinesProgram>) -> LinesParser {
+        let rules = prog
+            .rules
+            .iter()
+            .map(|r| RuleState {
+                locs: r.matcher.regex.capture_locations(),
+                fixed: vec![None; r.values.len()],
+                named: r.values.iter().map(|_| FnvMap::default()).collect(),
+                fired_scope: 0,
+            })
+            .collect();
+        let st = State {
+            line_no: 0,
+            tally: Tally::default(),
+            started: prog.start_after.is_none(),
+            open: None,
+            cur: Accum::new(),
+            pending: Accum::new(),
+            scope: 1,
+            anchor_seen: vec![0; prog.anchors.len()],
+            rules,
+            series: SeriesTable::default(),
+            failure: None,
+        };
+        LinesParser { prog, st }
+    }
+
+    pub fn feed(&mut self, line: &[u8], out: &mut Vec<Output>) {
+        self.st.feed(&self.prog, line, out);
+    }
+
+    pub fn finish(&mut self, out: &mut Vec<Output>) {
+        self.st.close_record(out);
+        self.st.pending.clear();
+    }
+
+    pub fn stats(&self) -> LineStats {
+        self.st.tally.stats
+    }
+}
+
+impl State {
+    fn feed(&mut self, prog: &LinesProgram, raw: &[u8], out: &mut Vec<Output>) {
+        self.line_no += 1;
+        self.tally.stats.lines += 1;
+        let line = raw.strip_suffix(b"\r").unwrap_or(raw);
+        let ws = leading_ws(line);
+        self.failure = None;
+        let mut used = LineUse::Ignored;
+
+        let steps_apply = self.started;
+        if !self.started
+            && let Some(marker) = &prog.start_after
+            && marker.is_match(line, ws)
+        {
+            self.started = true;
+        }
+        if steps_apply {
+            for &r in &prog.steps {
+                let u = self.step_rule(prog, r, line, ws, out);
+                if u != LineUse::Ignored {
+                    used = used.and(u);
+                    break;
+                }
+            }
+            for &r in &prog.values {
+                used = used.and(self.value_rule(prog, r, line, ws, out));
+            }
+        }
+        for &r in &prog.events {
+            used = used.and(self.event_rule(prog, r, line, ws, out));
+        }
+        for &r in &prog.ends {
+            if self.end_rule(prog, r, line, ws, out) {
+                used = used.and(LineUse::Used);
+                break;
+            }
+        }
+        for (i, anchor) in prog.anchors.iter().enumerate() {
+            if self.anchor_seen[i] != self.scope && anchor.is_match(line, ws) {
+                self.anchor_seen[i] = self.scope;
+                used = used.and(LineUse::Used);
+            }
+        }
+
+        match used {
+            LineUse::Ignored => self.tally.stats.ignored += 1,
+            LineUse::Used => self.tally.stats.used += 1,
+            LineUse::Skipped => {
+                let failure = self.failure;
+                self.tally.skip(self.line_no, out, || describe(prog, line, failure));
+            }
+        }
+    }
+
+    fn fail(&mut self, f: Failure) -> LineUse {
+        if self.failure.is_none() {
+            self.failure = Some(f);
+        }
+        LineUse::Skipped
+    }
+
+    fn close_record(&mut self, out: &mut Vec<Output>) {
+        if let Some(open) = self.open.take() {
+            out.push(Output::Record(Record {
+                iteration: open.iteration,
+                time: open.time,
+                values: self.cur.take(),
+                line: open.line,
+            }));
+        }
+    }
+
+    fn step_rule(
+        &mut self,
+        prog: &LinesProgram,
+        r: usize,
+        line: &[u8],
+        ws: usize,
+        out: &mut Vec<Output>,
+    ) -> LineUse {
+        let rule = &prog.rules[r];
+        if !rule.matcher.may_match(line, ws) {
+            return LineUse::Ignored;
+        }
+        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+            return LineUse::Ignored;
+        }
+        let mut result = LineUse::Used;
+        let locs = &self.rules[r].locs;
+        let mut iteration = None;
+        if let Some((s, e)) = rule.iteration_group.and_then(|g| locs.get(g)) {
+            iteration = parse_integer(&line[s..e]);
+            if iteration.is_none() {
+                self.failure.get_or_insert(Failure::BadIteration { rule: r, span: (s, e) });
+                result = LineUse::Skipped;
+            }
+        }
+        let mut time = None;
+        if let Some((s, e)) = rule.time_group.and_then(|g| locs.get(g)) {
+            time = parse_number(&line[s..e]);
+            if time.is_none() {
+                self.failure.get_or_insert(Failure::BadTime { rule: r, span: (s, e) });
+                result = LineUse::Skipped;
+            }
+        }
+        self.close_record(out);
+        self.open = Some(OpenRecord { iteration, time, line: self.line_no });
+        // Values printed before this step line become the new record's first values.
+        std::mem::swap(&mut self.cur, &mut self.pending);
+        self.pending.clear();
+        self.scope += 1;
+        result.and(self.take_values(prog, r, line, false, out))
+    }
+
+    fn value_rule(
+        &mut self,
+        prog: &LinesProgram,
+        r: usize,
+        line: &[u8],
+        ws: usize,
+        out: &mut Vec<Output>,
+    ) -> LineUse {
+        let rule = &prog.rules[r];
+        if !rule.matcher.may_match(line, ws) {
+            return LineUse::Ignored;
+        }
+        if let Some(a) = rule.after
+            && self.anchor_seen[a] != self.scope
+        {
+            return LineUse::Ignored;
+        }
+        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+            return LineUse::Ignored;
+        }
+        let next = rule.attach == Attach::Next;
+        if !next && self.open.is_none() {
+            return self.fail(Failure::NoRecord { rule: r });
+        }
+        self.take_values(prog, r, line, next, out)
+    }
+
+    /// Read the value captures of rule `r` (whose captures are in its `locs`).
+    fn take_values(
+        &mut self,
+        prog: &LinesProgram,
+        r: usize,
+        line: &[u8],
+        next: bool,
+        out: &mut Vec<Output>,
+    ) -> LineUse {
+        let rule = &prog.rules[r];
+        let mut result = LineUse::Used;
+        let State { rules, series, cur, pending, failure, .. } = self;
+        let rs = &mut rules[r];
+        let target = if next { pending } else { cur };
+        let name = rule.name_group.and_then(|g| rs.locs.get(g)).map(|(s, e)| &line[s..e]);
+        for (ci, vc) in rule.values.iter().enumerate() {
+            let Some((s, e)) = rs.locs.get(vc.group) else { continue };
+            let Some(v) = parse_number(&line[s..e]) else {
+                failure.get_or_insert(Failure::NotANumber { rule: r, capture: ci, span: (s, e) });
+                result = LineUse::Skipped;
+                continue;
+            };
+            let id = if vc.uses_name {
+                let Some(key) = name else {
+                    failure.get_or_insert(Failure::NoName { rule: r });
+                    result = LineUse::Skipped;
+                    continue;
+                };
+                match rs.named[ci].get(key) {
+                    Some(&id) => Some(id),
+                    None => {
+                        let cleaned = clean_text(key);
+                        if cleaned.is_empty() {
+                            failure.get_or_insert(Failure::NoName { rule: r });
+                            result = LineUse::Skipped;
+                            continue;
+                        }
+                        let id =
+                            series.intern(&vc.series.replace("{name}", &cleaned), vc.role, out);
+                        if let Some(id) = id
+                            && rs.named[ci].len() < 4 * super::series::MAX_SERIES
+                        {
+                            rs.named[ci].insert(key.into(), id);
+                        }
+                        id
+                    }
+                }
+            } else {
+                match rs.fixed[ci] {
+                    Some(id) => Some(id),
+                    None => {
+                        let id = series.intern(&vc.series, vc.role, out);
+                        rs.fixed[ci] = id;
+                        id
+                    }
+                }
+            };
+            let Some(id) = id else {
+                failure.get_or_insert(Failure::TooManySeries { rule: r });
+                result = LineUse::Skipped;
+                continue;
+            };
+            if !target.push(id, v, rule.repeat) {
+                failure.get_or_insert(Failure::RecordFull { rule: r });
+                result = LineUse::Skipped;
+            }
+        }
+        result
+    }
+
+    fn event_rule(
+        &mut self,
+        prog: &LinesProgram,
+        r: usize,
+        line: &[u8],
+        ws: usize,
+        out: &mut Vec<Output>,
+    ) -> LineUse {
+        let rule = &prog.rules[r];
+        if !rule.matcher.may_match(line, ws) {
+            return LineUse::Ignored;
+        }
+        if let Some(a) = rule.after
+            && self.anchor_seen[a] != self.scope
+        {
+            return LineUse::Ignored;
+        }
+        let rs = &mut self.rules[r];
+        if rule.matcher.regex.captures_read(&mut rs.locs, line).is_none() {
+            return LineUse::Ignored;
+        }
+        if rule.repeat == Repeat::First {
+            if rs.fired_scope == self.scope {
+                return LineUse::Used;
+            }
+            rs.fired_scope = self.scope;
+        }
+        let text = match rule.message_group.and_then(|g| rs.locs.get(g)) {
+            Some((s, e)) => &line[s..e],
+            None => line,
+        };
+        out.push(Output::Event(Event {
+            severity: rule.severity,
+            rule: rule.event_name.clone(),
+            message: clean_text(text),
+            line: self.line_no,
+            iteration: self.open.and_then(|o| o.iteration),
+        }));
+        LineUse::Used
+    }
+
+    fn end_rule(
+        &mut self,
+        prog: &LinesProgram,
+        r: usize,
+        line: &[u8],
+        ws: usize,
+        out: &mut Vec<Output>,
+    ) -> bool {
+        let rule = &prog.rules[r];
+        if !rule.matcher.may_match(line, ws) {
+            return false;
+        }
+        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+            return false;
+        }
+        let text = match rule.message_group.and_then(|g| self.rules[r].locs.get(g)) {
+            Some((s, e)) => &line[s..e],
+            None => line,
+        };
+        let message = clean_text(text);
+        self.close_record(out);
+        self.pending.clear();
+        out.push(Output::EndOfRun { line: self.line_no, message });
+        // A run appended after this one prints its banner again: wait for its marker.
+        if prog.start_after.is_some() {
+            self.started = false;
+        }
+        true
+    }
+}
+
+fn describe(prog: &LinesProgram, line: &[u8], failure: Option<Failure>) -> String {
+    let Some(f) = failure else { return "line could not be used".to_string() };
+    match f {
+        Failure::NotANumber { rule, capture, span } => {
+            let r = &prog.rules[rule];
+            format!(
+                "{}: capture `{}` is not a number: {}",
+                r.label,
+                r.values[capture].label,
+                excerpt(&line[span.0..span.1])
+            )
+        }
+        Failure::BadIteration { rule, span } => format!(
+            "{}: iteration {} is not an integer; record opened without a number",
+            prog.rules[rule].label,
+            excerpt(&line[span.0..span.1])
+        ),
+        Failure::BadTime { rule, span } => format!(
+            "{}: time {} is not a number; record opened without a time",
+            prog.rules[rule].label,
+            excerpt(&line[span.0..span.1])
+        ),
+        Failure::NoRecord { rule } => {
+            format!("{}: value before the first step line (no record open)", prog.rules[rule].label)
+        }
+        Failure::NoName { rule } => {
+            format!("{}: the `name` capture is missing or empty", prog.rules[rule].label)
+        }
+        Failure::TooManySeries { rule } => format!(
+            "{}: more than {} series; new names are dropped",
+            prog.rules[rule].label,
+            super::series::MAX_SERIES
+        ),
+        Failure::RecordFull { rule } => {
+            format!("{}: record already holds {MAX_RECORD_VALUES} values", prog.rules[rule].label)
+        }
+    }
+}

@@ -1,0 +1,496 @@
+//! The `table` engine: delimited columns, one record per data row.
+//!
+//! How a line is classified:
+//!
+//! * blank → ignored; a comment line (after optional blanks, one of the comment prefixes) is
+//!   looked at only as a possible header (`# it res_p Cd` is a common header form);
+//! * a *data row* has a number in its index column (iteration or time), or, when there is no
+//!   index column, numbers in more than half of its cells;
+//! * any other line with at least two cells is a *header candidate*. It becomes the header
+//!   only when a data row with the same number of cells arrives, so a banner or a warning
+//!   printed among the rows never replaces the real header. The current header is kept while
+//!   rows fit it; a copy of it printed again later (every N lines) is recognised and counted
+//!   as used, never as data;
+//! * a data row whose width fits neither the header nor any candidate is skipped with the
+//!   reason.
+//!
+//! With no header at all (`header = "none"`, or numeric rows from the first line), columns
+//! are named `col1`, `col2`, … unless the definition lists `columns`.
+
+pub mod cells;
+pub mod compile;
+
+use std::collections::VecDeque;
+use std::sync::Arc;
+
+use cells::{Cell, CellKind, Delimiter, components, split};
+
+use super::number::{parse_integer, parse_number};
+use super::series::{LineUse, SeriesTable, Tally, clean_text, excerpt};
+use crate::glob;
+use crate::record::{LineStats, Output, Record, Role, SeriesId};
+
+/// Header candidates remembered while waiting for a row that fits one.
+const MAX_CANDIDATES: usize = 8;
+
+/// A column given by 0-based position or by name.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Column {
+    Position(usize),
+    Name(String),
+}
+
+/// How vector components are named.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum VectorNames {
+    /// `name_x`, `name_y`, `name_z` when the column's first vector has at most three
+    /// components, else `name[i]`.
+    Xyz,
+    /// Always `name[0]`, `name[1]`, …
+    Index,
+}
+
+/// A validated `table` definition.
+#[derive(Debug, Clone)]
+pub struct TableProgram {
+    pub delimiter: Delimiter,
+    pub comments: Vec<Vec<u8>>,
+    /// Look for header lines (`header = "auto"`); `false` for `header = "none"`.
+    pub header_auto: bool,
+    /// Fixed column names (`columns = [...]`).
+    pub columns: Option<Vec<String>>,
+    pub iteration: Option<Column>,
+    pub time: Option<Column>,
+    /// With neither `iteration` nor `time`, use the first column (a time column when named
+    /// like `time*` or `t`, else the iteration).
+    pub auto_index: bool,
+    pub residuals: Vec<String>,
+    pub ignore: Vec<String>,
+    pub roles: Vec<(Vec<String>, Role)>,
+    pub default_role: Role,
+    pub case_sensitive: bool,
+    pub vectors: VectorNames,
+}
+
+impl TableProgram {
+    fn glob(&self, pattern: &str, name: &str) -> bool {
+        if self.case_sensitive {
+            glob::matches(pattern, name)
+        } else {
+            glob::matches_ignore_case(pattern, name)
+        }
+    }
+
+    fn same_name(&self, a: &str, b: &str) -> bool {
+        if self.case_sensitive { a == b } else { a.eq_ignore_ascii_case(b) }
+    }
+
+    /// Role of a value column, or `None` when ignored.
+    fn role_of(&self, name: &str) -> Option<Role> {
+        if self.ignore.iter().any(|g| self.glob(g, name)) {
+            return None;
+        }
+        if let Some((_, role)) =
+            self.roles.iter().find(|(gs, _)| gs.iter().any(|g| self.glob(g, name)))
+        {
+            return Some(*role);
+        }
+        if self.residuals.iter().any(|g| self.glob(g, name)) {
+            return Some(Role::Residual);
+        }
+        Some(self.default_role)
+    }
+
+    /// Index column position known before any header is seen.
+    fn index_position_hint(&self) -> Option<usize> {
+        match (&self.iteration, &self.time) {
+            (Some(Column::Position(p)), _) | (None, Some(Column::Position(p))) => Some(*p),
+            (None, None) if self.auto_index => Some(0),
+            _ => None,
+        }
+    }
+}
+
+#[derive(Debug, Clone)]
+enum Col {
+    Iteration,
+    Time,
+    Ignored,
+    Value {
+        name: String,
+        role: Role,
+        scalar: Option<SeriesId>,
+        comps: Vec<SeriesId>,
+        /// Components named `_x/_y/_z`; decided from the first vector seen in the column.
+        xyz: bool,
+    },
+}
+
+#[derive(Debug, Clone)]
+struct Header {
+    /// The cell bytes as printed, to recognise the header when it is printed again.
+    raw: Vec<Vec<u8>>,
+    cols: Vec<Col>,
+    /// Position of the column that tells data rows from other lines.
+    index: Option<usize>,
+    /// A configured index column the header lacks; reported once, on the next row.
+    problem: Option<String>,
+}
+
+/// A failure on the current row, formatted only if reported.
+#[derive(Debug, Clone)]
+enum Failure {
+    Width { cells: usize, header: usize },
+    NotANumber { column: usize, span: (usize, usize) },
+    BadIteration { span: (usize, usize) },
+    MissingIndex(String),
+    TooManySeries,
+}
+
+/// A running `table` parser for one source.
+#[derive(Debug, Clone)]
+pub struct TableParser {
+    prog: Arc<TableProgram>,
+    line_no: u64,
+    tally: Tally,
+    cells: Vec<Cell>,
+    header: Option<Header>,
+    candidates: VecDeque<Vec<Vec<u8>>>,
+    series: SeriesTable,
+}
+
+impl TableParser {
+    pub fn new(prog: Arc<TableProgram>) -> TableParser {
+        let mut p = TableParser {
+            prog,
+            line_no: 0,
+            tally: Tally::default(),
+            cells: Vec::new(),
+            header: None,
+            candidates: VecDeque::new(),
+            series: SeriesTable::default(),
+        };
+        if let Some(cols) = p.prog.columns.clone() {
+            let raw: Vec<Vec<u8>> = cols.into_iter().map(String::into_bytes).collect();
+            p.header = Some(p.build_header(raw));
+        }
+        p
+    }
+
+    pub fn stats(&self) -> LineStats {
+        self.tally.stats
+    }
+
+    /// Table rows are complete when read; nothing is held back.
+    pub fn finish(&mut self, _out: &mut Vec<Output>) {}
+
+    pub fn feed(&mut self, raw: &[u8], out: &mut Vec<Output>) {
+        self.line_no += 1;
+        self.tally.stats.lines += 1;
+        let line = raw.strip_suffix(b"\r").unwrap_or(raw);
+        let (used, failure) = self.classify(line, out);
+        match used {
+            LineUse::Ignored => self.tally.stats.ignored += 1,
+            LineUse::Used => self.tally.stats.used += 1,
+            LineUse::Skipped => {
+                let failure = failure.as_ref();
+                let header = self.header.as_ref();
+                self.tally.skip(self.line_no, out, || describe(line, failure, header));
+            }
+        }
+    }
+
+    fn classify(&mut self, line: &[u8], out: &mut Vec<Output>) -> (LineUse, Option<Failure>) {
+        let lead = line.iter().take_while(|b| b.is_ascii_whitespace()).count();
+        let body = &line[lead..];
+        if body.is_empty() {
+            return (LineUse::Ignored, None);
+        }
+        let comment = self.prog.comments.iter().find(|c| body.starts_with(c)).map(Vec::len);
+        let text = match comment {
+            Some(n) => &body[n..],
+            None => line,
+        };
+        let offset = line.len() - text.len();
+        split(text, self.prog.delimiter, &mut self.cells);
+        // Spans are relative to `text`; shift them to the whole line.
+        for c in &mut self.cells {
+            c.start += offset;
+            c.end += offset;
+        }
+        if self.cells.is_empty() {
+            return (LineUse::Ignored, None);
+        }
+        let data = self.is_data(line);
+        if data && comment.is_none() {
+            return self.row(line, out);
+        }
+        if data || !self.prog.header_auto || self.cells.len() < 2 {
+            return (LineUse::Ignored, None);
+        }
+        if let Some(h) = &self.header
+            && h.raw.len() == self.cells.len()
+            && h.raw.iter().zip(&self.cells).all(|(r, c)| r.as_slice() == c.bytes(line))
+        {
+            return (LineUse::Used, None);
+        }
+        if self.prog.columns.is_none() {
+            if self.candidates.len() == MAX_CANDIDATES {
+                self.candidates.pop_front();
+            }
+            self.candidates.push_back(self.cells.iter().map(|c| c.bytes(line).to_vec()).collect());
+        }
+        (LineUse::Ignored, None)
+    }
+
+    fn is_data(&self, line: &[u8]) -> bool {
+        let numeric = |c: &Cell| match c.kind {
+            CellKind::Vector => components(c.bytes(line)).any(|v| parse_number(v).is_some()),
+            _ => parse_number(c.bytes(line)).is_some(),
+        };
+        let index = match &self.header {
+            Some(h) => h.index,
+            None => self.prog.index_position_hint(),
+        };
+        match index {
+            Some(p) => self.cells.get(p).is_some_and(|c| c.kind != CellKind::Vector && numeric(c)),
+            None => 2 * self.cells.iter().filter(|c| numeric(c)).count() > self.cells.len(),
+        }
+    }
+
+    fn row(&mut self, line: &[u8], out: &mut Vec<Output>) -> (LineUse, Option<Failure>) {
+        let width = self.cells.len();
+        let mut failure = None;
+        let fits = self.header.as_ref().is_some_and(|h| h.cols.len() == width);
+        if !fits {
+            let found = self.candidates.iter().rposition(|c| c.len() == width);
+            let raw = match found {
+                Some(i) => self.candidates.remove(i),
+                None if self.header.is_none() => {
+                    Some((1..=width).map(|i| format!("col{i}").into_bytes()).collect())
+                }
+                None => None,
+            };
+            let Some(raw) = raw else {
+                let header = self.header.as_ref().map_or(0, |h| h.cols.len());
+                return (LineUse::Skipped, Some(Failure::Width { cells: width, header }));
+            };
+            self.header = Some(self.build_header(raw));
+            self.candidates.clear();
+        }
+        let Some(header) = self.header.as_mut() else {
+            return (LineUse::Ignored, None);
+        };
+        if let Some(what) = header.problem.take() {
+            failure = Some(Failure::MissingIndex(what));
+        }
+
+        let mut rec = Record {
+            iteration: None,
+            time: None,
+            values: Vec::with_capacity(width),
+            line: self.line_no,
+        };
+        for (ci, cell) in self.cells.iter().enumerate() {
+            let bytes = cell.bytes(line);
+            match &mut header.cols[ci] {
+                Col::Ignored => {}
+                Col::Iteration => match parse_integer(bytes) {
+                    Some(it) => rec.iteration = Some(it),
+                    None => {
+                        failure
+                            .get_or_insert(Failure::BadIteration { span: (cell.start, cell.end) });
+                    }
+                },
+                Col::Time => match parse_number(bytes) {
+                    Some(t) => rec.time = Some(t),
+                    None => {
+                        failure.get_or_insert(Failure::NotANumber {
+                            column: ci,
+                            span: (cell.start, cell.end),
+                        });
+                    }
+                },
+                Col::Value { name, role, scalar, comps, xyz } => {
+                    if cell.kind == CellKind::Vector {
+                        if comps.is_empty() {
+                            *xyz = self.prog.vectors == VectorNames::Xyz
+                                && components(bytes).count() <= 3;
+                        }
+                        for (k, comp) in components(bytes).enumerate() {
+                            let Some(v) = parse_number(comp) else {
+                                failure.get_or_insert(Failure::NotANumber {
+                                    column: ci,
+                                    span: (cell.start, cell.end),
+                                });
+                                continue;
+                            };
+                            // Components before `k` may have failed to parse; name them too.
+                            while comps.len() <= k {
+                                let cname = component_name(name, comps.len(), *xyz);
+                                match self.series.intern(&cname, *role, out) {
+                                    Some(id) => comps.push(id),
+                                    None => break,
+                                }
+                            }
+                            let Some(&id) = comps.get(k) else {
+                                failure.get_or_insert(Failure::TooManySeries);
+                                break;
+                            };
+                            rec.values.push((id, v));
+                        }
+                        continue;
+                    }
+                    if bytes.trim_ascii().is_empty() {
+                        continue; // an empty cell is a missing value, not an error
+                    }
+                    let Some(v) = parse_number(bytes) else {
+                        failure.get_or_insert(Failure::NotANumber {
+                            column: ci,
+                            span: (cell.start, cell.end),
+                        });
+                        continue;
+                    };
+                    let id = match scalar {
+                        Some(id) => *id,
+                        None => match self.series.intern(name, *role, out) {
+                            Some(id) => {
+                                *scalar = Some(id);
+                                id
+                            }
+                            None => {
+                                failure.get_or_insert(Failure::TooManySeries);
+                                continue;
+                            }
+                        },
+                    };
+                    rec.values.push((id, v));
+                }
+            }
+        }
+        out.push(Output::Record(rec));
+        match failure {
+            None => (LineUse::Used, None),
+            Some(f) => (LineUse::Skipped, Some(f)),
+        }
+    }
+
+    /// Resolve names, index columns and roles for a new header.
+    fn build_header(&self, raw: Vec<Vec<u8>>) -> Header {
+        let prog = &self.prog;
+        let mut names: Vec<String> = Vec::with_capacity(raw.len());
+        for (i, r) in raw.iter().enumerate() {
+            let mut n = clean_text(r).replace("\"\"", "\"");
+            if n.is_empty() {
+                n = format!("col{}", i + 1);
+            }
+            let base = n.clone();
+            let mut k = 2;
+            while names.iter().any(|m| m == &n) {
+                n = format!("{base}_{k}");
+                k += 1;
+            }
+            names.push(n);
+        }
+        let find = |c: &Column| -> Option<usize> {
+            match c {
+                Column::Position(p) => (*p < names.len()).then_some(*p),
+                Column::Name(n) => names.iter().position(|m| prog.same_name(m, n)),
+            }
+        };
+        let mut iter_col = prog.iteration.as_ref().and_then(find);
+        let mut time_col = prog.time.as_ref().and_then(find);
+        if prog.iteration.is_none() && prog.time.is_none() && prog.auto_index && !names.is_empty() {
+            let first = &names[0];
+            if prog.glob("time*", first) || prog.same_name(first, "t") {
+                time_col = Some(0);
+            } else {
+                iter_col = Some(0);
+            }
+        }
+        let cols = names
+            .iter()
+            .enumerate()
+            .map(|(i, n)| {
+                if Some(i) == iter_col {
+                    Col::Iteration
+                } else if Some(i) == time_col {
+                    Col::Time
+                } else {
+                    match prog.role_of(n) {
+                        None => Col::Ignored,
+                        Some(role) => Col::Value {
+                            name: n.clone(),
+                            role,
+                            scalar: None,
+                            comps: Vec::new(),
+                            xyz: false,
+                        },
+                    }
+                }
+            })
+            .collect();
+        let index = iter_col.or(time_col);
+        let mut header = Header { raw, cols, index, problem: None };
+        header.problem = missing_index(prog, &header);
+        header
+    }
+}
+
+/// The configured index column that the header lacks, if any.
+fn missing_index(prog: &TableProgram, h: &Header) -> Option<String> {
+    let has = |want: &Col| {
+        h.cols.iter().any(|c| std::mem::discriminant(c) == std::mem::discriminant(want))
+    };
+    let shown = |c: &Column| match c {
+        Column::Position(p) => format!("column {}", p + 1),
+        Column::Name(n) => format!("column `{n}`"),
+    };
+    if let Some(c) = &prog.iteration
+        && !has(&Col::Iteration)
+    {
+        return Some(format!("iteration {}", shown(c)));
+    }
+    if let Some(c) = &prog.time
+        && !has(&Col::Time)
+    {
+        return Some(format!("time {}", shown(c)));
+    }
+    None
+}
+
+fn component_name(base: &str, k: usize, xyz: bool) -> String {
+    if xyz && k < 3 { format!("{base}_{}", ["x", "y", "z"][k]) } else { format!("{base}[{k}]") }
+}
+
+fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> String {
+    match failure {
+        None => "row could not be used".to_string(),
+        Some(Failure::Width { cells, header: 0 }) => {
+            format!("row has {cells} cells and no header fits it")
+        }
+        Some(Failure::Width { cells, header: w }) => {
+            format!("row has {cells} cells, the header has {w}")
+        }
+        Some(Failure::NotANumber { column, span }) => {
+            let name = header
+                .and_then(|h| h.cols.get(*column))
+                .map(|c| match c {
+                    Col::Value { name, .. } => format!("column `{name}`"),
+                    Col::Time => "time column".to_string(),
+                    _ => format!("column {}", column + 1),
+                })
+                .unwrap_or_else(|| format!("column {}", column + 1));
+            format!("{name}: not a number: {}", excerpt(&line[span.0..span.1]))
+        }
+        Some(Failure::BadIteration { span }) => {
+            format!("iteration {} is not an integer", excerpt(&line[span.0..span.1]))
+        }
+        Some(Failure::MissingIndex(what)) => {
+            format!("{what} is not in the header; records have no iteration/time from it")
+        }
+        Some(Failure::TooManySeries) => {
+            format!("more than {} series; new columns are dropped", super::series::MAX_SERIES)
+        }
+    }
+}
