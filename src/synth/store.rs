@@ -1,0 +1,191 @@
+//! A synthetic run applied straight to a run store, as the tarn parser would fill it.
+//!
+//! The judge can then be measured over thousands of runs without writing and parsing
+//! logs. Series names, roles, event rule names, line numbers and line counts mirror what
+//! the log written by [`super::write_tarn_log`] contains, so a parser test can compare its
+//! store with this one.
+
+use std::borrow::Cow;
+
+use super::tarn::finished_line;
+use super::{EQUATIONS, End, SynthRun};
+use crate::judge::{RunInput, SeriesInput};
+use crate::record::{Event, LineStats, Output, Record, Role, SeriesInfo, Severity};
+use crate::run::{RunStore, SourceStore};
+
+/// Banner lines before the first step (5 facts and the rule).
+const BANNER_LINES: u64 = 6;
+
+/// The value a parser reads back from the printed text: asterisks (magnitudes of 1e100
+/// and more) become an infinity of the same sign; everything else prints exactly as the
+/// generator rounded it.
+fn as_parsed(v: f64) -> f64 {
+    if v.is_finite() && v.abs() >= 1e100 { f64::INFINITY.copysign(v) } else { v }
+}
+
+/// Series of a tarn log in the order the parser meets them, with their roles.
+fn series_layout(unsteady: bool) -> Vec<(String, Role)> {
+    let mut s = vec![(if unsteady { "dt" } else { "cfl" }.to_string(), Role::Info)];
+    for eq in EQUATIONS {
+        s.push((eq.to_string(), Role::Residual));
+        s.push((format!("{eq}/sweeps"), Role::Indicator));
+    }
+    s.push(("continuity".to_string(), Role::Indicator));
+    for m in ["drag", "lift", "dp"] {
+        s.push((m.to_string(), Role::Monitor));
+    }
+    s
+}
+
+/// The store of the complete run: one source `tarn.log` (parser `tarn`), with its end mark,
+/// solver mark or crash event when the log has them.
+pub fn to_store(run: &SynthRun) -> RunStore {
+    to_store_prefix(run, run.steps.len())
+}
+
+/// The store of the first `steps` steps, as a watcher sees the run while it is still
+/// being written: no end-of-run line, no crash lines, unless `steps` covers the whole run.
+pub fn to_store_prefix(run: &SynthRun, steps: usize) -> RunStore {
+    let whole = steps >= run.steps.len();
+    let steps = steps.min(run.steps.len());
+    let mut src = SourceStore::new("tarn.log", "tarn");
+    let layout = series_layout(run.unsteady());
+    let mut out: Vec<Output> = layout
+        .iter()
+        .enumerate()
+        .map(|(id, (name, role))| {
+            Output::Series(SeriesInfo { id: id as u32, name: name.clone(), role: *role })
+        })
+        .collect();
+    let cont_id = 1 + 2 * EQUATIONS.len() as u32;
+    let mut line = BANNER_LINES;
+    let mut used = 0u64;
+    for (k, st) in run.steps[..steps].iter().enumerate() {
+        if st.restart_from.is_some() {
+            line += 1;
+        }
+        line += 1;
+        used += 1;
+        let step_line = line;
+        let partial = match &run.crash {
+            Some(c) if k + 1 == run.steps.len() => Some(c.printed_equations),
+            _ => None,
+        };
+        let mut values = Vec::with_capacity(layout.len());
+        values.push((0, st.dt.unwrap_or(st.cfl)));
+        let equations = partial.unwrap_or(EQUATIONS.len()).min(st.residuals.len());
+        for e in 0..equations {
+            line += 1;
+            used += 1;
+            values.push((1 + 2 * e as u32, as_parsed(st.residuals[e].1)));
+            values.push((2 + 2 * e as u32, f64::from(st.sweeps.get(e).copied().unwrap_or(0))));
+        }
+        let mut events = Vec::new();
+        if partial.is_none() {
+            line += 2;
+            used += 2;
+            values.push((cont_id, as_parsed(st.continuity)));
+            values.push((cont_id + 1, as_parsed(st.drag)));
+            values.push((cont_id + 2, as_parsed(st.lift)));
+            values.push((cont_id + 3, as_parsed(st.dp)));
+            for (rule, texts) in [("warning", &st.warnings), ("notice", &st.notices)] {
+                for t in texts {
+                    line += 1;
+                    used += 1;
+                    events.push(Output::Event(Event {
+                        severity: Severity::Warning,
+                        rule: rule.to_string(),
+                        message: format!("{rule}: {t}"),
+                        line,
+                        iteration: Some(st.iteration),
+                    }));
+                }
+            }
+            line += 1; // wall
+        }
+        out.push(Output::Record(Record {
+            iteration: Some(st.iteration),
+            time: st.time,
+            values,
+            line: step_line,
+        }));
+        out.extend(events);
+    }
+    if whole {
+        let it = run.last_iteration();
+        match run.end {
+            End::Finished => {
+                if run.solver_converged {
+                    line += 1;
+                    used += 1;
+                    out.push(Output::Event(Event {
+                        severity: Severity::Info,
+                        rule: "solver_converged".to_string(),
+                        message: "tarn: residual targets reached".to_string(),
+                        line,
+                        iteration: Some(it),
+                    }));
+                }
+                line += 2;
+                used += 1;
+                out.push(Output::EndOfRun { line, message: finished_line(run) });
+            }
+            End::Crash => {
+                if let Some(c) = &run.crash {
+                    line += 1;
+                    used += 1;
+                    out.push(Output::Event(Event {
+                        severity: Severity::Error,
+                        rule: "crash".to_string(),
+                        message: format!("*** {}", c.message),
+                        line,
+                        iteration: Some(it),
+                    }));
+                    line += c.trace.len() as u64;
+                }
+            }
+            End::Running => {}
+        }
+    }
+    src.apply(out);
+    src.set_stats(LineStats { lines: line, used, skipped: 0, ignored: line - used });
+    let mut store = RunStore::new(run.case.clone());
+    store.sources.push(src);
+    store
+}
+
+/// The judge's view of the first `steps` steps, cut from the view of the complete run
+/// (`full` must be `to_store(run).judge_input()`), without building a new store: every
+/// series of [`to_store`] has one value per record from the first record on, so a prefix
+/// is a slice. Events of the first `steps` steps are kept; end and crash marks are not.
+pub fn prefix_input<'a>(full: &'a RunInput<'_>, run: &SynthRun, steps: usize) -> RunInput<'a> {
+    let whole = steps >= run.steps.len();
+    let events_kept: usize = if whole {
+        full.events.len()
+    } else {
+        run.steps[..steps].iter().map(|s| s.warnings.len() + s.notices.len()).sum()
+    };
+    let series = full
+        .series
+        .iter()
+        .map(|s| {
+            let count = s.values.len().min(steps);
+            SeriesInput {
+                name: Cow::Borrowed(&*s.name),
+                role: s.role,
+                iterations: Cow::Borrowed(&s.iterations[..count]),
+                values: Cow::Borrowed(&s.values[..count]),
+                segment_starts: s.segment_starts.iter().copied().filter(|&i| i < count).collect(),
+            }
+        })
+        .collect();
+    RunInput {
+        series,
+        events: full.events[..events_kept.min(full.events.len())]
+            .iter()
+            .map(|e| Cow::Borrowed(&**e))
+            .collect(),
+        ended: whole && full.ended,
+        ended_at: if whole { full.ended_at } else { None },
+    }
+}
