@@ -16,3 +16,4 @@ pub mod report;
 pub mod run;
 pub mod synth;
 pub mod tui;
+pub mod view;

@@ -6,6 +6,7 @@ pub mod config;
 pub mod downsample;
 pub mod headless;
 pub mod ingest;
+pub mod pipeline;
 pub mod store;
 
 pub use store::{RunStore, Segment, SegmentReason, Series, SourceStore};

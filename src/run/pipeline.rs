@@ -1,0 +1,351 @@
+//! Moving followed lines through parsers into batches: the same code serves one-shot reads
+//! (`parse`, `check`, `report`) and the live ingest thread (`watch`).
+//!
+//! A [`SourceReader`] owns one follower and the parser instance for its current file. It
+//! picks the parser by name or, when none is named, by detection on the first bytes of the
+//! file once the file exists. The live loop ([`spawn_live`]) owns every reader on one thread
+//! and blocks on file events or the poll tick; it never busy-waits.
+
+use std::path::PathBuf;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::Sender;
+use std::thread::JoinHandle;
+use std::time::{Duration, SystemTime};
+
+use thiserror::Error;
+
+use crate::follow::{FollowConfig, FollowItem, Follower, Waker};
+use crate::parser::{Parser, Registry};
+use crate::record::Output;
+use crate::run::config::{RunSpec, SourceSpec};
+use crate::run::ingest::{IngestBatch, IngestItem, SourceActivity, apply};
+use crate::run::store::{RunStore, SourceStore};
+
+/// How many bytes of a file detection looks at.
+const DETECT_BYTES: usize = 64 * 1024;
+
+/// Errors that stop a source before it starts.
+#[derive(Debug, Error)]
+pub enum PipelineError {
+    #[error("{source_path}: unknown parser `{name}` (see `settle parsers list`)")]
+    UnknownParser { source_path: String, name: String },
+    #[error("{path}: no parser definition recognises this file{detail}; name one with --parser")]
+    NotRecognised { path: PathBuf, detail: String },
+    #[error("{path}: file not found")]
+    Missing { path: PathBuf },
+}
+
+/// The parser of a source's current file, chosen by name or by detection on its first lines.
+///
+/// Detection looks at the head of the file; instead of re-reading the file, the first lines
+/// are kept (up to [`DETECT_BYTES`]) until a definition claims them, then replayed.
+struct ParserSlot {
+    named: Option<String>,
+    chosen: Option<String>,
+    parser: Option<Parser>,
+    head: Vec<u8>,
+}
+
+impl ParserSlot {
+    fn feed(
+        &mut self,
+        registry: &Registry,
+        line: &[u8],
+        out: &mut Vec<Output>,
+        path: &str,
+    ) -> Result<(), PipelineError> {
+        if let Some(p) = self.parser.as_mut() {
+            p.feed(line, out);
+            return Ok(());
+        }
+        self.head.extend_from_slice(line);
+        self.head.push(b'\n');
+        if self.head.len() >= DETECT_BYTES || self.named.is_some() {
+            self.decide(registry, true, out, path)?;
+        }
+        Ok(())
+    }
+
+    /// Choose the parser from the kept head; with `force`, failing to choose is an error.
+    fn decide(
+        &mut self,
+        registry: &Registry,
+        force: bool,
+        out: &mut Vec<Output>,
+        path: &str,
+    ) -> Result<bool, PipelineError> {
+        if self.parser.is_some() {
+            return Ok(true);
+        }
+        if self.head.is_empty() && self.named.is_none() {
+            return Ok(false);
+        }
+        let name = match &self.named {
+            Some(n) => n.clone(),
+            None => {
+                let det = registry.detect(&self.head);
+                match det.chosen {
+                    Some(n) => n,
+                    None if !force => return Ok(false),
+                    None => {
+                        let detail = det
+                            .candidates
+                            .first()
+                            .map(|c| format!(" (closest `{}`: {})", c.name, c.reasons.join("; ")))
+                            .unwrap_or_default();
+                        return Err(PipelineError::NotRecognised { path: path.into(), detail });
+                    }
+                }
+            }
+        };
+        let def = registry.get(&name).ok_or_else(|| PipelineError::UnknownParser {
+            source_path: path.to_string(),
+            name: name.clone(),
+        })?;
+        let mut parser = def.parser();
+        let head = std::mem::take(&mut self.head);
+        let kept = head.strip_suffix(b"\n").unwrap_or(&head);
+        if !head.is_empty() {
+            for line in kept.split(|&b| b == b'\n') {
+                parser.feed(line, out);
+            }
+        }
+        self.parser = Some(parser);
+        self.chosen = Some(name);
+        Ok(true)
+    }
+
+    /// Close the current parser (a restart): flush its open record.
+    fn close(&mut self, out: &mut Vec<Output>) -> Option<crate::record::LineStats> {
+        let stats = self.parser.as_mut().map(|p| {
+            p.finish(out);
+            p.stats()
+        });
+        self.parser = None;
+        self.head.clear();
+        if self.named.is_none() {
+            self.chosen = None;
+        }
+        stats
+    }
+}
+
+/// One source: its follower and the parser of its current file.
+pub struct SourceReader {
+    follower: Follower,
+    registry: Arc<Registry>,
+    slot: ParserSlot,
+    label: String,
+    out: Vec<Output>,
+}
+
+impl SourceReader {
+    /// A reader for `spec`; fails only when a named parser does not exist.
+    pub fn new(
+        spec: &SourceSpec,
+        registry: Arc<Registry>,
+        cfg: FollowConfig,
+    ) -> Result<SourceReader, PipelineError> {
+        if let Some(name) = &spec.parser
+            && registry.get(name).is_none()
+        {
+            return Err(PipelineError::UnknownParser {
+                source_path: spec.label.clone(),
+                name: name.clone(),
+            });
+        }
+        Ok(SourceReader {
+            follower: Follower::new(spec.path.clone(), cfg),
+            registry,
+            slot: ParserSlot {
+                named: spec.parser.clone(),
+                chosen: spec.parser.clone(),
+                parser: None,
+                head: Vec::new(),
+            },
+            label: spec.label.clone(),
+            out: Vec::new(),
+        })
+    }
+
+    /// The source's label (path as the user wrote it).
+    pub fn label(&self) -> &str {
+        &self.label
+    }
+
+    /// Name of the parser in use, once known.
+    pub fn parser_name(&self) -> Option<&str> {
+        self.slot.chosen.as_deref()
+    }
+
+    /// The follower's view of its files.
+    pub fn follower(&self) -> &Follower {
+        &self.follower
+    }
+
+    pub fn follower_mut(&mut self) -> &mut Follower {
+        &mut self.follower
+    }
+
+    /// Read what is new; returns the items to apply (empty when nothing changed).
+    ///
+    /// With `at_end` (one-shot reads), the final unterminated line is used, the open record
+    /// is flushed and a file no definition recognises is an error.
+    pub fn read(&mut self, at_end: bool) -> Result<Vec<IngestItem>, PipelineError> {
+        let SourceReader { follower, registry, slot, label, out } = self;
+        let mut items = Vec::new();
+        let mut grew = false;
+        let mut error = None;
+        let mut sink = |item: FollowItem<'_>| {
+            if error.is_some() {
+                return;
+            }
+            match item {
+                FollowItem::Line(line) => {
+                    grew = true;
+                    if let Err(e) = slot.feed(registry, line, out, label) {
+                        error = Some(e);
+                    }
+                }
+                FollowItem::Restart(reason) => {
+                    let stats = slot.close(out);
+                    items.extend(out.drain(..).map(IngestItem::Output));
+                    if let Some(s) = stats {
+                        items.push(IngestItem::Stats(s));
+                    }
+                    items.push(IngestItem::Restart(reason));
+                }
+                FollowItem::Note(n) => items.push(IngestItem::Note(n)),
+                FollowItem::Progress { read, total } => {
+                    items.push(IngestItem::Progress { read, total })
+                }
+            }
+        };
+        if at_end {
+            follower.read_to_end(&mut sink);
+        } else {
+            follower.poll(&mut sink);
+        }
+        if let Some(e) = error {
+            return Err(e);
+        }
+        slot.decide(registry, at_end, out, label)?;
+        if at_end && let Some(p) = slot.parser.as_mut() {
+            p.finish(out);
+        }
+        items.extend(out.drain(..).map(IngestItem::Output));
+        if let Some(p) = &slot.parser {
+            items.push(IngestItem::Stats(p.stats()));
+        }
+        if grew {
+            items.push(IngestItem::Grew(SystemTime::now()));
+        }
+        Ok(items)
+    }
+}
+
+/// Read every source of `spec` to the end of its data, once (`parse`, `check`, `report`).
+///
+/// Returns the store and, per source, the parser name that was used.
+pub fn read_run(
+    spec: &RunSpec,
+    registry: Arc<Registry>,
+) -> Result<(RunStore, Vec<String>), PipelineError> {
+    let mut run = RunStore::new(spec.name.clone());
+    let mut parsers = Vec::new();
+    for s in &spec.sources {
+        if !crate::glob::is_pattern(&s.path.to_string_lossy()) && !s.path.exists() {
+            return Err(PipelineError::Missing { path: s.path.clone() });
+        }
+        let mut reader = SourceReader::new(s, registry.clone(), FollowConfig::default())?;
+        let items = reader.read(true)?;
+        let name = reader.parser_name().unwrap_or("-").to_string();
+        let mut store = SourceStore::new(s.label.clone(), name.clone());
+        let mut activity = SourceActivity::default();
+        apply(&mut store, &mut activity, items);
+        run.sources.push(store);
+        parsers.push(name);
+    }
+    Ok((run, parsers))
+}
+
+/// One source of the live loop, with the run and source index its batches carry.
+pub struct LiveSource {
+    pub run: usize,
+    pub source: usize,
+    pub reader: SourceReader,
+}
+
+/// Start the ingest thread: it owns every follower, wakes on file events or the poll tick
+/// (never a busy loop), and sends each non-empty batch through `tx` wrapped by `wrap`.
+///
+/// The thread ends when `shutdown` is set or the receiver is gone. A panic inside it is
+/// caught and reported through `on_panic`, so the UI can restore the terminal and exit.
+pub fn spawn_live<M: Send + 'static>(
+    mut sources: Vec<LiveSource>,
+    poll: Duration,
+    tx: Sender<M>,
+    wrap: fn(IngestBatch) -> M,
+    on_panic: fn(String) -> M,
+    shutdown: Arc<AtomicBool>,
+) -> std::io::Result<JoinHandle<()>> {
+    std::thread::Builder::new().name("settle-ingest".into()).spawn(move || {
+        let panic_tx = tx.clone();
+        let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(move || {
+            live_loop(&mut sources, poll, &tx, wrap, &shutdown)
+        }));
+        if let Err(p) = result {
+            let msg = p
+                .downcast_ref::<String>()
+                .cloned()
+                .or_else(|| p.downcast_ref::<&str>().map(|s| s.to_string()))
+                .unwrap_or_else(|| "ingest thread panicked".into());
+            let _ = panic_tx.send(on_panic(msg));
+        }
+    })
+}
+
+fn live_loop<M>(
+    sources: &mut [LiveSource],
+    poll: Duration,
+    tx: &Sender<M>,
+    wrap: fn(IngestBatch) -> M,
+    shutdown: &AtomicBool,
+) {
+    let mut waker = Waker::new();
+    let mut failed = vec![false; sources.len()];
+    while !shutdown.load(Ordering::Relaxed) {
+        let names_dirty = waker.take_names_dirty();
+        for (i, s) in sources.iter_mut().enumerate() {
+            if names_dirty {
+                s.reader.follower_mut().hint_names();
+            }
+            for dir in s.reader.follower().watch_dirs() {
+                waker.watch(&dir);
+            }
+            if failed[i] {
+                continue;
+            }
+            let items = match s.reader.read(false) {
+                Ok(items) => items,
+                Err(e) => {
+                    failed[i] = true;
+                    vec![IngestItem::Note(format!("stopped reading: {e}"))]
+                }
+            };
+            let mut items = items;
+            let notes: Vec<IngestItem> =
+                waker.take_notes().into_iter().map(IngestItem::Note).collect();
+            items.extend(notes);
+            if items.iter().all(|it| matches!(it, IngestItem::Stats(_))) {
+                continue;
+            }
+            let batch = IngestBatch { run: s.run, source: s.source, items };
+            if tx.send(wrap(batch)).is_err() {
+                return;
+            }
+        }
+        waker.wait(poll);
+    }
+}

@@ -1,0 +1,157 @@
+//! What `settle check` prints: the verdict first, then the criteria table, the findings and
+//! the ETA. The JSON form is the stable schema documented in the README. Pure functions.
+
+use std::fmt::Write;
+
+use serde_json::{Value, json};
+
+use crate::judge::{Comparison, CriterionResult, Judgement, Verdict};
+use crate::run::RunStore;
+use crate::view::parse::{clean, jnum, num};
+
+fn criterion_value(c: &CriterionResult) -> String {
+    if c.value.is_nan() {
+        return "n/a".into();
+    }
+    match c.unit.as_str() {
+        "%" => format!("{:.3} %", c.value),
+        "dec" => format!("{:.2} dec", c.value),
+        _ => num(c.value),
+    }
+}
+
+fn criterion_threshold(c: &CriterionResult) -> String {
+    let op = match c.comparison {
+        Comparison::AtLeast => "≥",
+        Comparison::AtMost => "≤",
+    };
+    let t = match c.unit.as_str() {
+        "%" => format!("{} %", num(c.threshold)),
+        "dec" => format!("{} dec", num(c.threshold)),
+        _ => num(c.threshold),
+    };
+    format!("{op} {t}")
+}
+
+/// The human report of one judged run.
+pub fn text(run: &RunStore, j: &Judgement) -> String {
+    let mut o = String::new();
+    let since = match (j.verdict, j.since) {
+        (Verdict::Converged, Some(it)) => format!(" (all criteria held since iteration {it})"),
+        (_, Some(it)) => format!(" (since iteration {it})"),
+        _ => String::new(),
+    };
+    let _ = writeln!(
+        o,
+        "{}: {} at iteration {}{since}",
+        run.name,
+        j.verdict.as_str().to_uppercase(),
+        j.iterations
+    );
+    for &i in &j.causes {
+        if let Some(f) = j.findings.get(i) {
+            let _ = writeln!(o, "  why: {}", clean(&f.detail));
+        }
+    }
+    if !j.criteria.is_empty() {
+        let _ = writeln!(o, "\ncriteria");
+        let w = j.criteria.iter().map(|c| c.series.chars().count()).max().unwrap_or(6).max(6);
+        for c in &j.criteria {
+            let mark = if c.met { "[met]" } else { "[not met]" };
+            let held = match (c.met, c.since) {
+                (true, Some(it)) => format!("since it {it}"),
+                _ => String::new(),
+            };
+            let _ = writeln!(
+                o,
+                "  {mark:<9} {:<w$}  {:<5} {:>12}  {:<14} {held}{}",
+                c.series,
+                c.name,
+                criterion_value(c),
+                criterion_threshold(c),
+                if c.default { " (default)" } else { "" }
+            );
+        }
+    }
+    let shown: Vec<_> = j
+        .findings
+        .iter()
+        .enumerate()
+        .filter(|(i, f)| f.supports.is_some() || j.causes.contains(i))
+        .collect();
+    if !shown.is_empty() {
+        let _ = writeln!(o, "\nfindings");
+        for (_, f) in shown {
+            let p = f.p_value.map(|p| format!(", p = {p:.2e}")).unwrap_or_default();
+            let _ = writeln!(
+                o,
+                "  {:<20} it {}–{}: {}{p}",
+                f.kind.as_str(),
+                f.first,
+                f.last,
+                clean(&f.detail)
+            );
+        }
+    }
+    let etas: Vec<String> = j
+        .residuals
+        .iter()
+        .filter_map(|r| r.eta_iterations.map(|e| format!("{} ~{:.0} it", r.series, e)))
+        .collect();
+    if j.verdict == Verdict::Converging && !etas.is_empty() {
+        let _ = writeln!(o, "\nestimated iterations to target: {}", etas.join(", "));
+    }
+    let notes: Vec<String> = j
+        .findings
+        .iter()
+        .filter(|f| f.supports.is_none())
+        .map(|f| format!("  {}: {}", f.kind.as_str(), clean(&f.detail)))
+        .collect();
+    if !notes.is_empty() {
+        let _ = writeln!(o, "\nnotes");
+        for n in notes.iter().take(12) {
+            let _ = writeln!(o, "{n}");
+        }
+    }
+    o
+}
+
+/// The stable JSON object of `settle check --json` (schema in the README).
+pub fn json(run: &RunStore, parsers: &[String], j: &Judgement) -> Value {
+    let series: Vec<Value> = run
+        .sources
+        .iter()
+        .flat_map(|src| {
+            src.series().iter().map(move |s| {
+                json!({
+                    "name": s.name,
+                    "role": s.role.as_str(),
+                    "source": src.label,
+                    "records": s.len(),
+                    "last": s.last().map(jnum),
+                })
+            })
+        })
+        .collect();
+    let sources: Vec<Value> = run
+        .sources
+        .iter()
+        .zip(parsers)
+        .map(|(s, p)| json!({"path": s.label, "parser": p, "records": s.records(), "ended": s.ended.is_some()}))
+        .collect();
+    json!({
+        "settle": env!("CARGO_PKG_VERSION"),
+        "run": run.name,
+        "verdict": j.verdict.as_str(),
+        "exit_code": j.verdict.exit_code(),
+        "since": j.since,
+        "iterations": j.iterations,
+        "criteria": j.criteria,
+        "findings": j.findings,
+        "causes": j.causes,
+        "residuals": j.residuals,
+        "monitors": j.monitors,
+        "series": series,
+        "sources": sources,
+    })
+}
