@@ -211,3 +211,9 @@ impl PollOutcome {
         self.bytes > 0
     }
 }
+
+/// The files a source spec names now, in reading order: a plain path as is, a restart glob
+/// (`run.log.*`) expanded in natural order (`.2` before `.10`). For provenance and listings.
+pub fn matching_files(spec: &std::path::Path) -> std::io::Result<Vec<std::path::PathBuf>> {
+    spec::Spec::new(spec.to_path_buf()).matches()
+}

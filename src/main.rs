@@ -50,6 +50,47 @@ enum Command {
     /// 10 converging, 11 stalled, 12 oscillating, 13 suspect, 14 diverging (1 = error,
     /// 2 = usage error).
     Check(CheckArgs),
+    /// Write a convergence report (HTML, Markdown or JSON, by the extension of -o).
+    ///
+    /// The report documents which criteria were met, with plots, the findings and their
+    /// evidence, iterative uncertainty of each monitor, provenance (file hashes, parser,
+    /// criteria) and, with --mesh-study, the grid convergence index of Celik et al. (2008).
+    Report(ReportArgs),
+}
+
+#[derive(Args, Debug)]
+struct ReportArgs {
+    /// The run to report: a log file, several files of one run, or a case directory holding
+    /// settle.toml. With --mesh-study and no PATH, the finest run is reported.
+    #[arg(value_name = "PATH")]
+    paths: Vec<PathBuf>,
+    /// Output file: .html (self-contained), .md (SVG plots written beside it) or .json.
+    #[arg(short, long, value_name = "FILE")]
+    output: PathBuf,
+    /// Parser definition for every file given (default: detect per file).
+    #[arg(long, value_name = "NAME")]
+    parser: Option<String>,
+    /// Run config to use (default: settle.toml in a directory given as PATH).
+    #[arg(long, value_name = "FILE")]
+    config: Option<PathBuf>,
+    #[command(flatten)]
+    criteria: CriteriaArgs,
+    /// Three runs of a mesh study, coarse to fine (case directories or log files); adds a
+    /// grid-convergence section for --monitor.
+    #[arg(long, num_args = 3, value_names = ["COARSE", "MEDIUM", "FINE"])]
+    mesh_study: Option<Vec<PathBuf>>,
+    /// Monitor compared across the mesh study (its mean over the final window is used).
+    #[arg(long, value_name = "NAME", requires = "mesh_study")]
+    monitor: Option<String>,
+    /// Cell counts of the three meshes, coarse to fine.
+    #[arg(long, num_args = 3, value_names = ["N1", "N2", "N3"], conflicts_with = "spacing", requires = "mesh_study")]
+    cells: Option<Vec<u64>>,
+    /// Representative cell sizes of the three meshes, coarse to fine.
+    #[arg(long, num_args = 3, value_names = ["H1", "H2", "H3"], requires = "mesh_study")]
+    spacing: Option<Vec<f64>>,
+    /// Dimension used to turn cell counts into a cell size.
+    #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(2..=3))]
+    dim: u8,
 }
 
 #[derive(Args, Debug)]
@@ -162,6 +203,7 @@ fn run(cli: Cli) -> Result<u8> {
         Command::Parse(a) => cmd_parse(a, registry),
         Command::Parsers(a) => cmd_parsers(a, &registry),
         Command::Check(a) => cmd_check(a, registry),
+        Command::Report(a) => cmd_report(a, registry),
     }
 }
 
@@ -370,4 +412,112 @@ fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
         out(&view::check::text(&run, &j))?;
     }
     Ok(j.verdict.exit_code() as u8)
+}
+
+/// Read and judge one run given on the command line.
+fn load_and_judge(
+    paths: &[PathBuf],
+    config_file: Option<&Path>,
+    parser: Option<&str>,
+    criteria: &CriteriaArgs,
+    registry: Arc<Registry>,
+) -> Result<(RunSpec, RunStore, Vec<String>, Judgement)> {
+    let mut spec = resolve_run(paths, config_file, parser)?;
+    spec.criteria = spec.criteria.merged(&criteria.to_criteria());
+    config::check_criteria(&spec.criteria).map_err(|(k, m)| {
+        anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
+    })?;
+    let (run, parsers) = pipeline::read_run(&spec, registry)?;
+    let j = judge_run(&run, &spec.criteria);
+    Ok((spec, run, parsers, j))
+}
+
+fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
+    use settle::report::gci::{GridPoint, GridSize, MeshStudy};
+    use settle::report::{ParserProvenance, Provenance, ReportInput};
+
+    let mut mesh = None;
+    let mut paths = a.paths.clone();
+    if let Some(runs) = &a.mesh_study {
+        let monitor = a.monitor.clone().context("--mesh-study needs --monitor NAME")?;
+        let sizes: Vec<GridSize> = match (&a.cells, &a.spacing) {
+            (Some(c), _) => c.iter().map(|&n| GridSize::Cells(n)).collect(),
+            (None, Some(h)) => h.iter().map(|&h| GridSize::Spacing(h)).collect(),
+            (None, None) => bail!("--mesh-study needs --cells N1 N2 N3 or --spacing H1 H2 H3"),
+        };
+        let mut grids = Vec::new();
+        for ((path, size), label) in runs.iter().zip(sizes).zip(["coarse", "medium", "fine"]) {
+            let (_, _, _, j) = load_and_judge(
+                std::slice::from_ref(path),
+                None,
+                a.parser.as_deref(),
+                &a.criteria,
+                registry.clone(),
+            )
+            .with_context(|| format!("mesh study run {}", path.display()))?;
+            let m = j.monitors.iter().find(|m| m.series == monitor).with_context(|| {
+                format!(
+                    "{}: no monitor `{monitor}` (monitors: {})",
+                    path.display(),
+                    j.monitors.iter().map(|m| m.series.as_str()).collect::<Vec<_>>().join(", ")
+                )
+            })?;
+            grids.push(GridPoint {
+                name: format!("{label} ({})", path.display()),
+                size,
+                value: m.mean,
+                iterative_error: m.iterative_error,
+            });
+        }
+        let grids: [GridPoint; 3] =
+            grids.try_into().map_err(|_| anyhow::anyhow!("three runs expected"))?;
+        mesh = Some(MeshStudy { monitor, grids, dim: a.dim });
+        if paths.is_empty() {
+            paths.push(runs[2].clone());
+        }
+    }
+    if paths.is_empty() {
+        bail!("give the run to report (PATH), or --mesh-study COARSE MEDIUM FINE");
+    }
+    let (spec, run, parsers, j) = load_and_judge(
+        &paths,
+        a.config.as_deref(),
+        a.parser.as_deref(),
+        &a.criteria,
+        registry.clone(),
+    )?;
+    let mut files = Vec::new();
+    for s in &spec.sources {
+        files.extend(settle::follow::matching_files(&s.path)?);
+    }
+    let mut parser_prov = Vec::new();
+    for name in &parsers {
+        if parser_prov.iter().any(|p: &ParserProvenance| &p.name == name) {
+            continue;
+        }
+        if let Some(d) = registry.get(name) {
+            let origin = match d.origin() {
+                settle::parser::Origin::Builtin => "built in".to_string(),
+                settle::parser::Origin::File(p) => p.display().to_string(),
+            };
+            parser_prov.push(ParserProvenance::new(name.clone(), origin, d.source_text()));
+        }
+    }
+    let provenance =
+        Provenance::collect(std::env::args().collect(), parser_prov, &files, &spec.criteria)
+            .context("hashing the sources")?;
+    let input = ReportInput {
+        run: &run,
+        judgement: &j,
+        criteria: &spec.criteria,
+        provenance: &provenance,
+        mesh: mesh.as_ref(),
+    };
+    let written = settle::report::write_report(&a.output, &input)?;
+    let mut o = format!("{}: {} — report written:\n", run.name, j.verdict.as_str());
+    for w in written {
+        o.push_str(&format!("  {}\n", w.display()));
+    }
+    out(&o)?;
+    Ok(0)
 }

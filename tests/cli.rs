@@ -30,7 +30,11 @@ fn samples() -> PathBuf {
 }
 
 /// Write a generated run as tarn.log + forces.csv into a fresh directory.
-fn write_case(scenario: Scenario, seed: u64, iterations: usize) -> (tempfile::TempDir, synth::SynthRun) {
+fn write_case(
+    scenario: Scenario,
+    seed: u64,
+    iterations: usize,
+) -> (tempfile::TempDir, synth::SynthRun) {
     let opts = Options { iterations: Some(iterations), ..Options::default() };
     let run = synth::generate_with(scenario, seed, &opts);
     let dir = tempfile::tempdir().unwrap();
@@ -173,7 +177,8 @@ fn user_parser_folder_adds_definitions_and_bad_ones_are_rejected() {
     std::fs::write(dir.path().join("mycsv.toml"), text).unwrap();
     let o = settle(&["--parsers", dir.path().to_str().unwrap(), "parsers", "list"]);
     assert!(stdout(&o).lines().any(|l| l.starts_with("mycsv")), "{}", stdout(&o));
-    std::fs::write(dir.path().join("bad.toml"), "name = \"bad\"\nengine = \"lines\"\nbogus = 1\n").unwrap();
+    std::fs::write(dir.path().join("bad.toml"), "name = \"bad\"\nengine = \"lines\"\nbogus = 1\n")
+        .unwrap();
     let o = settle(&["--parsers", dir.path().to_str().unwrap(), "parsers", "list"]);
     assert_eq!(o.status.code(), Some(1));
     let err = stderr(&o);
@@ -184,7 +189,8 @@ fn user_parser_folder_adds_definitions_and_bad_ones_are_rejected() {
 fn check_json_has_the_documented_keys_and_exit_code() {
     let s = samples();
     let o = settle(&["check", "--json", s.join("duct-bend-07").to_str().unwrap()]);
-    let v: Value = serde_json::from_str(&stdout(&o)).unwrap_or_else(|e| panic!("{e}: {}", stdout(&o)));
+    let v: Value =
+        serde_json::from_str(&stdout(&o)).unwrap_or_else(|e| panic!("{e}: {}", stdout(&o)));
     for key in ["verdict", "criteria", "findings", "series", "iterations", "since", "causes"] {
         assert!(v.get(key).is_some(), "{key} missing");
     }
@@ -197,11 +203,16 @@ fn check_json_has_the_documented_keys_and_exit_code() {
 #[test]
 fn check_rejects_a_bad_config_naming_file_and_key() {
     let dir = tempfile::tempdir().unwrap();
-    std::fs::write(dir.path().join("settle.toml"), "name = 'x'\n[[source]]\npath = 'a.log'\nwindow = 3\n").unwrap();
+    std::fs::write(
+        dir.path().join("settle.toml"),
+        "name = 'x'\n[[source]]\npath = 'a.log'\nwindow = 3\n",
+    )
+    .unwrap();
     let o = settle(&["check", dir.path().to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(1));
     let err = stderr(&o);
     assert!(err.contains("settle.toml") && err.contains("window"), "{err}");
-    let o = settle(&["check", "--drift", "-1", samples().join("plain/history.csv").to_str().unwrap()]);
+    let o =
+        settle(&["check", "--drift", "-1", samples().join("plain/history.csv").to_str().unwrap()]);
     assert_ne!(o.status.code(), Some(0));
 }
