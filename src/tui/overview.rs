@@ -38,7 +38,7 @@ fn columns(total: usize, longest_name: usize) -> Columns {
         name -= 1;
     }
     let rest = total.saturating_sub(fixed(name) + 1);
-    let (spark, leading, worst) = if rest >= 12 + 1 + 16 + 1 + 14 {
+    let (spark, leading, worst) = if rest >= 12 + 1 + 16 + 1 + 22 {
         (12, 16, rest - 30)
     } else if rest >= 12 + 1 + 12 {
         (12, 0, rest - 13)

@@ -53,7 +53,8 @@ fn too_small(frame: &mut Frame, area: Rect) {
     if area.width == 0 || area.height == 0 {
         return;
     }
-    let text = fit("terminal too small", area.width as usize);
+    let msg = if area.width >= 18 { "terminal too small" } else { "too small" };
+    let text = fit(msg, area.width as usize);
     frame.render_widget(Paragraph::new(text), area);
 }
 

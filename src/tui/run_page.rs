@@ -317,19 +317,33 @@ fn residual_legend<'a>(theme: &Theme, ch: &'a ResidualChart, cells: usize) -> Li
         if g.ascii { ".." } else { "…" },
         format::iteration(ch.x[1].round() as i64)
     );
+    // Entries with last values if they all fit, else names only, else as many as fit.
+    let entry = |l: &super::view::ChartLine, values: bool| {
+        let text =
+            if values { format!("{} {}", l.name, format::sci(l.last)) } else { l.name.clone() };
+        (theme.series_sample(l.style), text)
+    };
+    let total = |values: bool| -> usize {
+        ch.lines.iter().map(|l| {
+            let (a, b) = entry(l, values);
+            width(&a) + 1 + width(&b) + 2
+        })
+        .sum::<usize>()
+            + 1
+    };
+    let with_values = total(true) + width(&range) + 1 <= cells;
     let mut spans: Vec<Span<'a>> = vec![Span::raw(" ")];
     let mut used = 1usize;
-    let budget = cells.saturating_sub(width(&range) + 2);
     for (k, l) in ch.lines.iter().enumerate() {
-        let sample = theme.series_sample(l.style);
-        let text = format!("{} {}", l.name, format::sci(l.last));
+        let (sample, text) = entry(l, with_values);
         let w = width(&sample) + 1 + width(&text) + 2;
         let left = ch.lines.len() - k;
         let more = format!("+{left}");
-        if used + w > budget.saturating_sub(if left > 1 { more.len() } else { 0 }) {
+        let reserve = if left > 1 { more.len() } else { 0 };
+        if used + w + reserve > cells {
             if used + more.len() <= cells {
+                used += more.len();
                 spans.push(span(more, theme.dim()));
-                used += left.to_string().len() + 1;
             }
             break;
         }
@@ -340,7 +354,7 @@ fn residual_legend<'a>(theme: &Theme, ch: &'a ResidualChart, cells: usize) -> Li
         spans.push(Span::raw("  "));
         used += w;
     }
-    if !ch.non_finite.is_empty() && used + 14 <= budget {
+    if !ch.non_finite.is_empty() && used + 14 <= cells {
         spans.push(span("! non-finite  ", theme.error()));
         used += 14;
     }
@@ -466,7 +480,8 @@ fn criteria_panel(theme: &Theme, v: &RunView, frame: &mut Frame, r: Rect) {
     let mark_w = width(g.ok).max(width(g.fail));
     let series_w = v.criteria.iter().map(|c| width(&c.series)).max().unwrap_or(1).min(w / 3).max(1);
     let value_w = v.criteria.iter().map(|c| width(&c.value)).max().unwrap_or(1).min(w / 3);
-    let rule_w = w.saturating_sub(1 + mark_w + 1 + series_w + 1 + 1 + value_w);
+    let rule_room = w.saturating_sub(1 + mark_w + 1 + series_w + 1 + 1 + value_w);
+    let rule_w = v.criteria.iter().map(|c| width(&c.rule)).max().unwrap_or(1).min(rule_room);
     let lines: Vec<Line<'_>> = v
         .criteria
         .iter()
