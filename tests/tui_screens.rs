@@ -12,7 +12,7 @@ use ratatui::buffer::Buffer;
 use ratatui::style::Color;
 
 use settle::judge::{
-    Comparison, CriterionResult, Criteria, Finding, FindingKind, Judgement, MonitorSummary,
+    Comparison, Criteria, CriterionResult, Finding, FindingKind, Judgement, MonitorSummary,
     ResidualSummary, Verdict,
 };
 use settle::record::{Event, Output, Record, Role, SeriesInfo, Severity};
@@ -32,18 +32,33 @@ fn store(name: &str, n: i64) -> RunStore {
     let mut src = SourceStore::new("cases/wing-a4/tarn.log", "tarn");
     let mut out = Vec::new();
     for (id, r) in RESIDUALS.iter().enumerate() {
-        out.push(Output::Series(SeriesInfo { id: id as u32, name: (*r).into(), role: Role::Residual }));
+        out.push(Output::Series(SeriesInfo {
+            id: id as u32,
+            name: (*r).into(),
+            role: Role::Residual,
+        }));
     }
     out.push(Output::Series(SeriesInfo { id: 4, name: "Cd".into(), role: Role::Monitor }));
     out.push(Output::Series(SeriesInfo { id: 5, name: "Cl".into(), role: Role::Monitor }));
     for it in 1..=n {
         let x = it as f64;
         let mut values: Vec<(u32, f64)> = (0..4)
-            .map(|k| (k as u32, 10f64.powf(-(x / 200.0) * (1.0 + k as f64 * 0.3)) * (1.0 + 0.1 * (x / 7.0).sin())))
+            .map(|k| {
+                (
+                    k as u32,
+                    10f64.powf(-(x / 200.0) * (1.0 + k as f64 * 0.3))
+                        * (1.0 + 0.1 * (x / 7.0).sin()),
+                )
+            })
             .collect();
         values.push((4, 0.0312 + 0.002 * (-x / 150.0).exp()));
         values.push((5, 0.41 + 0.01 * (x / 25.0).sin()));
-        out.push(Output::Record(Record { iteration: Some(it), values, line: it as u64, time: None }));
+        out.push(Output::Record(Record {
+            iteration: Some(it),
+            values,
+            line: it as u64,
+            time: None,
+        }));
     }
     out.push(Output::Event(Event {
         severity: Severity::Warning,
@@ -58,7 +73,14 @@ fn store(name: &str, n: i64) -> RunStore {
     s
 }
 
-fn criterion(series: &str, name: &str, cmp: Comparison, threshold: f64, value: f64, unit: &str) -> CriterionResult {
+fn criterion(
+    series: &str,
+    name: &str,
+    cmp: Comparison,
+    threshold: f64,
+    value: f64,
+    unit: &str,
+) -> CriterionResult {
     let met = match cmp {
         Comparison::AtLeast => value >= threshold,
         Comparison::AtMost => value <= threshold,
@@ -232,8 +254,10 @@ fn odd_sizes_do_not_panic() {
         (0..5).map(|i| live(&format!("aoa-{i:02}"), Verdict::ALL[i % 7], 100)).collect(),
         theme,
     );
-    let mut empty = app_with(vec![LiveRun::new(RunStore::new("empty"), Criteria::default())], theme);
-    let sizes = [(0u16, 0u16), (1, 1), (10, 3), (19, 4), (20, 5), (21, 6), (500, 200), (69, 30), (70, 12)];
+    let mut empty =
+        app_with(vec![LiveRun::new(RunStore::new("empty"), Criteria::default())], theme);
+    let sizes =
+        [(0u16, 0u16), (1, 1), (10, 3), (19, 4), (20, 5), (21, 6), (500, 200), (69, 30), (70, 12)];
     for a in [&mut one, &mut many, &mut empty] {
         for (w, h) in sizes {
             let screen = text(&draw(a, w, h));
@@ -305,7 +329,10 @@ fn key(c: char) -> KeyEvent {
 
 #[test]
 fn keys_change_state() {
-    let mut app = app_with(vec![live("a", Verdict::Stalled, 100), live("b", Verdict::Converged, 100)], color_theme());
+    let mut app = app_with(
+        vec![live("a", Verdict::Stalled, 100), live("b", Verdict::Converged, 100)],
+        color_theme(),
+    );
     assert_eq!(app.selected_run(), Some(0));
     assert_eq!(app.handle_key(&KeyEvent::from(KeyCode::Down)), KeyOutcome::Redraw);
     assert_eq!(app.selected_run(), Some(1));
@@ -379,11 +406,15 @@ fn monochrome_theme_draws_no_colour() {
     let kept = color_enabled(ColorChoice::Auto, Some(std::ffi::OsStr::new("")));
     assert!(!mono && kept);
     for (color, expect_colour) in [(mono, false), (kept, true)] {
-        let mut app = app_with(vec![live("wing-a4", Verdict::Diverging, 300)], Theme::new(color, false, true));
+        let mut app = app_with(
+            vec![live("wing-a4", Verdict::Diverging, 300)],
+            Theme::new(color, false, true),
+        );
         let buf = draw(&mut app, 100, 30);
-        let coloured = buf.content().iter().any(|c| {
-            !matches!(c.fg, Color::Reset) || !matches!(c.bg, Color::Reset)
-        });
+        let coloured = buf
+            .content()
+            .iter()
+            .any(|c| !matches!(c.fg, Color::Reset) || !matches!(c.bg, Color::Reset));
         assert_eq!(coloured, expect_colour);
         let screen = text(&buf);
         assert!(screen.contains(" DIVERGING "));

@@ -21,8 +21,8 @@ use crate::run::ingest::{self, IngestBatch, IngestItem, SourceActivity};
 use super::format;
 use super::render;
 use super::theme::Theme;
-use super::view::{self, ChartSpec, DetailData, RunView, ViewInputs};
 pub use super::view::Window;
+use super::view::{self, ChartSpec, DetailData, RunView, ViewInputs};
 use super::{LiveHooks, LiveRun, TuiOptions};
 
 /// How many extra findings (action audit entries) a run keeps.
@@ -70,9 +70,11 @@ impl RateMeter {
         if self.samples.back().is_some_and(|&(bt, bi)| it < bi || t < bt) {
             self.samples.clear();
         }
-        while self.samples.front().is_some_and(|&(ft, _)| {
-            t.duration_since(ft).is_ok_and(|d| d > RATE_WINDOW)
-        }) {
+        while self
+            .samples
+            .front()
+            .is_some_and(|&(ft, _)| t.duration_since(ft).is_ok_and(|d| d > RATE_WINDOW))
+        {
             self.samples.pop_front();
         }
         self.samples.push_back((t, it));

@@ -45,8 +45,7 @@ pub fn value(v: f64) -> String {
     }
     let a = v.abs();
     if (1e-3..1e6).contains(&a) {
-        let int_digits = (a.log10().floor() as i32 + 1).max(1);
-        let decimals = (5 - int_digits).clamp(0, 6) as usize;
+        let decimals = (4 - a.log10().floor() as i32).clamp(0, 8) as usize;
         let s = format!("{v:.decimals$}");
         trim_zeros(&s)
     } else {
@@ -170,7 +169,7 @@ mod tests {
 
     #[test]
     fn values_keep_five_digits() {
-        assert_eq!(value(0.031_214_9), "0.03121");
+        assert_eq!(value(0.031_214_9), "0.031215");
         assert_eq!(value(412.5712), "412.57");
         assert_eq!(value(-1.5), "-1.5");
         assert_eq!(value(12_345_678.0), "1.2346e7");

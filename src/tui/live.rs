@@ -81,10 +81,6 @@ fn inner_loop(
     let mut last_draw: Option<Instant> = None;
     app.tick(SystemTime::now(), hooks);
     loop {
-        if app.mouse_capture() != mouse_on {
-            mouse_on = app.mouse_capture();
-            surface.set_mouse_capture(mouse_on)?;
-        }
         if app.needs_draw() && last_draw.is_none_or(|d| d.elapsed() >= FRAME_INTERVAL) {
             surface.draw(app)?;
             app.drawn();
@@ -102,6 +98,10 @@ fn inner_loop(
         while let Some(msg) = next {
             if let Some(end) = handle(surface, app, msg)? {
                 return Ok(end);
+            }
+            if app.mouse_capture() != mouse_on {
+                mouse_on = app.mouse_capture();
+                surface.set_mouse_capture(mouse_on)?;
             }
             if started.elapsed() >= DRAIN_BUDGET {
                 break;

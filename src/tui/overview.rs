@@ -52,7 +52,10 @@ pub fn render(app: &App, frame: &mut Frame, area: Rect) {
     let theme = &app.theme;
     let g = &theme.glyphs;
     let total = area.width as usize;
-    frame.render_widget(Paragraph::new(title(app)), clamp(Rect::new(area.x, area.y, area.width, 1), area));
+    frame.render_widget(
+        Paragraph::new(title(app)),
+        clamp(Rect::new(area.x, area.y, area.width, 1), area),
+    );
     let longest = app.slots.iter().map(|s| super::render::width(&s.view.name)).max().unwrap_or(6);
     let c = columns(total, longest);
     let mut head = vec![
@@ -98,8 +101,15 @@ pub fn render(app: &App, frame: &mut Frame, area: Rect) {
     frame.render_widget(Paragraph::new(lines), clamp(table, area));
 
     let ud = if g.ascii { "up/down" } else { "↑↓" };
-    let keys =
-        [("q", "quit"), ("?", "help"), (ud, "select"), ("Enter", "open"), ("a", "ack"), ("p", "pause"), ("m", "mouse")];
+    let keys = [
+        ("q", "quit"),
+        ("?", "help"),
+        (ud, "select"),
+        ("Enter", "open"),
+        ("a", "ack"),
+        ("p", "pause"),
+        ("m", "mouse"),
+    ];
     let bar = clamp(Rect::new(area.x, area.bottom().saturating_sub(1), area.width, 1), area);
     frame.render_widget(Paragraph::new(key_bar(theme, &keys, total)), bar);
 }
@@ -111,7 +121,10 @@ fn title(app: &App) -> Line<'_> {
     for s in &app.slots {
         counts[attention_rank(s.view.verdict) as usize] += 1;
     }
-    let mut spans = vec![span(" settle", theme.title()), Span::raw(format!("{}{} runs", g.sep, app.slots.len()))];
+    let mut spans = vec![
+        span(" settle", theme.title()),
+        Span::raw(format!("{}{} runs", g.sep, app.slots.len())),
+    ];
     let mut by_rank: Vec<Verdict> = Verdict::ALL.to_vec();
     by_rank.sort_by_key(|v| attention_rank(*v));
     for v in by_rank {
@@ -160,7 +173,9 @@ fn row<'a>(app: &'a App, v: &'a RunView, acked: bool, c: &Columns) -> Line<'a> {
         s.push(Span::raw(" "));
     }
     let worst = match v.progress.first() {
-        Some(p) if p.total > 0 => format!("reading {:.0} %", p.read as f64 * 100.0 / p.total as f64),
+        Some(p) if p.total > 0 => {
+            format!("reading {:.0} %", p.read as f64 * 100.0 / p.total as f64)
+        }
         _ => v.worst.clone(),
     };
     let worst_style = if v.all_met { theme.met(true) } else { Style::new() };
@@ -169,8 +184,10 @@ fn row<'a>(app: &'a App, v: &'a RunView, acked: bool, c: &Columns) -> Line<'a> {
     let grew = if v.ended {
         "end".to_string()
     } else {
-        v.last_growth
-            .map_or_else(|| "-".into(), |t| format::age(app.now.duration_since(t).unwrap_or_default()))
+        v.last_growth.map_or_else(
+            || "-".into(),
+            |t| format::age(app.now.duration_since(t).unwrap_or_default()),
+        )
     };
     s.push(Span::raw(pad_left(&grew, c.grew)));
     Line::from(s)
@@ -184,10 +201,18 @@ mod tests {
     fn columns_fit_the_width() {
         for w in [20usize, 40, 80, 120, 200, 500] {
             let c = columns(w, 30);
-            let used = 2 + c.name + 1 + c.verdict + 1 + c.iteration + 1
+            let used = 2
+                + c.name
+                + 1
+                + c.verdict
+                + 1
+                + c.iteration
+                + 1
                 + if c.spark > 0 { c.spark + 1 } else { 0 }
                 + if c.leading > 0 { c.leading + 1 } else { 0 }
-                + c.worst + 1 + c.grew;
+                + c.worst
+                + 1
+                + c.grew;
             assert!(used <= w.max(40), "width {w}: {c:?} uses {used}");
         }
         assert_eq!(columns(80, 8).spark, 12);

@@ -46,7 +46,8 @@ pub fn overview_rows(height: u16) -> usize {
 /// Columns of the residual chart's plot area at terminal size `size` (for bucketing).
 pub fn chart_columns(size: (u16, u16)) -> usize {
     let area = Rect::new(0, 0, size.0, size.1);
-    run_page::layout(area, 0, true, 4).residual.width.saturating_sub(2 + run_page::Y_GUTTER) as usize
+    run_page::layout(area, 0, true, 4).residual.width.saturating_sub(2 + run_page::Y_GUTTER)
+        as usize
 }
 
 fn too_small(frame: &mut Frame, area: Rect) {
@@ -84,10 +85,7 @@ fn help(app: &App, frame: &mut Frame, area: Rect) {
     let mut lines: Vec<Line<'_>> = rows
         .iter()
         .map(|(k, d)| {
-            Line::from(vec![
-                Span::styled(format!(" {k:<12}"), app.theme.key()),
-                Span::raw(*d),
-            ])
+            Line::from(vec![Span::styled(format!(" {k:<12}"), app.theme.key()), Span::raw(*d)])
         })
         .collect();
     lines.push(Line::raw(""));

@@ -63,7 +63,8 @@ pub fn layout(area: Rect, progress: u16, has_monitor: bool, criteria: usize) -> 
         let left_w = area.width - right_w;
         let res_h = if has_monitor && body_h >= 12 { body_h * 3 / 5 } else { body_h };
         residual = r(area.x, top, left_w, res_h);
-        monitor = if res_h < body_h { r(area.x, top + res_h, left_w, body_h - res_h) } else { empty };
+        monitor =
+            if res_h < body_h { r(area.x, top + res_h, left_w, body_h - res_h) } else { empty };
         let mut crit_h = crit_wanted.min((body_h / 2).max(3)).max(3).min(body_h);
         if body_h - crit_h < 3 {
             crit_h = body_h;
@@ -81,7 +82,8 @@ pub fn layout(area: Rect, progress: u16, has_monitor: bool, criteria: usize) -> 
         monitor = empty;
         crit = r(area.x, top + res_h, area.width, crit_h);
         let used = res_h + crit_h;
-        items = if used < body_h { r(area.x, top + used, area.width, body_h - used) } else { empty };
+        items =
+            if used < body_h { r(area.x, top + used, area.width, body_h - used) } else { empty };
     }
     RunLayout { header, why, progress: prog, residual, monitor, criteria: crit, items, keys }
 }
@@ -113,10 +115,7 @@ pub fn render(app: &App, run: usize, frame: &mut Frame, area: Rect) {
     if app.slots.len() > 1 {
         keys.push(("Esc/b", "all runs"));
     }
-    frame.render_widget(
-        Paragraph::new(key_bar(theme, &keys, lay.keys.width as usize)),
-        lay.keys,
-    );
+    frame.render_widget(Paragraph::new(key_bar(theme, &keys, lay.keys.width as usize)), lay.keys);
 }
 
 fn header<'a>(app: &'a App, run: usize, v: &'a RunView) -> Line<'a> {
@@ -163,7 +162,10 @@ fn header<'a>(app: &'a App, run: usize, v: &'a RunView) -> Line<'a> {
             if let Some(r) = v.rate_per_min.filter(|r| *r > 0.0) {
                 let secs = n / r * 60.0;
                 if secs.is_finite() && secs < 1e9 {
-                    t.push_str(&format!(" = {}", format::eta(std::time::Duration::from_secs_f64(secs))));
+                    t.push_str(&format!(
+                        " = {}",
+                        format::eta(std::time::Duration::from_secs_f64(secs))
+                    ));
                 }
             }
             facts.push(t);
@@ -266,7 +268,8 @@ fn residual_panel(app: &App, frame: &mut Frame, r: Rect) {
     let plot = Rect::new(inner.x + Y_GUTTER, inner.y, inner.width - Y_GUTTER, inner.height - 1);
     for (row, d) in y_ticks(ch.y, plot.height, true) {
         let cell = Rect::new(inner.x, plot.y + row, Y_GUTTER, 1);
-        frame.render_widget(Paragraph::new(pad_left(&decade_label(d), Y_GUTTER as usize - 1)), cell);
+        frame
+            .render_widget(Paragraph::new(pad_left(&decade_label(d), Y_GUTTER as usize - 1)), cell);
     }
     plot_residuals(theme, ch, frame, plot);
     let legend = Rect::new(inner.x, inner.bottom() - 1, inner.width, 1);
@@ -324,14 +327,16 @@ fn residual_legend<'a>(theme: &Theme, ch: &'a ResidualChart, cells: usize) -> Li
         (theme.series_sample(l.style), text)
     };
     let total = |values: bool| -> usize {
-        ch.lines.iter().map(|l| {
-            let (a, b) = entry(l, values);
-            width(&a) + 1 + width(&b) + 2
-        })
-        .sum::<usize>()
+        ch.lines
+            .iter()
+            .map(|l| {
+                let (a, b) = entry(l, values);
+                width(&a) + 1 + width(&b) + 2
+            })
+            .sum::<usize>()
             + 1
     };
-    let with_values = total(true) + width(&range) + 1 <= cells;
+    let with_values = total(true) + width(&range) < cells;
     let mut spans: Vec<Span<'a>> = vec![Span::raw(" ")];
     let mut used = 1usize;
     for (k, l) in ch.lines.iter().enumerate() {
@@ -407,7 +412,10 @@ fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
     ];
     if ch.band.is_some() {
         let (band_mark, mean_mark) = if g.ascii { (":", ".") } else { ("┄", "·") };
-        spans.push(span(format!("{band_mark} band {}{} %", g.pm, format::short(ch.band_pct / 2.0)), theme.band()));
+        spans.push(span(
+            format!("{band_mark} band {}{} %", g.pm, format::short(ch.band_pct / 2.0)),
+            theme.band(),
+        ));
         spans.push(span(format!("  {mean_mark} mean  "), theme.band()));
     }
     if let Some(note) = &ch.note {

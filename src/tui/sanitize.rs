@@ -19,9 +19,7 @@ pub const TAB_WIDTH: usize = 8;
 /// UTF-8 locale. Tab stops are counted from the start of `text` with every character
 /// taken as one column wide (log lines are overwhelmingly ASCII).
 pub fn sanitize(text: &str, ascii: bool) -> Cow<'_, str> {
-    let clean = text
-        .chars()
-        .all(|c| !c.is_control() && (!ascii || c.is_ascii()));
+    let clean = text.chars().all(|c| !c.is_control() && (!ascii || c.is_ascii()));
     if clean {
         return Cow::Borrowed(text);
     }

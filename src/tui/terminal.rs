@@ -55,9 +55,8 @@ pub fn enter(mouse: bool) -> io::Result<()> {
     terminal::enable_raw_mode()?;
     ACTIVE.store(true, Ordering::SeqCst);
     let mut out = io::stdout();
-    let r = execute!(out, EnterAlternateScreen, cursor::Hide).and_then(|()| {
-        if mouse { execute!(out, EnableMouseCapture) } else { Ok(()) }
-    });
+    let r = execute!(out, EnterAlternateScreen, cursor::Hide)
+        .and_then(|()| if mouse { execute!(out, EnableMouseCapture) } else { Ok(()) });
     if let Err(e) = r {
         restore();
         return Err(e);
@@ -171,15 +170,16 @@ impl Helpers {
         let mut signals = Signals::new([SIGTERM, SIGHUP, SIGINT, SIGQUIT])?;
         let handle = signals.handle();
         let stx = tx.clone();
-        let signal_thread = thread::Builder::new().name("settle-signals".into()).spawn(move || {
-            let mut seen = 0;
-            for sig in signals.forever() {
-                seen += 1;
-                if seen > 1 || stx.send(Msg::Signal(sig)).is_err() {
-                    emergency_exit(128 + sig);
+        let signal_thread =
+            thread::Builder::new().name("settle-signals".into()).spawn(move || {
+                let mut seen = 0;
+                for sig in signals.forever() {
+                    seen += 1;
+                    if seen > 1 || stx.send(Msg::Signal(sig)).is_err() {
+                        emergency_exit(128 + sig);
+                    }
                 }
-            }
-        })?;
+            })?;
         let stop = Arc::new(AtomicBool::new(false));
         let flag = Arc::clone(&stop);
         let itx = tx.clone();
@@ -212,7 +212,12 @@ impl Helpers {
                 return Err(e);
             }
         };
-        Ok(Helpers { stop, signals: handle, input: Some(input), signal_thread: Some(signal_thread) })
+        Ok(Helpers {
+            stop,
+            signals: handle,
+            input: Some(input),
+            signal_thread: Some(signal_thread),
+        })
     }
 
     fn stop(mut self) {

@@ -223,11 +223,7 @@ impl Theme {
     }
 
     pub fn met(&self, met: bool) -> Style {
-        if met {
-            self.fg(Color::Blue)
-        } else {
-            self.fg(Color::Yellow).add_modifier(Modifier::BOLD)
-        }
+        if met { self.fg(Color::Blue) } else { self.fg(Color::Yellow).add_modifier(Modifier::BOLD) }
     }
 
     pub fn error(&self) -> Style {
@@ -338,7 +334,8 @@ mod tests {
     #[test]
     fn ascii_glyphs_are_ascii() {
         let g = Glyphs::ascii();
-        let all = [g.ok, g.fail, g.sep, g.ellipsis, g.ge, g.le, g.pm, g.cause, g.ack, g.legend_line];
+        let all =
+            [g.ok, g.fail, g.sep, g.ellipsis, g.ge, g.le, g.pm, g.cause, g.ack, g.legend_line];
         assert!(all.iter().all(|s| s.is_ascii()));
         assert!(g.spark.iter().all(char::is_ascii));
         assert!(g.border.top_left.is_ascii() && g.border.horizontal_top.is_ascii());

@@ -7,7 +7,7 @@
 
 use std::time::SystemTime;
 
-use crate::judge::{Comparison, CriterionResult, Criteria, Finding, Judgement, Verdict};
+use crate::judge::{Comparison, Criteria, CriterionResult, Finding, Judgement, Verdict};
 use crate::record::{Role, Severity};
 use crate::run::downsample::min_max;
 use crate::run::store::{Series, SourceStore};
@@ -142,7 +142,11 @@ pub fn build_run_view(live: &LiveRun, inp: &ViewInputs<'_>) -> RunView {
         .iter()
         .zip(&live.store.sources)
         .filter_map(|(a, s)| {
-            a.progress.map(|(read, total)| Progress { label: sanitized(&s.label, ascii), read, total })
+            a.progress.map(|(read, total)| Progress {
+                label: sanitized(&s.label, ascii),
+                read,
+                total,
+            })
         })
         .collect();
     let restarts =
@@ -184,7 +188,12 @@ fn chartable_series(live: &LiveRun, ascii: bool) -> Vec<SeriesRef> {
                 seen.push(&s.name);
                 s.name.clone()
             };
-            out.push(SeriesRef { source: si, index: i, name: sanitized(&name, ascii), role: s.role });
+            out.push(SeriesRef {
+                source: si,
+                index: i,
+                name: sanitized(&name, ascii),
+                role: s.role,
+            });
         }
     }
     let rank = |r: Role| match r {
@@ -205,7 +214,9 @@ fn eta(j: &Judgement, verdict: Verdict) -> Eta {
         return Eta::Unknown;
     }
     let unmet_residual = |name: &str| {
-        j.criteria.iter().any(|c| c.series == name && !c.met && (c.unit == "dec" || c.name == "below"))
+        j.criteria
+            .iter()
+            .any(|c| c.series == name && !c.met && (c.unit == "dec" || c.name == "below"))
     };
     let mut worst: Option<f64> = None;
     for r in &j.residuals {
@@ -307,7 +318,13 @@ fn progress_ratio(c: &CriterionResult) -> f64 {
         Comparison::AtLeast => c.value / c.threshold,
         Comparison::AtMost => c.threshold / c.value,
     };
-    if r.is_finite() { r.max(0.0) } else if c.met { 1.0 } else { 0.0 }
+    if r.is_finite() {
+        r.max(0.0)
+    } else if c.met {
+        1.0
+    } else {
+        0.0
+    }
 }
 
 fn worst_criterion(criteria: &[CriterionResult], ascii: bool) -> (String, bool) {
@@ -341,7 +358,10 @@ fn items(live: &LiveRun, inp: &ViewInputs<'_>) -> Vec<Item> {
         pinned.push(Item {
             iteration: live.store.last_iteration(),
             tag: "stale".into(),
-            text: format!("no growth for over {}, no end-of-run mark", format::age(inp.stale_limit)),
+            text: format!(
+                "no growth for over {}, no end-of-run mark",
+                format::age(inp.stale_limit)
+            ),
             level: Level::Cause,
         });
     }
@@ -395,7 +415,7 @@ fn items(live: &LiveRun, inp: &ViewInputs<'_>) -> Vec<Item> {
     }
     // Newest first; stable, so entries of one iteration keep their order of arrival reversed
     // only by iteration.
-    rest.sort_by(|a, b| b.iteration.cmp(&a.iteration));
+    rest.sort_by_key(|i| std::cmp::Reverse(i.iteration));
     pinned.extend(rest);
     pinned.truncate(MAX_ITEMS);
     pinned
@@ -412,7 +432,11 @@ fn finding_item(f: &Finding, level: Level, ascii: bool) -> Item {
 
 /// The residual that matters most: the one named by the least-met residual criterion, else
 /// the one with the highest last value. Returns its label and sparkline.
-fn leading_residual(live: &LiveRun, series: &[SeriesRef], ascii: bool) -> (String, Vec<Option<u8>>) {
+fn leading_residual(
+    live: &LiveRun,
+    series: &[SeriesRef],
+    ascii: bool,
+) -> (String, Vec<Option<u8>>) {
     let residuals: Vec<&SeriesRef> = series.iter().filter(|s| s.role == Role::Residual).collect();
     let by_criterion = live
         .judgement
@@ -720,7 +744,17 @@ pub fn build_detail(
         .or(if others.is_empty() { None } else { Some(0) });
     let monitor = shown.map(|pos| {
         let r = &view.series[others[pos]];
-        monitor_chart(live, r, series_of(r), &xmaps[r.source], limit_of(r.source), x_from, x, spec, pos)
+        monitor_chart(
+            live,
+            r,
+            series_of(r),
+            &xmaps[r.source],
+            limit_of(r.source),
+            x_from,
+            x,
+            spec,
+            pos,
+        )
     });
     DetailData {
         residual,
@@ -817,8 +851,7 @@ fn monitor_chart(
 /// The band criterion of a monitor: from the judge's result, the per-series override, the
 /// run's criteria or the default (0.5 %, common practice).
 fn band_threshold(live: &LiveRun, name: &str) -> f64 {
-    if let Some(c) = live.judgement.criteria.iter().find(|c| c.series == name && c.name == "band")
-    {
+    if let Some(c) = live.judgement.criteria.iter().find(|c| c.series == name && c.name == "band") {
         return c.threshold;
     }
     let per_series = live
