@@ -156,7 +156,11 @@ fn row<'a>(app: &'a App, v: &'a RunView, acked: bool, c: &Columns) -> Line<'a> {
         Span::raw(" "),
         span(pad(&v.name, c.name), Style::new()),
         Span::raw(" "),
-        span(pad(v.verdict.as_str(), c.verdict), theme.verdict_text(v.verdict)),
+        if v.records == 0 {
+            span(pad("waiting", c.verdict), theme.dim())
+        } else {
+            span(pad(v.verdict.as_str(), c.verdict), theme.verdict_text(v.verdict))
+        },
         Span::raw(" "),
         Span::raw(pad_left(&it, c.iteration)),
         Span::raw(" "),

@@ -126,7 +126,11 @@ fn header<'a>(app: &'a App, run: usize, v: &'a RunView) -> Line<'a> {
         Span::raw(" "),
         span(v.name.as_str(), theme.title()),
         Span::raw(g.sep),
-        span(format!(" {} ", v.verdict.as_str().to_uppercase()), theme.verdict_badge(v.verdict)),
+        if v.records == 0 {
+            span(" WAITING ", theme.selected())
+        } else {
+            span(format!(" {} ", v.verdict.as_str().to_uppercase()), theme.verdict_badge(v.verdict))
+        },
     ];
     if let Some(since) = v.since {
         s.push(Span::raw(format!(" since it {}", format::iteration(since))));
