@@ -321,3 +321,53 @@ fn a_lost_terminal_ends_the_loop_quietly() {
     let end = run_loop(&mut Gone, &mut app, &rx, &mut CountingHooks::default()).expect("quiet");
     assert_eq!(end.code, 129);
 }
+
+/// Bytes the crossterm backend writes per update while one record arrives each second
+/// (checklist item 27: "a few KiB/s at most; no full repaint per line").
+#[test]
+fn one_record_a_second_sends_little() {
+    use ratatui::backend::CrosstermBackend;
+    use ratatui::layout::Rect;
+    use ratatui::{TerminalOptions, Viewport};
+
+    let mut app = App::new(vec![empty_run("wing")], opts(), Theme::new(true, false, true))
+        .with_judge(fixed_judge(Verdict::Converging));
+    let mut hooks = CountingHooks::default();
+    let (w, h) = (200u16, 50u16);
+    app.resize(w, h);
+    /// Counts the bytes written to the terminal.
+    struct Counter(std::rc::Rc<std::cell::Cell<usize>>);
+    impl io::Write for Counter {
+        fn write(&mut self, b: &[u8]) -> io::Result<usize> {
+            self.0.set(self.0.get() + b.len());
+            Ok(b.len())
+        }
+        fn flush(&mut self) -> io::Result<()> {
+            Ok(())
+        }
+    }
+    let bytes = std::rc::Rc::new(std::cell::Cell::new(0usize));
+    let backend = CrosstermBackend::new(Counter(bytes.clone()));
+    let mut term = Terminal::with_options(
+        backend,
+        TerminalOptions { viewport: Viewport::Fixed(Rect::new(0, 0, w, h)) },
+    )
+    .expect("terminal");
+    app.apply_batch(batch(0, 1, 2_000, t0()));
+    app.tick(t0(), &mut hooks);
+    term.draw(|f| render(&app, f)).expect("draw");
+    app.drawn();
+    let first = bytes.get();
+    for k in 1..=60u64 {
+        let now = t0() + Duration::from_secs(k);
+        app.apply_batch(batch(0, 2_000 + k as i64, 1, now));
+        app.tick(now, &mut hooks);
+        if app.needs_draw() {
+            term.draw(|f| render(&app, f)).expect("draw");
+            app.drawn();
+        }
+    }
+    let per_update = (bytes.get() - first) / 60;
+    eprintln!("first frame {first} B, then {per_update} B per update");
+    assert!(per_update < 3_000, "{per_update} B per update (first frame {first} B)");
+}

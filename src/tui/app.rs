@@ -440,7 +440,7 @@ impl App {
         };
         self.age_due = visible
             .iter()
-            .filter_map(|&i| self.slots.get(i)?.view.last_growth)
+            .filter_map(|&i| self.slots.get(i).filter(|s| !s.view.ended)?.view.last_growth)
             .filter_map(|g| now.duration_since(g).ok())
             .map(|age| now + format::age_next_change(age))
             .min();
