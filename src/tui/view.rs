@@ -862,3 +862,92 @@ fn band_threshold(live: &LiveRun, name: &str) -> f64 {
         .and_then(|(_, v)| v.band);
     per_series.or(live.criteria.band).unwrap_or(Criteria::DEFAULT_BAND_PCT)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::record::{Output, Record, SeriesInfo};
+    use crate::run::RunStore;
+
+    fn run_with(iters: &[i64]) -> LiveRun {
+        let mut src = SourceStore::new("tarn.log", "tarn");
+        src.apply([Output::Series(SeriesInfo { id: 0, name: "p".into(), role: Role::Residual })]);
+        for &it in iters {
+            src.apply([Output::Record(Record {
+                iteration: Some(it),
+                values: vec![(0, 10f64.powf(-(it as f64) / 4.0))],
+                ..Default::default()
+            })]);
+        }
+        let mut store = RunStore::new("r");
+        store.sources.push(src);
+        LiveRun::new(store, Criteria::default())
+    }
+
+    fn detail(live: &LiveRun, window: Window) -> DetailData {
+        let g = Glyphs::unicode(true);
+        let inp = ViewInputs { glyphs: &g, rate_per_min: None, stale_limit: Default::default() };
+        let view = build_run_view(live, &inp);
+        let spec = ChartSpec { window, focus: None, monitor_log: false, buckets: 100 };
+        build_detail(live, &view, &spec, None)
+    }
+
+    #[test]
+    fn restarts_are_drawn_end_to_end() {
+        // 1..=10, then the solver restarts at 5 and runs to 8.
+        let iters: Vec<i64> = (1..=10).chain(5..=8).collect();
+        let live = run_with(&iters);
+        let d = detail(&live, Window::All);
+        let ch = d.residual.expect("residual chart");
+        assert_eq!(ch.x, [1.0, 14.0]);
+        assert_eq!(ch.restarts, 1);
+        let xs: Vec<f64> = ch.lines[0].points.iter().map(|p| p.0).collect();
+        assert_eq!(xs, (1..=14).map(|x| x as f64).collect::<Vec<_>>());
+        // log10 of 10^(-it/4): the first point is -0.25, the one after the restart -1.25.
+        assert!((ch.lines[0].points[0].1 + 0.25).abs() < 1e-12);
+        assert!((ch.lines[0].points[10].1 + 1.25).abs() < 1e-12);
+        assert_eq!(ch.y, [-3.0, 0.0]);
+    }
+
+    #[test]
+    fn the_window_keeps_the_last_iterations() {
+        let live = run_with(&(1..=100).collect::<Vec<_>>());
+        let ch = detail(&live, Window::Last(20)).residual.expect("chart");
+        assert_eq!(ch.x, [80.0, 100.0]);
+        assert_eq!(ch.lines[0].points.first().map(|p| p.0), Some(80.0));
+    }
+
+    #[test]
+    fn sparkline_levels_follow_log_values() {
+        let v: Vec<f64> = (0..8).map(|i| 10f64.powi(-i)).collect();
+        assert_eq!(
+            sparkline(&v, 8),
+            vec![Some(7), Some(6), Some(5), Some(4), Some(3), Some(2), Some(1), Some(0)]
+        );
+        assert_eq!(sparkline(&[1.0, f64::NAN, 1e-3], 3), vec![Some(7), Some(7), Some(0)]);
+        assert_eq!(sparkline(&[0.0, -1.0], 2), vec![None, None]);
+        assert!(sparkline(&[], 5).is_empty());
+    }
+
+    #[test]
+    fn the_worst_criterion_is_the_least_met() {
+        let c = |series: &str, cmp, threshold, value, met| CriterionResult {
+            name: "x".into(),
+            series: series.into(),
+            comparison: cmp,
+            threshold,
+            value,
+            met,
+            ..Default::default()
+        };
+        let list = vec![
+            c("a", Comparison::AtLeast, 3.0, 2.7, false),
+            c("b", Comparison::AtMost, 0.1, 0.5, false),
+            c("c", Comparison::AtLeast, 3.0, 4.0, true),
+        ];
+        assert_eq!(worst_criterion(&list, false), ("b x 0.5/0.1".to_string(), false));
+        assert_eq!(worst_criterion(&list[2..], false), ("all 1 met".to_string(), true));
+        let nan = vec![c("n", Comparison::AtMost, 0.1, f64::NAN, false), list[0].clone()];
+        assert!(worst_criterion(&nan, false).0.starts_with("n x nan"));
+    }
+}
