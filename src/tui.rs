@@ -8,13 +8,13 @@
 //!
 //! * [`app`]: the state ([`App`]), keys as intents, and the snapshots that rendering reads;
 //! * [`view`]: building those snapshots (chart points, criteria rows, findings) from a run;
-//! * [`render`]: pure drawing of an [`App`] into a frame (no I/O, no statistics), with the
+//! * [`mod@render`]: pure drawing of an [`App`] into a frame (no I/O, no statistics), with the
 //!   pages in [`run_page`] (one run) and [`overview`] (many runs);
-//! * [`live`]: the blocking main loop, generic over a [`live::Screen`] so it runs against
+//! * [`live`]: the blocking main loop, generic over a [`live::Surface`] so it runs against
 //!   ratatui's `TestBackend` in tests;
 //! * [`terminal`]: raw mode, alternate screen, panic hook, signal and input threads, and
 //!   restoring the terminal on every way out;
-//! * [`theme`], [`format`], [`sanitize`]: colours and glyphs, number formats, log text made
+//! * [`theme`], [`mod@format`], [`sanitize`]: colours and glyphs, number formats, log text made
 //!   safe for the terminal.
 
 pub mod app;

@@ -2,7 +2,7 @@
 //! points.
 //!
 //! Built by the app layer when data or view settings change, never while drawing, so that
-//! [`crate::tui::render`] stays a pure function of state. Every string that came from a log
+//! [`crate::tui::render()`] stays a pure function of state. Every string that came from a log
 //! (run, source and series names, event messages, notes) is sanitised here.
 
 use std::time::SystemTime;
