@@ -1,1 +1,172 @@
-//! (module under construction)
+//! `settle watch`: the live panels, their state and the live loop.
+//!
+//! Owns the terminal while watching. Data flow (DESIGN §2): the ingest thread sends
+//! [`Msg::Ingest`] batches; the main thread (this module's [`run`]) applies them to the run
+//! stores, re-judges a run only when it received new data (at most once per refresh
+//! interval), decides `stale` itself, calls the [`LiveHooks`] the binary plugs in (actions),
+//! and redraws only when something visible changed, at most 10 times a second.
+//!
+//! * [`app`]: the state ([`App`]), keys as intents, and the snapshots that rendering reads;
+//! * [`view`]: building those snapshots (chart points, criteria rows, findings) from a run;
+//! * [`mod@render`]: pure drawing of an [`App`] into a frame (no I/O, no statistics), with the
+//!   pages in [`run_page`] (one run) and [`overview`] (many runs);
+//! * [`live`]: the blocking main loop, generic over a [`live::Surface`] so it runs against
+//!   ratatui's `TestBackend` in tests;
+//! * [`terminal`]: raw mode, alternate screen, panic hook, signal and input threads, and
+//!   restoring the terminal on every way out;
+//! * [`theme`], [`mod@format`], [`sanitize`]: colours and glyphs, number formats, log text made
+//!   safe for the terminal.
+
+pub mod app;
+pub mod format;
+pub mod live;
+pub mod overview;
+pub mod render;
+pub mod run_page;
+pub mod sanitize;
+pub mod terminal;
+pub mod theme;
+pub mod view;
+
+use std::io;
+use std::sync::mpsc::{Receiver, Sender};
+use std::time::Duration;
+
+use crate::judge::{Criteria, Finding, Judgement, Verdict};
+use crate::run::RunStore;
+use crate::run::ingest::{IngestBatch, SourceActivity};
+
+pub use app::{App, KeyOutcome, Screen, Window};
+pub use render::render;
+pub use theme::ColorChoice;
+
+/// Exit code after `q`.
+pub const EXIT_QUIT: i32 = 0;
+/// Exit code after Ctrl-C typed in the panels (as for SIGINT: 128 + 2).
+pub const EXIT_CTRL_C: i32 = 130;
+/// Exit code when a worker thread (or the UI) panicked, as Rust uses for a panic.
+pub const EXIT_PANIC: i32 = 101;
+/// Exit code when the terminal went away (EIO/EPIPE on the tty, input closed): the same as
+/// a hangup, 128 + 1.
+pub const EXIT_TTY_LOST: i32 = 129;
+
+/// One watched run as the live loop owns it.
+#[derive(Debug, Clone, Default)]
+pub struct LiveRun {
+    pub store: RunStore,
+    /// Growth time and bulk-read progress, one per source (same order as `store.sources`).
+    pub activity: Vec<SourceActivity>,
+    pub criteria: Criteria,
+    /// The judge's latest word (never `stale`: that is decided by the live loop).
+    pub judgement: Judgement,
+    /// Findings from outside the judge, such as action audit entries, oldest first.
+    pub extra_findings: Vec<Finding>,
+    /// Set by the live loop: the log stopped growing for longer than the stale limit and no
+    /// end-of-run mark was seen.
+    pub stale: bool,
+}
+
+impl LiveRun {
+    pub fn new(store: RunStore, criteria: Criteria) -> Self {
+        let activity = vec![SourceActivity::default(); store.sources.len()];
+        LiveRun { store, activity, criteria, ..Default::default() }
+    }
+
+    /// The verdict to show and act on: `stale` overrides everything except `diverging`.
+    pub fn verdict(&self) -> Verdict {
+        effective_verdict(self.judgement.verdict, self.stale)
+    }
+}
+
+/// `stale` overrides every verdict except `diverging` (DESIGN §4).
+pub fn effective_verdict(judged: Verdict, stale: bool) -> Verdict {
+    if stale && judged != Verdict::Diverging { Verdict::Stale } else { judged }
+}
+
+/// Everything that reaches the main loop, over one channel.
+#[derive(Debug)]
+pub enum Msg {
+    /// Parsed data for one source of one run (from the ingest thread).
+    Ingest(IngestBatch),
+    /// A terminal event (from the input thread).
+    Input(crossterm::event::Event),
+    /// SIGTERM, SIGHUP, SIGINT or SIGQUIT arrived (from the signal thread).
+    Signal(i32),
+    /// The terminal input failed (EIO: the tty went away).
+    InputClosed,
+    /// A worker thread panicked; the text says where and why. The panic hook installed by
+    /// [`run`] sends this for any panic outside the UI thread.
+    WorkerPanic(String),
+}
+
+/// Options of the live panels.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TuiOptions {
+    pub color: ColorChoice,
+    /// Plain ASCII output (`--ascii`); also chosen when no UTF-8 locale is set.
+    pub ascii: bool,
+    /// Half blocks instead of Braille for chart lines (`--no-braille`), for fonts without
+    /// Braille patterns.
+    pub no_braille: bool,
+    /// Chart refresh and re-judge interval (`--refresh`, default 1 s).
+    pub refresh: Duration,
+    /// A log that has not grown for this long without an end-of-run mark is `stale`
+    /// (default 5 min).
+    pub stale_limit: Duration,
+    /// Start with mouse capture on (it blocks the terminal's own selection; `m` toggles).
+    pub mouse: bool,
+}
+
+impl Default for TuiOptions {
+    fn default() -> Self {
+        TuiOptions {
+            color: ColorChoice::Auto,
+            ascii: false,
+            no_braille: false,
+            refresh: Duration::from_secs(1),
+            stale_limit: Duration::from_secs(300),
+            mouse: false,
+        }
+    }
+}
+
+/// What the binary plugs into the live loop.
+pub trait LiveHooks {
+    /// Called after run `run` was judged (new data) or its `stale` state changed; the
+    /// returned findings (audit entries of actions run) are appended to the run's
+    /// `extra_findings` and shown.
+    fn on_judged(&mut self, run: usize, run_data: &LiveRun) -> Vec<Finding>;
+}
+
+/// Hooks that do nothing (no actions configured).
+#[derive(Debug, Default, Clone, Copy)]
+pub struct NoHooks;
+
+impl LiveHooks for NoHooks {
+    fn on_judged(&mut self, _run: usize, _run_data: &LiveRun) -> Vec<Finding> {
+        Vec::new()
+    }
+}
+
+/// Watch `runs` in the terminal until the user quits or a signal arrives.
+///
+/// Takes over the terminal (raw mode, alternate screen), installs a chained panic hook and
+/// the signal and input threads, runs [`live::run_loop`], and restores the terminal on every
+/// way out. `tx` is the sending side of `rx`, used by the input and signal threads.
+///
+/// Returns the exit code: [`EXIT_QUIT`] after `q`, [`EXIT_CTRL_C`] after Ctrl-C,
+/// 128 + signal after a signal, [`EXIT_PANIC`] after a worker panic (its message is written
+/// to stderr once the terminal is restored), [`EXIT_TTY_LOST`] when the terminal went away.
+/// An error means the terminal could not be set up.
+pub fn run(
+    runs: Vec<LiveRun>,
+    rx: Receiver<Msg>,
+    tx: Sender<Msg>,
+    opts: TuiOptions,
+    hooks: &mut dyn LiveHooks,
+) -> io::Result<i32> {
+    let (color, ascii) = theme::from_env(opts.color, opts.ascii);
+    let theme = theme::Theme::new(color, ascii, !opts.no_braille);
+    let mut app = App::new(runs, opts, theme);
+    terminal::run_in_terminal(&mut app, rx, tx, hooks)
+}
