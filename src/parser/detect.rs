@@ -37,7 +37,7 @@ pub fn detect(defs: &[Definition], head: &[u8]) -> Detection {
         .collect();
     // A trailing newline leaves an empty last piece that is not a line.
     let n_lines = match lines.last() {
-        Some(l) if l.is_empty() => lines.len() - 1,
+        Some(&[]) => lines.len() - 1,
         _ => lines.len(),
     };
     let lines = &lines[..n_lines];

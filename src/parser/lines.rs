@@ -600,3 +600,86 @@ fn describe(prog: &LinesProgram, line: &[u8], failure: Option<Failure>) -> Strin
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::parser::{Definition, Origin};
+
+    #[test]
+    fn accum_applies_repeat_policies() {
+        let mut a = Accum::new();
+        for (v, r) in [(3.0, Repeat::First), (1.0, Repeat::First)] {
+            a.push(0, v, r);
+        }
+        for v in [3.0, 1.0, 2.0] {
+            a.push(1, v, Repeat::Min);
+            a.push(2, v, Repeat::Max);
+            a.push(3, v, Repeat::Last);
+            a.push(4, v, Repeat::All);
+        }
+        assert_eq!(
+            a.take(),
+            vec![(0, 3.0), (1, 1.0), (2, 3.0), (3, 2.0), (4, 3.0), (4, 1.0), (4, 2.0)]
+        );
+        // A new record starts empty even though the slot vectors are reused.
+        a.push(1, 5.0, Repeat::Min);
+        a.push(1, f64::NAN, Repeat::Min);
+        a.push(1, 0.0, Repeat::Min);
+        let v = a.take();
+        assert_eq!(v.len(), 1);
+        assert!(v[0].1.is_nan(), "nan wins min");
+    }
+
+    fn parse(def: &str, log: &str) -> Vec<Output> {
+        let d = Definition::from_text(def, Origin::Builtin, "unit", "unit").expect("valid");
+        let mut p = d.parser();
+        let mut out = Vec::new();
+        for l in log.lines() {
+            p.feed(l.as_bytes(), &mut out);
+        }
+        p.finish(&mut out);
+        out
+    }
+
+    #[test]
+    fn rules_without_literal_still_match_everywhere() {
+        // Neither pattern starts with a literal: no prefilter, the regex decides.
+        let out = parse(
+            "engine = \"lines\"\n[[rules]]\nkind = \"step\"\npattern = '(?i)ITER\\s*=\\s*(?P<iteration>\\d+)'\n\
+             [[rules]]\nkind = \"value\"\npattern = '\\w+:\\s*(?P<value>\\S+)'\nseries = \"r\"\nrepeat = \"all\"\n",
+            "  iter = 4\nx: 1\n  y: 2\n",
+        );
+        let recs: Vec<&Record> = out
+            .iter()
+            .filter_map(|o| if let Output::Record(r) = o { Some(r) } else { None })
+            .collect();
+        assert_eq!(recs.len(), 1);
+        assert_eq!(recs[0].iteration, Some(4));
+        assert_eq!(recs[0].values, vec![(0, 1.0), (0, 2.0)]);
+    }
+
+    #[test]
+    fn finish_twice_emits_once_and_events_carry_iteration() {
+        let def = "engine = \"lines\"\n[[rules]]\nkind = \"step\"\npattern = '^s (?P<iteration>\\d+)'\n\
+                   [[rules]]\nkind = \"event\"\nname = \"w\"\npattern = '^warn (?P<message>.*)'\n";
+        let d = Definition::from_text(def, Origin::Builtin, "unit", "unit").expect("valid");
+        let mut p = d.parser();
+        let mut out = Vec::new();
+        p.feed(b"warn early", &mut out);
+        p.feed(b"s 9", &mut out);
+        p.feed(b"warn  late  ", &mut out);
+        p.finish(&mut out);
+        p.finish(&mut out);
+        let events: Vec<(&str, Option<i64>)> = out
+            .iter()
+            .filter_map(|o| match o {
+                Output::Event(e) => Some((e.message.as_str(), e.iteration)),
+                _ => None,
+            })
+            .collect();
+        assert_eq!(events, vec![("early", None), ("late", Some(9))]);
+        assert_eq!(out.iter().filter(|o| matches!(o, Output::Record(_))).count(), 1);
+        assert_eq!(p.stats(), LineStats { lines: 3, used: 3, skipped: 0, ignored: 0 });
+    }
+}

@@ -25,7 +25,7 @@ pub enum Prefilter {
     /// The line, after the leading blanks `lead` allows, starts with the literal.
     Prefix { lead: Lead, literal: Box<[u8]> },
     /// The line contains the literal somewhere.
-    Contains(memmem::Finder<'static>),
+    Contains(Box<memmem::Finder<'static>>),
 }
 
 /// Leading whitespace allowed before a prefix literal.
@@ -85,7 +85,7 @@ impl Matcher {
         let regex = build_regex(pattern)?;
         let prefilter = match literal {
             Some(lit) if !lit.is_empty() => {
-                Prefilter::Contains(memmem::Finder::new(lit.as_bytes()).into_owned())
+                Prefilter::Contains(Box::new(memmem::Finder::new(lit.as_bytes()).into_owned()))
             }
             Some(_) => return Err("`literal` must not be empty".to_string()),
             None => extract_prefilter(pattern),
@@ -156,7 +156,7 @@ pub fn extract_prefilter(pattern: &str) -> Prefilter {
     if anchored {
         Prefilter::Prefix { lead, literal: literal.into_boxed_slice() }
     } else {
-        Prefilter::Contains(memmem::Finder::new(&literal).into_owned())
+        Prefilter::Contains(Box::new(memmem::Finder::new(&literal).into_owned()))
     }
 }
 

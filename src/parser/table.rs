@@ -494,3 +494,50 @@ fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> 
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::parser::Registry;
+
+    fn rows(name: &str, text: &str) -> (Vec<Output>, LineStats) {
+        let mut p = Registry::builtin().get(name).expect("shipped").parser();
+        let mut out = Vec::new();
+        for l in text.lines() {
+            p.feed(l.as_bytes(), &mut out);
+        }
+        p.finish(&mut out);
+        (out, p.stats())
+    }
+
+    #[test]
+    fn a_warning_of_the_same_width_does_not_replace_the_header() {
+        let (out, stats) = rows("table", "it res Cd\n1 1 0.3\nwarn: low mem\n2 0.5 0.31\n");
+        let names: Vec<String> = out
+            .iter()
+            .filter_map(|o| if let Output::Series(s) = o { Some(s.name.clone()) } else { None })
+            .collect();
+        assert_eq!(names, vec!["res", "Cd"]);
+        assert_eq!(stats, LineStats { lines: 4, used: 2, skipped: 0, ignored: 2 });
+    }
+
+    #[test]
+    fn wider_rows_after_a_new_header_switch_columns() {
+        // A restart that adds a column prints a new, wider header.
+        let (out, stats) = rows("table", "it res\n1 1\nit res Cd\n2 0.5 0.3\n");
+        let last =
+            out.iter().rev().find_map(|o| if let Output::Record(r) = o { Some(r) } else { None });
+        let last = last.expect("a record");
+        assert_eq!(last.iteration, Some(2));
+        assert_eq!(last.values, vec![(0, 0.5), (1, 0.3)]);
+        assert_eq!(stats.skipped, 0);
+    }
+
+    #[test]
+    fn component_names() {
+        assert_eq!(component_name("U", 0, true), "U_x");
+        assert_eq!(component_name("U", 2, true), "U_z");
+        assert_eq!(component_name("U", 3, true), "U[3]");
+        assert_eq!(component_name("U", 0, false), "U[0]");
+    }
+}

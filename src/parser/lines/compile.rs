@@ -296,9 +296,9 @@ fn check_template(t: &str, key: &str, has_name: bool) -> Result<bool, Problem> {
     let mut uses = false;
     while let Some(open) = rest.find('{') {
         let after = &rest[open..];
-        if after.starts_with("{name}") {
+        if let Some(tail) = after.strip_prefix("{name}") {
             uses = true;
-            rest = &after[6..];
+            rest = tail;
         } else {
             let end = after.find('}').map_or(after.len(), |e| e + 1);
             return Err(Problem::new(
