@@ -17,3 +17,4 @@ pub mod run;
 pub mod synth;
 pub mod tui;
 pub mod view;
+pub mod watch;

@@ -56,6 +56,105 @@ enum Command {
     /// evidence, iterative uncertainty of each monitor, provenance (file hashes, parser,
     /// criteria) and, with --mesh-study, the grid convergence index of Celik et al. (2008).
     Report(ReportArgs),
+    /// Follow runs live: panels in the terminal, or status lines with --headless.
+    ///
+    /// PATH is a log file (each file is one run), a case directory holding settle.toml, or
+    /// a folder whose subdirectories hold settle.toml (a sweep: one run each). Several
+    /// runs open an overview, the runs needing a decision first. Without a terminal (a
+    /// pipe, a batch job, TERM=dumb) settle switches to headless status lines.
+    Watch(WatchArgs),
+    /// A live run of our invented demo solver, judged as it grows (the quickest tour).
+    ///
+    /// A background writer produces a growing log and force-monitor file in a temporary
+    /// directory (removed on exit) and settle watches them.
+    Demo(DemoArgs),
+}
+
+#[derive(Args, Debug)]
+struct LiveArgs {
+    /// Print status lines instead of panels (one per run when its verdict or a criterion
+    /// changes, plus a heartbeat); for batch jobs and pipes.
+    #[arg(long)]
+    headless: bool,
+    /// With --headless: print JSON lines (schema in the README) instead of text.
+    #[arg(long, requires = "headless")]
+    json: bool,
+    /// Execute the actions of settle.toml (without it settle only says what it would run).
+    #[arg(long)]
+    act: bool,
+    /// Seconds between file checks (file events also wake settle, but on network
+    /// filesystems only this poll sees writes from other nodes).
+    #[arg(long, value_name = "SECONDS", default_value_t = 1.0)]
+    poll: f64,
+    /// Seconds between re-judgements and chart updates.
+    #[arg(long, value_name = "SECONDS", default_value_t = 1.0)]
+    refresh: f64,
+    /// A log not growing for this long without an end-of-run mark is `stale` (e.g. 90s,
+    /// 5m; default: the run config's stale_limit, else 5m).
+    #[arg(long, value_name = "DURATION")]
+    stale: Option<String>,
+    /// Seconds between heartbeat lines in headless mode.
+    #[arg(long, value_name = "SECONDS", default_value_t = 60.0)]
+    heartbeat: f64,
+    /// When headless mode stops by itself: when every run has ended (end-of-run mark,
+    /// crash after divergence, or stale), also as soon as one diverges, or never.
+    #[arg(long, value_enum, default_value_t = settle::watch::ExitWhen::Ended)]
+    exit_when: settle::watch::ExitWhen,
+    /// Colour: auto honours NO_COLOR (when set and non-empty).
+    #[arg(long, value_enum, default_value_t = ColorArg::Auto)]
+    color: ColorArg,
+    /// Plain ASCII drawing (no braille or box glyphs); automatic without a UTF-8 locale.
+    #[arg(long)]
+    ascii: bool,
+    /// Draw chart lines with half blocks instead of braille (fonts without braille).
+    #[arg(long)]
+    no_braille: bool,
+    /// Start with mouse capture on (it blocks the terminal's own text selection; `m`
+    /// toggles it).
+    #[arg(long)]
+    mouse: bool,
+}
+
+#[derive(Clone, Copy, Debug, clap::ValueEnum)]
+enum ColorArg {
+    Auto,
+    Always,
+    Never,
+}
+
+#[derive(Args, Debug)]
+struct WatchArgs {
+    /// Log files, case directories holding settle.toml, or a folder of case directories.
+    #[arg(required = true, value_name = "PATH")]
+    paths: Vec<PathBuf>,
+    /// Parser definition for every file given (default: detect per file).
+    #[arg(long, value_name = "NAME")]
+    parser: Option<String>,
+    /// Treat all FILE arguments as the sources of one run (residual log + monitor files).
+    #[arg(long)]
+    one_run: bool,
+    #[command(flatten)]
+    criteria: CriteriaArgs,
+    #[command(flatten)]
+    live: LiveArgs,
+}
+
+#[derive(Args, Debug)]
+struct DemoArgs {
+    /// Behaviour of the demo run (see --list).
+    #[arg(long, default_value = "converging", value_name = "NAME")]
+    scenario: String,
+    /// List the scenarios and exit.
+    #[arg(long)]
+    list: bool,
+    /// Seed of the synthetic run (the same seed gives the same run).
+    #[arg(long, default_value_t = 7)]
+    seed: u64,
+    /// Iterations written per second.
+    #[arg(long, default_value_t = settle::demo::DEFAULT_RATE)]
+    rate: f64,
+    #[command(flatten)]
+    live: LiveArgs,
 }
 
 #[derive(Args, Debug)]
@@ -204,6 +303,8 @@ fn run(cli: Cli) -> Result<u8> {
         Command::Parsers(a) => cmd_parsers(a, &registry),
         Command::Check(a) => cmd_check(a, registry),
         Command::Report(a) => cmd_report(a, registry),
+        Command::Watch(a) => cmd_watch(a, registry),
+        Command::Demo(a) => cmd_demo(a, registry),
     }
 }
 
@@ -520,4 +621,126 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
     }
     out(&o)?;
     Ok(0)
+}
+
+fn cmd_watch(a: WatchArgs, registry: Arc<Registry>) -> Result<u8> {
+    let mut specs = settle::watch::resolve_runs(&a.paths, a.parser.as_deref(), a.one_run)
+        .map_err(anyhow::Error::msg)?;
+    let over = a.criteria.to_criteria();
+    for spec in &mut specs {
+        spec.criteria = spec.criteria.merged(&over);
+        config::check_criteria(&spec.criteria).map_err(|(k, m)| anyhow::anyhow!("{k}: {m}"))?;
+    }
+    watch_specs(specs, &a.live, registry)
+}
+
+fn cmd_demo(a: DemoArgs, registry: Arc<Registry>) -> Result<u8> {
+    use settle::synth::Scenario;
+    if a.list {
+        let mut o = String::new();
+        for s in Scenario::all() {
+            o.push_str(&format!("{:<30} {}\n", s.name(), s.description()));
+        }
+        out(&o)?;
+        return Ok(0);
+    }
+    let Some(scenario) = Scenario::parse(&a.scenario) else {
+        bail!("unknown scenario `{}` (see `settle demo --list`)", a.scenario);
+    };
+    if !(a.rate.is_finite() && a.rate > 0.0) {
+        bail!("--rate: expected a positive number of iterations per second");
+    }
+    let (demo, writer) = settle::demo::start(scenario, a.seed, a.rate)
+        .context("starting the demo writer in a temporary directory")?;
+    let spec = RunSpec {
+        name: format!("demo {}", scenario.name()),
+        dir: demo.dir.clone(),
+        sources: vec![
+            config::SourceSpec {
+                path: demo.log.clone(),
+                label: "tarn.log".into(),
+                parser: Some("tarn".into()),
+            },
+            config::SourceSpec {
+                path: demo.forces.clone(),
+                label: "forces.csv".into(),
+                parser: Some("csv".into()),
+            },
+        ],
+        ..config::from_files(&[demo.log.clone()], None)
+    };
+    let code = watch_specs(vec![spec], &a.live, registry);
+    let _ = writer.stop();
+    drop(demo);
+    code
+}
+
+fn seconds(flag: &str, v: f64) -> Result<Duration> {
+    if v.is_finite() && v > 0.0 && v <= 3600.0 {
+        Ok(Duration::from_secs_f64(v))
+    } else {
+        bail!("--{flag}: expected seconds between 0 and 3600, found {v}")
+    }
+}
+
+/// Watch prepared runs: panels on a terminal, headless lines otherwise.
+fn watch_specs(mut specs: Vec<RunSpec>, live: &LiveArgs, registry: Arc<Registry>) -> Result<u8> {
+    use settle::tui::{ColorChoice, Msg, TuiOptions};
+    use std::io::IsTerminal;
+    use std::sync::atomic::{AtomicBool, Ordering};
+
+    if specs.is_empty() {
+        bail!("nothing to watch");
+    }
+    let poll = seconds("poll", live.poll)?.max(Duration::from_millis(50));
+    let refresh = seconds("refresh", live.refresh)?;
+    if let Some(text) = &live.stale {
+        let d = config::parse_duration(text).map_err(|m| anyhow::anyhow!("--stale: {m}"))?;
+        for s in &mut specs {
+            s.stale_limit = d;
+        }
+    }
+    let stale_limit =
+        specs.iter().map(|s| s.stale_limit).min().unwrap_or(config::DEFAULT_STALE_LIMIT);
+    let follow = FollowConfig { poll_interval: poll, ..FollowConfig::default() };
+    let (runs, sources) = settle::watch::prepare(&specs, &registry, &follow)?;
+    let mut hooks = settle::watch::ActionHooks::new(&specs, live.act);
+    let (tx, rx) = std::sync::mpsc::channel::<Msg>();
+    let shutdown = Arc::new(AtomicBool::new(false));
+    let ingest = settle::watch::start_ingest(sources, poll, tx.clone(), shutdown.clone())?;
+    let dumb = std::env::var_os("TERM").is_some_and(|t| t == "dumb");
+    let headless = live.headless || !std::io::stdout().is_terminal() || dumb;
+    let code = if headless {
+        settle::watch::forward_signals(tx.clone())?;
+        let opts = settle::watch::HeadlessOptions {
+            json: live.json,
+            heartbeat: seconds("heartbeat", live.heartbeat)?,
+            refresh,
+            stale_limit,
+            exit_when: live.exit_when,
+        };
+        let mut stdout = std::io::stdout();
+        match settle::watch::run_headless(runs, rx, &opts, &mut hooks, &mut stdout) {
+            Ok(code) => code,
+            Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => 0,
+            Err(e) => return Err(e.into()),
+        }
+    } else {
+        let opts = TuiOptions {
+            color: match live.color {
+                ColorArg::Auto => ColorChoice::Auto,
+                ColorArg::Always => ColorChoice::Always,
+                ColorArg::Never => ColorChoice::Never,
+            },
+            ascii: live.ascii,
+            no_braille: live.no_braille,
+            refresh,
+            stale_limit,
+            mouse: live.mouse,
+        };
+        settle::watch::run_panels(runs, rx, tx, opts, &mut hooks)?
+    };
+    shutdown.store(true, Ordering::Relaxed);
+    drop(ingest);
+    Ok(u8::try_from(code).unwrap_or(1))
 }

@@ -25,6 +25,8 @@ pub enum IngestItem {
     Grew(SystemTime),
     /// Progress of the first bulk read of a large file.
     Progress { read: u64, total: u64 },
+    /// The parser definition chosen for the source (by name or by detection).
+    Parser(String),
 }
 
 /// A batch of items for one source of one run.
@@ -54,6 +56,7 @@ pub fn apply(store: &mut SourceStore, activity: &mut SourceActivity, items: Vec<
             IngestItem::Progress { read, total } => {
                 activity.progress = (read < total).then_some((read, total));
             }
+            IngestItem::Parser(name) => store.parser = name,
         }
     }
 }

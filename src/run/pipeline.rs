@@ -138,6 +138,11 @@ pub struct SourceReader {
     slot: ParserSlot,
     label: String,
     out: Vec<Output>,
+    /// The parser name last announced with [`IngestItem::Parser`].
+    announced: Option<String>,
+    /// Whether anything has been read yet (the first read reports the file's mtime as its
+    /// growth time, so a long-dead log is seen as stale at once).
+    read_before: bool,
 }
 
 impl SourceReader {
@@ -166,6 +171,8 @@ impl SourceReader {
             },
             label: spec.label.clone(),
             out: Vec::new(),
+            announced: None,
+            read_before: false,
         })
     }
 
@@ -193,7 +200,7 @@ impl SourceReader {
     /// With `at_end` (one-shot reads), the final unterminated line is used, the open record
     /// is flushed and a file no definition recognises is an error.
     pub fn read(&mut self, at_end: bool) -> Result<Vec<IngestItem>, PipelineError> {
-        let SourceReader { follower, registry, slot, label, out } = self;
+        let SourceReader { follower, registry, slot, label, out, .. } = self;
         let mut items = Vec::new();
         let mut grew = false;
         let mut error = None;
@@ -238,8 +245,22 @@ impl SourceReader {
         if let Some(p) = &slot.parser {
             items.push(IngestItem::Stats(p.stats()));
         }
+        if slot.chosen.is_some() && slot.chosen != self.announced {
+            self.announced = slot.chosen.clone();
+            items.insert(0, IngestItem::Parser(slot.chosen.clone().unwrap_or_default()));
+        }
         if grew {
-            items.push(IngestItem::Grew(SystemTime::now()));
+            let now = SystemTime::now();
+            let at = if self.read_before {
+                now
+            } else {
+                self.follower
+                    .current_path()
+                    .and_then(|p| std::fs::metadata(p).and_then(|m| m.modified()).ok())
+                    .map_or(now, |m| m.min(now))
+            };
+            self.read_before = true;
+            items.push(IngestItem::Grew(at));
         }
         Ok(items)
     }

@@ -363,9 +363,10 @@ impl RunStore {
         self.sources.iter().filter_map(SourceStore::last_iteration).max()
     }
 
-    /// True when every source has printed its end-of-run mark.
+    /// True when a source has printed the solver's end-of-run mark (monitor files such as
+    /// a force CSV have no end mark of their own; the residual log's mark ends the run).
     pub fn ended(&self) -> bool {
-        !self.sources.is_empty() && self.sources.iter().all(|s| s.ended.is_some())
+        self.sources.iter().any(|s| s.ended.is_some())
     }
 
     /// A borrowed view of every series and event for the judge.
