@@ -1,0 +1,177 @@
+//! Health checks every judged series gets, whatever its role: non-finite values, blow-up by
+//! orders of magnitude, sustained exponential growth, an indicator pinned at its maximum, and
+//! the jump of the last values that makes a crash signature a divergence.
+//!
+//! Blow-ups do not always show in residuals (DESIGN §7): they saturate near 1 or collapse to
+//! tiny values, while monitors, continuity errors and sweep counts explode. These rules are
+//! what lets monitors and indicators make a run `diverging`.
+
+use super::limits::*;
+use super::series::{View, startup_len};
+use super::stats;
+use super::text::{dec, num};
+use super::trend;
+use super::types::{FindingKind, Verdict};
+use super::{Sink, finding};
+
+/// Non-finite values (NaN, ±infinity, overflow fields). In the latest segment after the
+/// start-up, or as the last value, they make the run diverging; only in the start-up with
+/// finite values since (a ratio monitor undefined on the first iteration) or only in an
+/// earlier segment, they are reported without deciding.
+pub fn non_finite(name: &str, v: &View<'_>, sink: &mut Sink) {
+    let Some(first_any) = v.first_non_finite(0) else {
+        return;
+    };
+    let n = v.len();
+    let last_it = v.last_it();
+    let in_seg: Vec<usize> = (v.seg..n).filter(|&i| !v.vals[i].is_finite()).collect();
+    let startup_end = v.seg_first_it() + startup_len(last_it - v.seg_first_it());
+    let (idx, supports, detail_tail) = match (in_seg.first(), in_seg.last()) {
+        (Some(&f), Some(&l)) => {
+            let decisive = l == n - 1 || v.its[l] >= startup_end;
+            let tail = if decisive { "" } else { " (only during the start-up, finite since)" };
+            (f, decisive.then_some(Verdict::Diverging), tail)
+        }
+        _ => (first_any, None, " (in an earlier segment, before the restart)"),
+    };
+    let x = v.vals[idx];
+    let what = if x.is_nan() { "NaN" } else { "infinite (overflow)" };
+    let count = if in_seg.is_empty() {
+        v.vals.iter().filter(|x| !x.is_finite()).count()
+    } else {
+        in_seg.len()
+    };
+    let mut f = finding(FindingKind::NonFinite, name, v.its[idx], last_it, "non_finite_values");
+    f.value = count as f64;
+    f.threshold = Some(0.0);
+    f.supports = supports;
+    f.detail =
+        format!("{name} became {what} at it {}, {count} such values{detail_tail}", v.its[idx]);
+    sink.findings.push(f);
+}
+
+/// Median of `|x|` over the finite values of `vals`.
+fn median_abs(vals: &[f64]) -> Option<f64> {
+    stats::median(&vals.iter().map(|x| x.abs()).collect::<Vec<_>>())
+}
+
+/// The jump of the last values against the window before them: `Some(description)` when the
+/// median |value| of the last 3 finite values is at least [`CRASH_JUMP`] times, or below
+/// `CRASH_JUMP⁻³` times, the median over the rest of the window.
+pub fn end_jump(name: &str, v: &View<'_>, window: usize) -> Option<String> {
+    let win = v.window(window);
+    let k = win.len();
+    if k < 13 {
+        return None;
+    }
+    let reference = median_abs(&win.vals[..k - 10])?;
+    let now = median_abs(&win.vals[k - 3..])?;
+    if !(reference > 0.0) {
+        return None;
+    }
+    let ratio = now / reference;
+    if ratio >= CRASH_JUMP {
+        Some(format!("{name} grew ×{} in its last values", num(ratio)))
+    } else if ratio <= CRASH_JUMP.powi(-3) {
+        Some(format!("{name} collapsed to ×{} of its level in its last values", num(ratio)))
+    } else {
+        None
+    }
+}
+
+/// Blow-up rules for monitors and indicators on the latest segment after its start-up:
+/// a jump of [`BLOWUP_DEC`] decades above the reference level, sustained exponential growth,
+/// and (indicators) a value pinned at its maximum. Returns true when a finding was pushed.
+pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &mut Sink) -> bool {
+    let n = v.len();
+    let last_it = v.last_it();
+    let seg_first = v.seg_first_it();
+    let startup_end = seg_first + startup_len(last_it - seg_first);
+    // Reference range: after the start-up, ending before the most recent part (half a window,
+    // or half of what there is), at most four windows long.
+    let recent = ((window / 2) as i64).min((last_it - startup_end) / 2).max(1);
+    let ref_last = last_it - recent;
+    let ref_first = startup_end.max(ref_last - 4 * window as i64);
+    let a = v.seg + v.its[v.seg..].partition_point(|&i| i < ref_first);
+    let b = v.seg + v.its[v.seg..].partition_point(|&i| i <= ref_last);
+    let reference = if b > a + 10 { median_abs(&v.vals[a..b]) } else { None };
+    let now = median_abs(&v.vals[n.saturating_sub(5).max(v.seg)..]);
+
+    // 1. Orders of magnitude above the reference level.
+    if let (Some(r), Some(c)) = (reference, now) {
+        if r > 0.0 && (c / r).log10() >= BLOWUP_DEC {
+            let growth = (c / r).log10();
+            // Date it: first value after the reference range beyond 10× the reference.
+            let first = (b..n).find(|&i| v.vals[i].abs() > 10.0 * r).map_or(last_it, |i| v.its[i]);
+            let mut f = finding(FindingKind::BlowUp, name, first, last_it, "growth_dec");
+            f.value = growth;
+            f.threshold = Some(BLOWUP_DEC);
+            f.supports = Some(Verdict::Diverging);
+            f.detail = format!(
+                "{name} grew {} decades, from about {} to {}: it is blowing up",
+                dec(growth),
+                num(r),
+                num(c),
+            );
+            sink.findings.push(f);
+            return true;
+        }
+    }
+
+    // 2. Sustained exponential growth over the window, after the start-up.
+    let win = v.window_map(last_it, window, |x| if x != 0.0 { x.abs().log10() } else { f64::NAN });
+    let post = win.from_iteration(startup_end);
+    if post.len() >= 30 {
+        if let Some(t) = trend::fit(&post.its, &post.vals) {
+            let rise = t.slope_dec_per_kit * post.span() as f64 / 1000.0;
+            let third = post.len() / 3;
+            let m = |r: std::ops::Range<usize>| stats::median(&post.vals[r]).unwrap_or(f64::NAN);
+            let (m1, m2, m3) = (m(0..third), m(third..2 * third), m(2 * third..post.len()));
+            let keeps = m2 > m1 && m3 > m2 && (m3 - m2) >= EXP_GROWTH_KEEP * (m2 - m1);
+            if t.rising() && rise >= EXP_GROWTH_DEC && keeps {
+                let mut f =
+                    finding(FindingKind::BlowUp, name, t.first, t.last, "growth_dec_per_kit");
+                f.value = t.slope_dec_per_kit;
+                f.threshold = Some(0.0);
+                f.p_value = stats::t_two_sided_p(t.slope_dec_per_kit / t.se_dec_per_kit, t.dof);
+                f.supports = Some(Verdict::Diverging);
+                f.detail = format!(
+                    "{name} grows exponentially: {} decades over the last {} iterations and not slowing down",
+                    dec(rise),
+                    post.span(),
+                );
+                sink.findings.push(f);
+                return true;
+            }
+        }
+    }
+
+    // 3. Indicators: pinned at the maximum (a sweep count at its limit).
+    if indicator {
+        if let (Some(r), Some(&x)) = (reference, v.vals.last()) {
+            let pinned = v.vals[v.seg..].iter().rev().take_while(|&&y| y == x).count();
+            let seg_max =
+                v.vals[v.seg..].iter().copied().filter(|y| y.is_finite()).fold(f64::MIN, f64::max);
+            if x.is_finite()
+                && x == seg_max
+                && pinned >= PINNED_MIN_VALUES
+                && r > 0.0
+                && x.abs() >= PINNED_RATIO * r
+            {
+                let first = v.its[n - pinned];
+                let mut f = finding(FindingKind::BlowUp, name, first, last_it, "pinned_at_max");
+                f.value = pinned as f64;
+                f.threshold = Some(PINNED_MIN_VALUES as f64);
+                f.supports = Some(Verdict::Diverging);
+                f.detail = format!(
+                    "{name} has been stuck at its maximum {} for {pinned} values (usually about {}): a limit is being hit",
+                    num(x),
+                    num(r),
+                );
+                sink.findings.push(f);
+                return true;
+            }
+        }
+    }
+    false
+}

@@ -1,0 +1,73 @@
+//! Fixed decision thresholds of the judge, in one place with their reasons.
+//!
+//! These are not user criteria (those live in [`super::types::Criteria`]) but the levels at
+//! which a statistic becomes a finding. Where no published value exists the number is our
+//! choice, made by reasoning about real solver histories (DESIGN §7), not tuned to test
+//! series; each says so.
+
+/// Significance level of the oscillation test per series. 1 % rather than 5 % because a run
+/// has several series and a false "oscillating" costs the user a look (our choice).
+pub const OSC_ALPHA: f64 = 0.01;
+
+/// Smallest residual oscillation (semi-amplitude, decades) that can decide a verdict: ±12 %.
+/// Smaller periodic ripples are reported only (our choice).
+pub const OSC_MIN_RESIDUAL_DEC: f64 = 0.05;
+
+/// A monitor oscillation decides the verdict only when its peak-to-peak amplitude is at least
+/// this fraction of the band limit, i.e. when the oscillation is what breaks the band (ours).
+pub const OSC_MONITOR_BAND_SHARE: f64 = 0.5;
+
+/// Fewest values for an oscillation test.
+pub const OSC_MIN_POINTS: usize = 32;
+
+/// A significantly rising residual is divergence only when the fitted rise over the window is
+/// at least this many decades (statistical significance alone flags harmless slow creeps on a
+/// solver floor; our choice).
+pub const DIVERGE_MIN_RISE_DEC: f64 = 1.0;
+
+/// Divergence when a residual stands this many decades above its running minimum after the
+/// start-up (METHODS §6: "residual > 10²–10³ × its running minimum"; we take the upper end).
+pub const DIVERGE_ABOVE_MIN_DEC: f64 = 3.0;
+
+/// Monitor or indicator "grows by orders of magnitude": this many decades above its reference
+/// level (DESIGN §7 wording; two orders is our reading).
+pub const BLOWUP_DEC: f64 = 2.0;
+
+/// Sustained exponential growth of a monitor or indicator: at least this rise over the window
+/// in decades, significantly positive and not slowing down (ours).
+pub const EXP_GROWTH_DEC: f64 = 1.0;
+
+/// "Not slowing down": the rise over the last third of the window is at least this fraction
+/// of the rise over the middle third (exponential growth keeps its rate; a ramp-up towards a
+/// level slows; ours).
+pub const EXP_GROWTH_KEEP: f64 = 0.75;
+
+/// An indicator pinned at its maximum for this many consecutive values...
+pub const PINNED_MIN_VALUES: usize = 10;
+/// ...while that maximum is at least this many times its usual level (a sweep count hitting
+/// its limit; ours).
+pub const PINNED_RATIO: f64 = 5.0;
+
+/// A residual repeating exactly the same value this many times at the end is frozen (ours; a
+/// solver printing 3 significant digits repeats a slowly converging value a few times only).
+pub const FROZEN_MIN_REPEATS: usize = 20;
+
+/// A single-step drop of at least this many decades is a reset or normalisation artefact when
+/// the drop criterion depends on it (ours).
+pub const STEP_DROP_DEC: f64 = 3.0;
+
+/// A first value at least this many decades below the later peak is a "low start" (ours).
+pub const LOW_START_DEC: f64 = 2.0;
+
+/// A residual this many decades below its peak sits at round-off level: never a stall (ours;
+/// double precision carries about 16 digits and solvers lose a few).
+pub const ROUNDOFF_DROP_DEC: f64 = 12.0;
+
+/// Around a crash: a series whose last values jumped by at least this factor (or fell below
+/// its inverse cubed) against the window before them counts as a sign of blow-up (ours).
+pub const CRASH_JUMP: f64 = 3.0;
+
+/// Warnings of one rule in at least this share of the window's iterations are frequent.
+pub const FREQUENT_WARNING_SHARE: f64 = 0.5;
+/// ...and in at least this many iterations.
+pub const FREQUENT_WARNING_MIN: usize = 10;

@@ -1,0 +1,451 @@
+//! Judging one residual: drop from the peak, absolute level, trend and ETA, stall,
+//! divergence, oscillation, and the signs of false convergence a single history can show
+//! (frozen value, one-step drop, low start).
+//!
+//! Segments: the drop is measured from the peak of the whole run (a restart does not reset
+//! what the residual has achieved), everything windowed (trend, stall, divergence,
+//! oscillation) uses the latest segment only, and `since` dates stay within it.
+
+use super::criteria::{self, Resolved};
+use super::limits::*;
+use super::series::{self, View, startup_len};
+use super::spectrum;
+use super::stats;
+use super::text::{dec, its, num};
+use super::trend::{self, MIN_FALL_DEC_PER_KIT, Trend};
+use super::types::{Comparison, FindingKind, ResidualSummary, Verdict};
+use super::{Sink, finding, health};
+
+/// What the run-level rules need to know about a residual.
+#[derive(Debug, Clone, Default)]
+pub struct ResidualFacts {
+    /// Every criterion of this residual holds at the end.
+    pub met: bool,
+    /// Something near the end looks like a blow-up (used with a crash signature).
+    pub crash_sign: Option<String>,
+}
+
+/// Peak and last positive finite value of the whole run.
+struct Levels {
+    peak: f64,
+    peak_idx: usize,
+    first_idx: usize,
+    last_pos: f64,
+}
+
+fn levels(v: &View<'_>) -> Option<Levels> {
+    let mut peak = (f64::NEG_INFINITY, 0usize);
+    let mut first_idx = None;
+    let mut last_pos = None;
+    for (i, &x) in v.vals.iter().enumerate() {
+        if x.is_finite() && x > 0.0 {
+            first_idx.get_or_insert(i);
+            last_pos = Some(x);
+            if x > peak.0 {
+                peak = (x, i);
+            }
+        }
+    }
+    Some(Levels { peak: peak.0, peak_idx: peak.1, first_idx: first_idx?, last_pos: last_pos? })
+}
+
+/// Judge one residual series; pushes criteria, findings and the summary into `sink`.
+pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> ResidualFacts {
+    let n = v.len();
+    let last_it = v.last_it();
+    let last_raw = v.vals[n - 1];
+    health::non_finite(name, v, sink);
+    let crash_sign = health::end_jump(name, v, rc.window);
+
+    let Some(lv) = levels(v) else {
+        // No positive value at all (all zero, negative or non-finite): nothing to measure.
+        sink.criteria.push(criteria::result(
+            "drop",
+            name,
+            Comparison::AtLeast,
+            rc.drop,
+            f64::NAN,
+            "dec",
+            None,
+        ));
+        if let Some(b) = rc.below {
+            let value = if last_raw.is_finite() { last_raw } else { f64::NAN };
+            let since = scan_since(v, |x| x <= b.value);
+            sink.criteria.push(criteria::result(
+                "below",
+                name,
+                Comparison::AtMost,
+                b,
+                value,
+                "",
+                since,
+            ));
+        }
+        frozen(name, v, sink);
+        sink.residuals.push(ResidualSummary {
+            series: name.into(),
+            last: last_raw,
+            peak: f64::NAN,
+            drop_dec: f64::NAN,
+            slope_dec_per_kit: f64::NAN,
+            slope_ci: (f64::NAN, f64::NAN),
+            eta_iterations: None,
+        });
+        return ResidualFacts { met: false, crash_sign };
+    };
+
+    // Drop from the peak of the whole run, dated within the latest segment.
+    let drop_level = lv.peak / 10f64.powf(rc.drop.value);
+    let drop = if last_raw.is_finite() { (lv.peak / lv.last_pos).log10() } else { f64::NAN };
+    let drop_since = scan_since(v, |x| x <= drop_level);
+    let drop_res =
+        criteria::result("drop", name, Comparison::AtLeast, rc.drop, drop, "dec", drop_since);
+    let mut met = drop_res.met;
+    sink.criteria.push(drop_res);
+    let mut target = drop_level;
+    if let Some(b) = rc.below {
+        let value = if last_raw.is_finite() { last_raw } else { f64::NAN };
+        let res = criteria::result(
+            "below",
+            name,
+            Comparison::AtMost,
+            b,
+            value,
+            "",
+            scan_since(v, |x| x <= b.value),
+        );
+        met &= res.met;
+        sink.criteria.push(res);
+        target = target.min(b.value);
+    }
+
+    // Trend over the window of the latest segment.
+    let w = rc.window;
+    let win = v.window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN });
+    let tr = trend::fit(&win.its, &win.vals);
+    let falling = tr.is_some_and(|t| t.falling(MIN_FALL_DEC_PER_KIT));
+    let eta = if met { None } else { tr.and_then(|t| t.eta(target.log10())) };
+    let full = win.span() as f64 >= 0.9 * w as f64 && win.len() >= 30;
+    let half = win.span() as f64 >= 0.5 * w as f64 && win.len() >= OSC_MIN_POINTS;
+
+    let diverging = divergence(name, v, &win, sink);
+
+    if let Some(t) = tr {
+        if !met && falling {
+            trend_finding(name, &t, target, eta, sink);
+        } else if !met && full && !diverging && drop < ROUNDOFF_DROP_DEC {
+            stall(name, v, &t, drop, rc, sink);
+        }
+    }
+    if half {
+        oscillation(name, &win, !met && !falling, sink);
+    }
+    frozen(name, v, sink);
+    step_drop(name, v, &lv, drop, rc.drop.value, drop_since.is_some(), sink);
+    low_start(name, v, &lv, met, sink);
+
+    sink.residuals.push(ResidualSummary {
+        series: name.into(),
+        last: last_raw,
+        peak: lv.peak,
+        drop_dec: drop,
+        slope_dec_per_kit: tr.map_or(f64::NAN, |t| t.slope_dec_per_kit),
+        slope_ci: tr.map_or((f64::NAN, f64::NAN), |t| t.ci),
+        eta_iterations: eta,
+    });
+    ResidualFacts { met, crash_sign }
+}
+
+/// First iteration of the latest segment from which `ok(value)` has held for every value to
+/// the end (non-finite values never hold; values ≤ 0 are below any positive level).
+fn scan_since(v: &View<'_>, ok: impl Fn(f64) -> bool) -> Option<i64> {
+    let mut since = None;
+    for i in (v.seg..v.len()).rev() {
+        let x = v.vals[i];
+        if !x.is_finite() || !ok(x) {
+            break;
+        }
+        since = Some(v.its[i]);
+    }
+    since
+}
+
+fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<f64>, sink: &mut Sink) {
+    let when = match eta {
+        Some(e) => format!("; about {} iterations to reach {}", its(e), num(target)),
+        None => String::new(),
+    };
+    let mut f = finding(FindingKind::Trend, name, t.first, t.last, "slope_dec_per_kit");
+    f.value = t.slope_dec_per_kit;
+    f.threshold = Some(-MIN_FALL_DEC_PER_KIT);
+    f.supports = Some(Verdict::Converging);
+    f.detail = format!(
+        "{name} falls {} dec per 1000 it (95 % CI {}…{}){when}",
+        dec(-t.slope_dec_per_kit),
+        dec(t.ci.0),
+        dec(t.ci.1),
+    );
+    sink.findings.push(f);
+}
+
+fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &mut Sink) {
+    // Date the plateau: walk back from the window start until the residual was clearly above
+    // the plateau level (bounded look-back of 20 windows).
+    let band = (4.0 * t.resid_sd).max(0.3);
+    let ceiling = 10f64.powf(t.fitted_last + band);
+    let start = v.end_at(t.first - 1);
+    let floor_it = t.first - 20 * rc.window as i64;
+    let mut first = t.first;
+    for i in (v.seg..start).rev() {
+        if v.its[i] < floor_it || v.vals[i] > ceiling || !v.vals[i].is_finite() {
+            break;
+        }
+        first = v.its[i];
+    }
+    let short = (rc.drop.value - drop).max(0.0);
+    let mut f = finding(FindingKind::Stall, name, first, t.last, "slope_dec_per_kit");
+    f.value = t.slope_dec_per_kit;
+    f.threshold = Some(-MIN_FALL_DEC_PER_KIT);
+    f.supports = Some(Verdict::Stalled);
+    let shortfall = if short > 0.0 {
+        format!("{} dec short of its {}-decade drop", dec(short), dec(rc.drop.value))
+    } else {
+        "above its target level".to_string()
+    };
+    f.detail = format!(
+        "{name} has not fallen for {} iterations: slope {} dec/kit (95 % CI {}…{}), {shortfall}",
+        its((t.last - first) as f64),
+        dec(t.slope_dec_per_kit),
+        dec(t.ci.0),
+        dec(t.ci.1),
+    );
+    sink.findings.push(f);
+}
+
+/// The two divergence rules on the latest segment after its start-up. Returns true when a
+/// divergence finding was pushed.
+fn divergence(name: &str, v: &View<'_>, win: &series::Window, sink: &mut Sink) -> bool {
+    let last_it = v.last_it();
+    let startup_end = v.seg_first_it() + startup_len(last_it - v.seg_first_it());
+    let mut found = false;
+
+    // 1. Significantly rising after the start-up, by a material amount.
+    let post = win.from_iteration(startup_end);
+    if let Some(t) = trend::fit(&post.its, &post.vals) {
+        let rise = t.slope_dec_per_kit * post.span() as f64 / 1000.0;
+        if t.rising() && rise >= DIVERGE_MIN_RISE_DEC {
+            let mut f =
+                finding(FindingKind::Divergence, name, t.first, t.last, "slope_dec_per_kit");
+            f.value = t.slope_dec_per_kit;
+            f.threshold = Some(0.0);
+            f.p_value = stats::t_two_sided_p(t.slope_dec_per_kit / t.se_dec_per_kit, t.dof);
+            f.supports = Some(Verdict::Diverging);
+            f.detail = format!(
+                "{name} rises {} dec per 1000 it (95 % CI {}…{}), {} decades over the last {} iterations",
+                dec(t.slope_dec_per_kit),
+                dec(t.ci.0),
+                dec(t.ci.1),
+                dec(rise),
+                its(post.span() as f64),
+            );
+            sink.findings.push(f);
+            found = true;
+        }
+    }
+
+    // 2. Many decades above the running minimum (of block medians, so one odd value does not
+    // count) since the start-up. One O(n) pass.
+    let from = v.seg + v.its[v.seg..].partition_point(|&i| i < startup_end);
+    let n = v.len();
+    let current = stats::median(
+        &v.vals[n.saturating_sub(5).max(v.seg)..]
+            .iter()
+            .copied()
+            .filter(|x| *x > 0.0)
+            .collect::<Vec<_>>(),
+    );
+    let meds = series::block_medians(&v.vals[from..n.saturating_sub(5).max(from)], from, |x| x);
+    if let (Some(cur), Some(&(idx, lo))) = (current, meds.iter().min_by(|a, b| a.1.total_cmp(&b.1)))
+    {
+        let above = (cur / lo).log10();
+        if !found && above >= DIVERGE_ABOVE_MIN_DEC {
+            let mut f =
+                finding(FindingKind::Divergence, name, v.its[idx], last_it, "decades_above_min");
+            f.value = above;
+            f.threshold = Some(DIVERGE_ABOVE_MIN_DEC);
+            f.supports = Some(Verdict::Diverging);
+            f.detail = format!(
+                "{name} is {} decades above its minimum {} (it {}): it is growing, not converging",
+                dec(above),
+                num(lo),
+                v.its[idx],
+            );
+            sink.findings.push(f);
+            found = true;
+        }
+    }
+    found
+}
+
+fn oscillation(name: &str, win: &series::Window, decisive: bool, sink: &mut Sink) {
+    let mut vals: &[f64] = &win.vals;
+    let mut its: &[i64] = &win.its;
+    if vals.len() % 2 == 0 {
+        // Odd length keeps a period-2 oscillation off the dropped Nyquist ordinate.
+        vals = &vals[1..];
+        its = &its[1..];
+    }
+    let Some(o) = spectrum::find_oscillation(vals) else {
+        return;
+    };
+    if !(o.p_value < OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
+        return;
+    }
+    let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;
+    let period = o.period * spacing;
+    let mut f = finding(FindingKind::Oscillation, name, its[0], its[its.len() - 1], "fisher_g");
+    f.value = o.g;
+    f.threshold = Some(fisher_critical(o.m));
+    f.p_value = Some(o.p_value);
+    f.period = Some(period);
+    f.amplitude = Some(o.amplitude);
+    f.supports = decisive.then_some(Verdict::Oscillating);
+    f.detail = format!(
+        "{name} oscillates with a period of {} iterations and ±{} decades (Fisher's g = {}, p = {})",
+        num(period),
+        dec(o.amplitude),
+        num(o.g),
+        num(o.p_value),
+    );
+    sink.findings.push(f);
+}
+
+/// Approximate critical g at [`OSC_ALPHA`]: `1 − (α/m)^{1/(m−1)}` (first term of the exact
+/// series; exact when above ½).
+pub fn fisher_critical(m: usize) -> f64 {
+    if m < 2 {
+        return 1.0;
+    }
+    1.0 - (OSC_ALPHA / m as f64).powf(1.0 / (m as f64 - 1.0))
+}
+
+fn frozen(name: &str, v: &View<'_>, sink: &mut Sink) {
+    let n = v.len();
+    let x = v.vals[n - 1];
+    if !x.is_finite() {
+        return;
+    }
+    let mut k = n - 1;
+    while k > 0 && v.vals[k - 1] == x {
+        k -= 1;
+    }
+    let repeats = n - k;
+    if repeats < FROZEN_MIN_REPEATS {
+        return;
+    }
+    let mut f = finding(FindingKind::FrozenResidual, name, v.its[k], v.last_it(), "repeats");
+    f.value = repeats as f64;
+    f.threshold = Some(FROZEN_MIN_REPEATS as f64);
+    f.supports = Some(Verdict::Suspect);
+    f.detail = format!(
+        "{name} has printed exactly {} for the last {repeats} values: the equation looks frozen, not converged",
+        num(x)
+    );
+    sink.findings.push(f);
+}
+
+fn step_drop(
+    name: &str,
+    v: &View<'_>,
+    lv: &Levels,
+    drop: f64,
+    need: f64,
+    drop_met_now: bool,
+    sink: &mut Sink,
+) {
+    let n = v.len();
+    // Falling to exactly zero at the end is the extreme case.
+    if v.vals[n - 1] == 0.0 {
+        let mut f = finding(FindingKind::StepDrop, name, v.last_it(), v.last_it(), "last_value");
+        f.value = 0.0;
+        f.supports = Some(Verdict::Suspect);
+        f.detail = format!(
+            "{name} is exactly 0 at the end: a reset or a broken normalisation, not convergence"
+        );
+        sink.findings.push(f);
+        return;
+    }
+    // Largest single-step fall after the peak, between consecutive positive values. O(n).
+    let mut best = (0.0f64, 0usize);
+    let mut prev: Option<f64> = None;
+    for i in lv.peak_idx..n {
+        let x = v.vals[i];
+        if !(x.is_finite() && x > 0.0) {
+            prev = None;
+            continue;
+        }
+        if let Some(p) = prev {
+            let s = (p / x).log10();
+            if s > best.0 {
+                best = (s, i);
+            }
+        }
+        prev = Some(x);
+    }
+    if best.0 < STEP_DROP_DEC {
+        return;
+    }
+    let decides = drop_met_now && drop - best.0 < need;
+    let i = best.1;
+    let mut f = finding(FindingKind::StepDrop, name, v.its[i - 1], v.its[i], "step_dec");
+    f.value = best.0;
+    f.threshold = Some(STEP_DROP_DEC);
+    f.supports = decides.then_some(Verdict::Suspect);
+    f.detail = if decides {
+        format!(
+            "{name} fell {} decades in one step at it {}; without that step the drop is {} of {} decades",
+            dec(best.0),
+            v.its[i],
+            dec((drop - best.0).max(0.0)),
+            dec(need),
+        )
+    } else {
+        format!("{name} fell {} decades in one step at it {}", dec(best.0), v.its[i])
+    };
+    sink.findings.push(f);
+}
+
+fn low_start(name: &str, v: &View<'_>, lv: &Levels, met: bool, sink: &mut Sink) {
+    let first = v.vals[lv.first_idx];
+    let below = (lv.peak / first).log10();
+    if below < LOW_START_DEC {
+        return;
+    }
+    let decides = met && lv.last_pos >= first;
+    let mut f = finding(
+        FindingKind::LowStart,
+        name,
+        v.its[lv.first_idx],
+        v.its[lv.peak_idx],
+        "decades_below_peak",
+    );
+    f.value = below;
+    f.threshold = Some(LOW_START_DEC);
+    f.supports = decides.then_some(Verdict::Suspect);
+    f.detail = if decides {
+        format!(
+            "{name} started at {}, {} decades below its later peak {}, and is still above its start: the drop is measured from a start-up spike",
+            num(first),
+            dec(below),
+            num(lv.peak),
+        )
+    } else {
+        format!(
+            "{name} started at {}, {} decades below its later peak {}; the drop is measured from the peak",
+            num(first),
+            dec(below),
+            num(lv.peak),
+        )
+    };
+    sink.findings.push(f);
+}

@@ -1,0 +1,224 @@
+//! A series as the analyses see it: the latest segment, trailing windows by iteration, and
+//! the cheap whole-run scans (peak, non-finite values).
+//!
+//! Windows are found by binary search on the iteration numbers of the latest segment and are
+//! capped at [`MAX_WINDOW_POINTS`] values, so every windowed test costs O(window), not
+//! O(run). Several values with the same iteration number (inner iterations kept with the
+//! repeat policy `all`) are collapsed to the last one, which is the converged inner value.
+
+use std::ops::Range;
+
+use super::types::SeriesInput;
+
+/// Most values a windowed test looks at (the newest ones).
+pub const MAX_WINDOW_POINTS: usize = 16_384;
+
+/// Values of one window, finite only, one per iteration.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Window {
+    pub its: Vec<i64>,
+    pub vals: Vec<f64>,
+}
+
+impl Window {
+    pub fn len(&self) -> usize {
+        self.vals.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.vals.is_empty()
+    }
+
+    /// Iterations spanned, last − first (0 when empty).
+    pub fn span(&self) -> i64 {
+        match (self.its.first(), self.its.last()) {
+            (Some(a), Some(b)) => b - a,
+            _ => 0,
+        }
+    }
+
+    pub fn its_f64(&self) -> Vec<f64> {
+        let last = self.its.last().copied().unwrap_or(0);
+        self.its.iter().map(|i| (i - last) as f64).collect()
+    }
+
+    /// Mean iteration spacing between samples (1 for a one-value-per-iteration history).
+    pub fn spacing(&self) -> f64 {
+        if self.len() < 2 { 1.0 } else { self.span() as f64 / (self.len() - 1) as f64 }
+    }
+
+    /// Drop the oldest values until at most `keep` remain.
+    pub fn keep_newest(&mut self, keep: usize) {
+        if self.len() > keep {
+            let cut = self.len() - keep;
+            self.its.drain(..cut);
+            self.vals.drain(..cut);
+        }
+    }
+
+    /// The part from iteration `from` on.
+    pub fn from_iteration(&self, from: i64) -> Window {
+        let k = self.its.partition_point(|&i| i < from);
+        Window { its: self.its[k..].to_vec(), vals: self.vals[k..].to_vec() }
+    }
+}
+
+/// A borrowed view of one series with its latest segment located.
+#[derive(Debug, Clone, Copy)]
+pub struct View<'s> {
+    pub its: &'s [i64],
+    pub vals: &'s [f64],
+    /// Index of the first value of the latest segment.
+    pub seg: usize,
+    /// Number of segments.
+    pub segments: usize,
+}
+
+impl<'s> View<'s> {
+    /// `None` when the series is empty.
+    pub fn new(s: &'s SeriesInput<'_>) -> Option<View<'s>> {
+        let n = s.values.len().min(s.iterations.len());
+        if n == 0 {
+            return None;
+        }
+        let seg = s.segment_starts.iter().copied().filter(|&i| i < n).max().unwrap_or(0);
+        let segments = s.segment_starts.iter().filter(|&&i| i < n).count().max(1);
+        Some(View { its: &s.iterations[..n], vals: &s.values[..n], seg, segments })
+    }
+
+    pub fn len(&self) -> usize {
+        self.vals.len()
+    }
+
+    /// Always false for a constructed view (kept for the `len` convention).
+    pub fn is_empty(&self) -> bool {
+        self.vals.is_empty()
+    }
+
+    pub fn last_it(&self) -> i64 {
+        self.its[self.len() - 1]
+    }
+
+    pub fn seg_first_it(&self) -> i64 {
+        self.its[self.seg]
+    }
+
+    /// Index one past the last value with iteration ≤ `t` in the latest segment.
+    pub fn end_at(&self, t: i64) -> usize {
+        self.seg + self.its[self.seg..].partition_point(|&i| i <= t)
+    }
+
+    /// Index range of the latest segment's values with iteration in `(t − w, t]`.
+    pub fn range(&self, t: i64, w: usize) -> Range<usize> {
+        let end = self.end_at(t);
+        let from = t.saturating_sub(w as i64);
+        let start = self.seg + self.its[self.seg..end].partition_point(|&i| i <= from);
+        start..end
+    }
+
+    /// The window `(t − w, t]` of the latest segment, values mapped by `f` (non-finite
+    /// results dropped), one value per iteration, at most [`MAX_WINDOW_POINTS`].
+    pub fn window_map(&self, t: i64, w: usize, f: impl Fn(f64) -> f64) -> Window {
+        let r = self.range(t, w);
+        // Look only at a bounded tail: collapsing duplicates can only shrink it.
+        let start = r.start.max(r.end.saturating_sub(MAX_WINDOW_POINTS * 4));
+        let mut out = Window::default();
+        for i in start..r.end {
+            let v = f(self.vals[i]);
+            let it = self.its[i];
+            if out.its.last() == Some(&it) {
+                // Same iteration again (inner iterations): keep the last value.
+                out.its.pop();
+                out.vals.pop();
+            }
+            if v.is_finite() {
+                out.its.push(it);
+                out.vals.push(v);
+            }
+        }
+        out.keep_newest(MAX_WINDOW_POINTS);
+        out
+    }
+
+    /// The window of raw values ending at the last iteration.
+    pub fn window(&self, w: usize) -> Window {
+        self.window_map(self.last_it(), w, |v| v)
+    }
+
+    /// First index of a non-finite value at or after `from`.
+    pub fn first_non_finite(&self, from: usize) -> Option<usize> {
+        self.vals[from..].iter().position(|v| !v.is_finite()).map(|i| i + from)
+    }
+}
+
+/// Start-up length in iterations for a segment that has run `elapsed` iterations: 20 % of
+/// it, between 20 and 200 iterations (DESIGN §7: residuals often rise in the first tens to
+/// hundreds of iterations while the flow develops; our choice of numbers).
+pub fn startup_len(elapsed: i64) -> i64 {
+    (elapsed / 5).clamp(20, 200)
+}
+
+/// Medians of consecutive blocks of 5 values `f(x)` of `v` (a cheap outlier-proof summary for
+/// running minima); values whose `f(x)` is not finite and positive are skipped. Returns
+/// `(offset + index of the block's last value, median)`.
+pub fn block_medians(v: &[f64], offset: usize, f: impl Fn(f64) -> f64) -> Vec<(usize, f64)> {
+    let mut out = Vec::with_capacity(v.len() / 5 + 1);
+    let mut buf = [0.0f64; 5];
+    let mut k = 0;
+    for (i, x) in v.iter().enumerate() {
+        let x = f(*x);
+        if !(x.is_finite() && x > 0.0) {
+            continue;
+        }
+        buf[k] = x;
+        k += 1;
+        if k == 5 {
+            let mut b = buf;
+            b.sort_by(f64::total_cmp);
+            out.push((offset + i, b[2]));
+            k = 0;
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::borrow::Cow;
+
+    fn input(its: Vec<i64>, vals: Vec<f64>, segs: Vec<usize>) -> SeriesInput<'static> {
+        SeriesInput {
+            name: Cow::Borrowed("s"),
+            iterations: Cow::Owned(its),
+            values: Cow::Owned(vals),
+            segment_starts: segs,
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn windows_use_the_latest_segment_and_collapse_repeats() {
+        // Segment 1: it 1..=10; segment 2 restarts at it 5 and runs to 12, with it 12 twice.
+        let mut its: Vec<i64> = (1..=10).collect();
+        its.extend([5, 6, 7, 8, 9, 10, 11, 12, 12]);
+        let vals: Vec<f64> = (0..its.len()).map(|i| i as f64).collect();
+        let s = input(its, vals, vec![0, 10]);
+        let v = View::new(&s).expect("non-empty");
+        assert_eq!((v.seg, v.segments, v.last_it()), (10, 2, 12));
+        let w = v.window(4);
+        assert_eq!(w.its, vec![9, 10, 11, 12]);
+        assert_eq!(w.vals, vec![14.0, 15.0, 16.0, 18.0]);
+        let all = v.window(1000);
+        assert_eq!(all.its.first(), Some(&5));
+    }
+
+    #[test]
+    fn medians_skip_non_finite() {
+        let v = [5.0, 1.0, f64::NAN, 4.0, 2.0, 3.0, 9.0, -1.0];
+        assert_eq!(block_medians(&v, 0, |x| x), vec![(5, 3.0)]);
+        assert_eq!(block_medians(&v, 10, f64::abs), vec![(15, 3.0)]);
+        assert_eq!(startup_len(10), 20);
+        assert_eq!(startup_len(5000), 200);
+    }
+}

@@ -1,0 +1,346 @@
+//! Oscillation detection: periodogram (FFT), Fisher's g-test with its exact p-value, and the
+//! period and amplitude of the dominant component.
+//!
+//! Fisher (1929) tests the largest periodogram ordinate against white noise. Solver histories
+//! carry red (positively autocorrelated) noise, whose low-frequency ordinates are large
+//! without any oscillation; following METHODS §3 we compare each ordinate with an AR(1)
+//! spectrum fitted to the window (Whittle likelihood, with the candidate peak left out of the
+//! fit so a genuine oscillation cannot inflate its own background), and test the whitened
+//! ordinates. The lowest Fourier frequency (one cycle per window) is left out: linear
+//! detrending distorts it and a partial trend looks like it. Periods from 2 iterations (the
+//! caller passes an odd-length window so period 2 is not the dropped Nyquist ordinate) up to
+//! half the window are covered.
+
+use rustfft::FftPlanner;
+use rustfft::num_complex::Complex;
+
+use super::stats;
+
+/// Periodogram ordinates `I_k = |Σ_t x_t e^{−2πikt/n}|² / n` for `k = 0..=n/2` (no
+/// demeaning, no window: callers detrend first).
+pub fn periodogram(x: &[f64]) -> Vec<f64> {
+    let n = x.len();
+    if n == 0 {
+        return Vec::new();
+    }
+    let mut buf: Vec<Complex<f64>> = x.iter().map(|v| Complex::new(*v, 0.0)).collect();
+    FftPlanner::<f64>::new().plan_fft_forward(n).process(&mut buf);
+    buf.iter().take(n / 2 + 1).map(|c| c.norm_sqr() / n as f64).collect()
+}
+
+/// Number of Fourier frequencies Fisher's test uses for a series of length `n`:
+/// `m = ⌊(n−1)/2⌋` (zero frequency and, for even `n`, Nyquist dropped).
+pub fn fisher_m(n: usize) -> usize {
+    n.saturating_sub(1) / 2
+}
+
+/// Fisher's statistic `g = max I_k / Σ I_k` over the given ordinates, with the index of the
+/// maximum. `None` when the ordinates are empty or sum to zero.
+pub fn fisher_g(ordinates: &[f64]) -> Option<(usize, f64)> {
+    let sum: f64 = ordinates.iter().sum();
+    if ordinates.is_empty() || !(sum > 0.0) || !sum.is_finite() {
+        return None;
+    }
+    let (k, max) = ordinates.iter().enumerate().max_by(|a, b| a.1.total_cmp(b.1))?;
+    Some((k, max / sum))
+}
+
+/// Exact p-value of Fisher's g under Gaussian white noise with `m` ordinates:
+/// `P(G > g) = Σ_{j=1}^{⌊1/g⌋} (−1)^{j−1} C(m,j) (1 − jg)^{m−1}` (Fisher 1929).
+///
+/// Terms are formed in log space (`ln C(m,j)` by recurrence, `ln(1−jg)` by `ln_1p`) and
+/// summed with Neumaier compensation. The alternating sum cancels badly only when the
+/// first term `S1 = m(1−g)^{m−1}` is large, i.e. when `p` is within about 1e-5 of 1; when the
+/// rounding-error bound of the sum exceeds 1e-9 the Poisson-clumping value `1 − e^{−S1}` is
+/// returned instead, which agrees with the exact value to that accuracy in that regime.
+pub fn fisher_p_value(g: f64, m: usize) -> f64 {
+    if m < 2 || g.is_nan() || g <= 1.0 / m as f64 {
+        // g ≥ 1/m always holds (the maximum is at least the mean), so this is p = 1.
+        return 1.0;
+    }
+    if g >= 1.0 {
+        return 0.0;
+    }
+    let mf = m as f64;
+    let jmax = ((1.0 / g).floor() as usize).min(m);
+    let (mut sum, mut comp, mut biggest) = (0.0f64, 0.0f64, 0.0f64);
+    let mut ln_c = 0.0; // ln C(m, 0)
+    for j in 1..=jmax {
+        let jf = j as f64;
+        ln_c += ((mf - jf + 1.0) / jf).ln();
+        let base = 1.0 - jf * g;
+        if base <= 0.0 {
+            break;
+        }
+        let mag = (ln_c + (mf - 1.0) * (-jf * g).ln_1p()).exp();
+        biggest = biggest.max(mag);
+        let term = if j % 2 == 1 { mag } else { -mag };
+        // Neumaier compensated addition.
+        let t = sum + term;
+        comp += if sum.abs() >= term.abs() { (sum - t) + term } else { (term - t) + sum };
+        sum = t;
+    }
+    let p = sum + comp;
+    let err_bound = biggest * jmax as f64 * 1e-14;
+    if err_bound > 1e-9 {
+        let s1 = (mf.ln() + (mf - 1.0) * (-g).ln_1p()).exp();
+        return (1.0 - (-s1).exp()).clamp(0.0, 1.0);
+    }
+    p.clamp(0.0, 1.0)
+}
+
+/// A dominant periodic component found in a window.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Oscillation {
+    /// Fourier index of the peak (cycles per window).
+    pub k: usize,
+    /// Fisher's g of the whitened ordinates.
+    pub g: f64,
+    /// Exact p-value of `g` with `m` ordinates.
+    pub p_value: f64,
+    pub m: usize,
+    /// Refined period in samples.
+    pub period: f64,
+    /// Semi-amplitude of the least-squares sinusoid at the refined frequency (units of `x`).
+    pub amplitude: f64,
+    /// AR(1) coefficient of the fitted background spectrum.
+    pub phi: f64,
+}
+
+/// Linear detrend: residuals of the least-squares line against the sample index.
+pub fn detrend(x: &[f64]) -> Vec<f64> {
+    let t: Vec<f64> = (0..x.len()).map(|i| i as f64).collect();
+    match stats::ols(&t, x) {
+        Some(fit) => stats::ols_residuals(&fit, &t, x),
+        None => {
+            let m = stats::mean(x).unwrap_or(0.0);
+            x.iter().map(|v| v - m).collect()
+        }
+    }
+}
+
+/// AR(1) spectral shape `1 / (1 − 2φ cos ω + φ²)` up to a constant.
+fn ar1_shape(phi: f64, omega: f64) -> f64 {
+    1.0 / (1.0 - 2.0 * phi * omega.cos() + phi * phi)
+}
+
+/// Whittle estimate of the AR(1) coefficient from periodogram ordinates `(ω_k, I_k)`,
+/// skipping the indices in `exclude`: minimises `K ln σ̂²(φ) − Σ ln h_k(φ)` with
+/// `h_k = 1 − 2φ cos ω_k + φ²` and `σ̂² = mean(I_k h_k)`. Grid search then golden section on
+/// `φ ∈ [−0.95, 0.995]`.
+fn whittle_ar1(omega: &[f64], ord: &[f64], exclude: &[usize]) -> f64 {
+    let objective = |phi: f64| -> f64 {
+        let (mut s, mut lh, mut k) = (0.0, 0.0, 0usize);
+        for (i, (w, v)) in omega.iter().zip(ord).enumerate() {
+            if exclude.contains(&i) {
+                continue;
+            }
+            let h = 1.0 - 2.0 * phi * w.cos() + phi * phi;
+            s += v * h;
+            lh += h.ln();
+            k += 1;
+        }
+        if k == 0 || !(s > 0.0) {
+            return f64::INFINITY;
+        }
+        let kf = k as f64;
+        kf * (s / kf).ln() - lh
+    };
+    let (lo, hi) = (-0.95, 0.995);
+    let steps = 60;
+    let step = (hi - lo) / steps as f64;
+    let mut best = (0.0, objective(0.0));
+    for i in 0..=steps {
+        let phi = lo + step * i as f64;
+        let v = objective(phi);
+        if v < best.1 {
+            best = (phi, v);
+        }
+    }
+    if !best.1.is_finite() {
+        return 0.0;
+    }
+    golden_min(objective, (best.0 - step).max(lo), (best.0 + step).min(hi), 40)
+}
+
+/// Golden-section minimisation of `f` on `[a, b]`.
+fn golden_min(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64, iters: usize) -> f64 {
+    let r = (5f64.sqrt() - 1.0) / 2.0;
+    let mut c = b - r * (b - a);
+    let mut d = a + r * (b - a);
+    let (mut fc, mut fd) = (f(c), f(d));
+    for _ in 0..iters {
+        if fc < fd {
+            b = d;
+            d = c;
+            fd = fc;
+            c = b - r * (b - a);
+            fc = f(c);
+        } else {
+            a = c;
+            c = d;
+            fc = fd;
+            d = a + r * (b - a);
+            fd = f(d);
+        }
+    }
+    0.5 * (a + b)
+}
+
+/// Least-squares fit of `a + b·t + c·cos(2πft) + d·sin(2πft)` to `x` (the sine column is
+/// dropped at the Nyquist frequency). Returns the residual sum of squares and the
+/// semi-amplitude `sqrt(c² + d²)`.
+pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
+    let n = x.len();
+    let tc = (n as f64 - 1.0) / 2.0;
+    let nyquist = (f - 0.5).abs() < 1e-12;
+    let cols = if nyquist { 3 } else { 4 };
+    let w = 2.0 * std::f64::consts::PI * f;
+    let basis = |i: usize| -> [f64; 4] {
+        let t = i as f64;
+        [1.0, (t - tc) / n as f64, (w * t).cos(), (w * t).sin()]
+    };
+    let mut a = vec![vec![0.0; cols]; cols];
+    let mut rhs = vec![0.0; cols];
+    for (i, xi) in x.iter().enumerate() {
+        let b = basis(i);
+        for r in 0..cols {
+            rhs[r] += b[r] * xi;
+            for c in 0..cols {
+                a[r][c] += b[r] * b[c];
+            }
+        }
+    }
+    let coef = stats::solve_small(a, rhs)?;
+    let sse: f64 = x
+        .iter()
+        .enumerate()
+        .map(|(i, xi)| {
+            let b = basis(i);
+            let fit: f64 = (0..cols).map(|c| coef[c] * b[c]).sum();
+            (xi - fit).powi(2)
+        })
+        .sum();
+    let amp = if nyquist { coef[2].abs() } else { coef[2].hypot(coef[3]) };
+    Some((sse, amp))
+}
+
+/// Refine the frequency of a peak found at Fourier index `k` of a length-`n` series: the
+/// frequency in `[(k−1)/n, (k+1)/n] ∩ (0, 0.5]` with the smallest [`sine_fit`] residual, by a
+/// 16-point grid then golden section. Exact for a sinusoid plus a line.
+fn refine_frequency(x: &[f64], k: usize) -> f64 {
+    let n = x.len() as f64;
+    let lo = ((k as f64 - 1.0) / n).max(0.5 / n);
+    let hi = ((k as f64 + 1.0) / n).min(0.5);
+    let sse = |f: f64| sine_fit(x, f).map_or(f64::INFINITY, |(s, _)| s);
+    let grid = 16;
+    let step = (hi - lo) / grid as f64;
+    let mut best = (k as f64 / n, sse(k as f64 / n));
+    for i in 0..=grid {
+        let f = lo + step * i as f64;
+        let v = sse(f);
+        if v < best.1 {
+            best = (f, v);
+        }
+    }
+    let f = golden_min(sse, (best.0 - step).max(lo), (best.0 + step).min(hi), 50);
+    // Golden section never evaluates the interval ends; keep an end point if it is better
+    // (the Nyquist frequency for a period-2 oscillation).
+    let cand = [f, best.0, hi];
+    cand.into_iter().min_by(|a, b| sse(*a).total_cmp(&sse(*b))).unwrap_or(f)
+}
+
+/// Search a window for a dominant periodic component.
+///
+/// Linear detrend, periodogram, AR(1) background by Whittle (peak left out), Fisher's g on
+/// the whitened ordinates `k = 2..=m`, then period and amplitude from a least-squares
+/// sinusoid at the refined frequency. Returns the strongest candidate whatever its p-value
+/// (callers compare with their α). `None` for fewer than 16 values or a constant window.
+pub fn find_oscillation(x: &[f64]) -> Option<Oscillation> {
+    let n = x.len();
+    if n < 16 || x.iter().any(|v| !v.is_finite()) {
+        return None;
+    }
+    let d = detrend(x);
+    let ord_all = periodogram(&d);
+    let m = fisher_m(n);
+    // Candidate ordinates k = 2..=m.
+    let ks: Vec<usize> = (2..=m).collect();
+    let omega: Vec<f64> =
+        ks.iter().map(|&k| 2.0 * std::f64::consts::PI * k as f64 / n as f64).collect();
+    let ord: Vec<f64> = ks.iter().map(|&k| ord_all[k]).collect();
+    if !(ord.iter().sum::<f64>() > 0.0) {
+        return None;
+    }
+    let whiten = |phi: f64| -> Vec<f64> {
+        ord.iter().zip(&omega).map(|(v, w)| v / ar1_shape(phi, *w)).collect()
+    };
+    // Pass 1: background from all ordinates; pass 2: refit without the candidate and three
+    // neighbours on each side (its main lobe and strongest side lobes); a third pass only if
+    // the candidate moved.
+    let mut phi = whittle_ar1(&omega, &ord, &[]);
+    let (mut idx, _) = fisher_g(&whiten(phi))?;
+    for _ in 0..2 {
+        let excl: Vec<usize> = (idx.saturating_sub(3)..=idx + 3).collect();
+        phi = whittle_ar1(&omega, &ord, &excl);
+        let (new_idx, _) = fisher_g(&whiten(phi))?;
+        if new_idx == idx {
+            break;
+        }
+        idx = new_idx;
+    }
+    let w = whiten(phi);
+    let (idx, g) = fisher_g(&w)?;
+    let p = fisher_p_value(g, w.len());
+    let k = ks[idx];
+    let f = refine_frequency(x, k);
+    let (_, amplitude) = sine_fit(x, f)?;
+    Some(Oscillation { k, g, p_value: p, m: w.len(), period: 1.0 / f, amplitude, phi })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn p_value_edges() {
+        assert_eq!(fisher_p_value(1.0, 10), 0.0);
+        assert_eq!(fisher_p_value(0.1, 10), 1.0);
+        assert_eq!(fisher_p_value(0.5, 1), 1.0);
+        // m = 5, g > 1/2: only the first term, m(1−g)^{m−1}.
+        let g = 0.6;
+        assert!((fisher_p_value(g, 5) - 5.0 * 0.4f64.powi(4)).abs() < 1e-15);
+        // Near g = 1/m the value is 1 within rounding, never outside [0, 1].
+        for m in [50usize, 500, 5000] {
+            let p = fisher_p_value(1.2 / m as f64, m);
+            assert!((0.0..=1.0).contains(&p) && p > 0.999, "m = {m}: {p}");
+        }
+    }
+
+    #[test]
+    fn constant_and_short_windows_have_no_oscillation() {
+        assert!(find_oscillation(&[1.0; 100]).is_none());
+        assert!(find_oscillation(&[1.0, 2.0, 1.0]).is_none());
+        // A pure line detrends to zero.
+        let line: Vec<f64> = (0..101).map(|i| 3.0 + 0.5 * i as f64).collect();
+        assert!(find_oscillation(&line).is_none_or(|o| o.p_value > 0.01));
+    }
+
+    #[test]
+    fn period_two_three_and_long() {
+        for period in [2.0f64, 3.0, 4.0, 37.5] {
+            let x: Vec<f64> = (0..301)
+                .map(|t| {
+                    let t = t as f64;
+                    10.0 + 0.001 * t + 0.5 * (2.0 * std::f64::consts::PI * t / period + 0.3).cos()
+                })
+                .collect();
+            let o = find_oscillation(&x).expect("long enough");
+            assert!((o.period - period).abs() / period < 1e-6, "{period}: {o:?}");
+            // At period 2 only the cosine part is observable: 0.5·cos(0.3).
+            let amp = if period == 2.0 { 0.5 * 0.3f64.cos() } else { 0.5 };
+            assert!((o.amplitude - amp).abs() < 1e-6, "{period}: {o:?}");
+            assert!(o.p_value < 1e-6, "{period}: {o:?}");
+        }
+    }
+}

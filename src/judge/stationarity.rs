@@ -1,0 +1,263 @@
+//! Monitor stationarity: start-up transient removal (MSER, MSER-5), the error of a window
+//! mean under autocorrelation (batch means, integrated autocorrelation time) and the two
+//! user-facing numbers drift and band.
+//!
+//! Monitor samples are strongly autocorrelated (one iteration changes the solution a little),
+//! so a naive `σ/√n` standard error is far too small; both estimators here account for that.
+
+use rustfft::FftPlanner;
+use rustfft::num_complex::Complex;
+
+use super::stats;
+
+/// MSER statistic for truncation `d`: `Σ_{i>d}(Y_i − Ȳ_d)² / (n−d)²` (White 1997).
+fn mser_at(y: &[f64], d: usize) -> f64 {
+    let tail = &y[d..];
+    let k = tail.len() as f64;
+    let m = stats::mean(tail).unwrap_or(0.0);
+    tail.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (k * k)
+}
+
+/// MSER truncation (White 1997; White, Cobb & Spratt 2000): the `d ≤ d_max` minimising
+/// [`mser_at`], with the MSER values for `d = 0..=d_max`.
+///
+/// `d_max` is clamped to `n/2` (the usual rule: a minimum beyond half the data means the
+/// series is too short to call stationary). `None` for fewer than 2 values.
+pub fn mser(y: &[f64], d_max: usize) -> Option<(usize, Vec<f64>)> {
+    if y.len() < 2 {
+        return None;
+    }
+    let d_max = d_max.min(y.len() / 2);
+    // Suffix sums make every MSER(d) O(1); deviations are taken from the overall mean so the
+    // suffix sums keep their digits (values such as 0.031 21 ± 1e-6).
+    let m0 = stats::mean(y)?;
+    let n = y.len();
+    let mut s1 = vec![0.0; n + 1];
+    let mut s2 = vec![0.0; n + 1];
+    for i in (0..n).rev() {
+        let d = y[i] - m0;
+        s1[i] = s1[i + 1] + d;
+        s2[i] = s2[i + 1] + d * d;
+    }
+    let values: Vec<f64> = (0..=d_max)
+        .map(|d| {
+            let k = (n - d) as f64;
+            let ss = (s2[d] - s1[d] * s1[d] / k).max(0.0);
+            ss / (k * k)
+        })
+        .collect();
+    let best =
+        values.iter().enumerate().min_by(|a, b| a.1.total_cmp(b.1)).map(|(i, _)| i).unwrap_or(0);
+    Some((best, values))
+}
+
+/// Direct (unoptimised) MSER value, kept for tests of [`mser`].
+pub fn mser_direct(y: &[f64], d: usize) -> f64 {
+    mser_at(y, d)
+}
+
+/// MSER-5 truncation point in raw samples (Franklin & White 2008): MSER on the means of
+/// non-overlapping batches of 5, truncation `5·d*`. Trailing samples that do not fill a batch
+/// are ignored by the search. `None` with fewer than two batches.
+pub fn mser5(y: &[f64]) -> Option<usize> {
+    let batches: Vec<f64> = y.chunks_exact(5).map(|c| c.iter().sum::<f64>() / 5.0).collect();
+    let (d, _) = mser(&batches, batches.len() / 2)?;
+    Some(5 * d)
+}
+
+/// A batch-means estimate of the standard error of a mean.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BatchMeans {
+    pub mean: f64,
+    pub se: f64,
+    pub batches: usize,
+    pub batch_size: usize,
+}
+
+/// Batch-means standard error with `b` non-overlapping batches (METHODS §2e):
+/// `SE = sqrt(Σ(Ȳ_j − Ȳ)² / (b(b−1)))`. The oldest `n mod b` values are dropped so that the
+/// batches end at the newest value. `None` when `b < 2` or a batch would be empty.
+pub fn batch_means(x: &[f64], b: usize) -> Option<BatchMeans> {
+    if b < 2 || x.len() < b {
+        return None;
+    }
+    let m = x.len() / b;
+    let x = &x[x.len() - m * b..];
+    let means: Vec<f64> = x.chunks_exact(m).map(|c| stats::mean(c).unwrap_or(0.0)).collect();
+    let grand = stats::mean(&means)?;
+    let ss: f64 = means.iter().map(|v| (v - grand) * (v - grand)).sum();
+    let bf = b as f64;
+    Some(BatchMeans { mean: grand, se: (ss / (bf * (bf - 1.0))).sqrt(), batches: b, batch_size: m })
+}
+
+/// Sample autocovariances `γ(t) = (1/n) Σ (x_i − x̄)(x_{i+t} − x̄)` for `t = 0..n−1`, by FFT
+/// (zero-padded to avoid wrap-around), O(n log n).
+pub fn autocovariance(x: &[f64]) -> Vec<f64> {
+    let n = x.len();
+    let Some(m) = stats::mean(x) else {
+        return Vec::new();
+    };
+    let len = (2 * n).next_power_of_two();
+    let mut buf: Vec<Complex<f64>> = x.iter().map(|v| Complex::new(v - m, 0.0)).collect();
+    buf.resize(len, Complex::new(0.0, 0.0));
+    let mut planner = FftPlanner::<f64>::new();
+    planner.plan_fft_forward(len).process(&mut buf);
+    for c in buf.iter_mut() {
+        *c = Complex::new(c.norm_sqr(), 0.0);
+    }
+    planner.plan_fft_inverse(len).process(&mut buf);
+    let scale = 1.0 / (len as f64 * n as f64);
+    buf.iter().take(n).map(|c| c.re * scale).collect()
+}
+
+/// Sokal's automatic-window estimate from an autocorrelation function `rho` (`rho[0] = 1`):
+/// `τ(M) = 1 + 2 Σ_{t=1}^{M} ρ(t)` with the smallest `M ≥ c·τ(M)` (Sokal 1997). Returns
+/// `(τ, M)`; `None` when no such `M` exists within the given lags.
+pub fn iat_sokal_acf(rho: &[f64], c: f64) -> Option<(f64, usize)> {
+    let mut tau = 1.0;
+    for (m, r) in rho.iter().enumerate().skip(1) {
+        tau += 2.0 * r;
+        if (m as f64) >= c * tau {
+            return Some((tau, m));
+        }
+    }
+    None
+}
+
+/// Geyer's (1992) initial monotone sequence estimate from autocovariances `gamma`
+/// (`gamma[0] > 0`): pairs `Γ_k = γ(2k) + γ(2k+1)` are summed until the first non-positive one,
+/// each capped by its predecessor, and `τ = (−γ(0) + 2 Σ Γ_k)/γ(0)`. At least 1.
+pub fn iat_geyer_acov(gamma: &[f64]) -> Option<f64> {
+    let g0 = *gamma.first()?;
+    if !(g0 > 0.0) {
+        return None;
+    }
+    let mut sum = 0.0;
+    let mut prev = f64::INFINITY;
+    for pair in gamma.chunks_exact(2) {
+        let big = pair[0] + pair[1];
+        if big <= 0.0 {
+            break;
+        }
+        let big = big.min(prev);
+        sum += big;
+        prev = big;
+    }
+    Some(((-g0 + 2.0 * sum) / g0).max(1.0))
+}
+
+/// Integrated autocorrelation time of a series, Geyer's initial monotone sequence on the
+/// FFT autocovariance; convention `Var(x̄) ≈ τ σ²/n` (so white noise gives 1). `None` for
+/// fewer than 4 values or a constant series.
+pub fn iat(x: &[f64]) -> Option<f64> {
+    if x.len() < 4 {
+        return None;
+    }
+    iat_geyer_acov(&autocovariance(x))
+}
+
+/// Drift over a window: least-squares slope × `window` iterations relative to `|mean|`, in
+/// percent. 0 for a constant series (even at zero mean); infinite when the mean is zero and
+/// the values are not.
+pub fn drift_pct(its: &[f64], vals: &[f64], window: f64) -> Option<f64> {
+    let (lo, hi) = min_max(vals)?;
+    if lo == hi {
+        return Some(0.0);
+    }
+    let fit = stats::ols(its, vals)?;
+    let m = stats::mean(vals)?;
+    Some(relative_pct(fit.slope * window, m))
+}
+
+/// Band over a window: `(max − min)/|mean|` in percent (0 for a constant series).
+pub fn band_pct(vals: &[f64]) -> Option<f64> {
+    let (lo, hi) = min_max(vals)?;
+    if lo == hi {
+        return Some(0.0);
+    }
+    Some(relative_pct(hi - lo, stats::mean(vals)?))
+}
+
+/// `100·a/|m|`, infinite when `m` is zero and `a` is not.
+pub fn relative_pct(a: f64, m: f64) -> f64 {
+    if a == 0.0 {
+        0.0
+    } else if m == 0.0 {
+        f64::INFINITY
+    } else {
+        100.0 * a / m.abs()
+    }
+}
+
+fn min_max(v: &[f64]) -> Option<(f64, f64)> {
+    if v.is_empty() {
+        return None;
+    }
+    Some(v.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &x| (lo.min(x), hi.max(x))))
+}
+
+/// The 95 % confidence half-width of a window mean, autocorrelation-aware.
+///
+/// The larger of two estimates (a conservative choice of ours): batch means with 20 batches
+/// and `t_{0.975, 19}` (Schmeiser 1982: 10–30 batches), and the IAT standard error
+/// `sqrt(τ s²/n)` with `t_{0.975}` at `n/τ − 1` degrees of freedom. Batch means underestimate
+/// when batches are shorter than the correlation time; the IAT estimate is noisy for short
+/// windows; taking the maximum guards against both. `None` for fewer than 20 values.
+pub fn mean_ci_half(x: &[f64]) -> Option<f64> {
+    const BATCHES: usize = 20;
+    if x.len() < BATCHES {
+        return None;
+    }
+    let (_, sd) = stats::mean_sd(x)?;
+    if sd == 0.0 {
+        return Some(0.0);
+    }
+    let bm = batch_means(x, BATCHES)?;
+    let t_bm = stats::t_quantile(0.975, (BATCHES - 1) as f64)?;
+    let mut half = t_bm * bm.se;
+    if let Some(tau) = iat(x) {
+        let n = x.len() as f64;
+        let dof = (n / tau - 1.0).max(1.0);
+        let t = stats::t_quantile(0.975, dof)?;
+        half = half.max(t * (tau * sd * sd / n).sqrt());
+    }
+    Some(half)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fast_mser_matches_direct() {
+        let y = [5.0, 3.0, 1.0, 0.0, 0.1, -0.1, 0.1, -0.1, 0.1, -0.1, 0.3, 0.2];
+        let (_, v) = mser(&y, 6).expect("12 values");
+        for (d, got) in v.iter().enumerate() {
+            assert!((got - mser_direct(&y, d)).abs() < 1e-15, "d = {d}");
+        }
+    }
+
+    #[test]
+    fn autocovariance_matches_direct_sum() {
+        let x = [1.0, 3.0, 2.0, 5.0, 4.0, 4.5, 2.0];
+        let g = autocovariance(&x);
+        let m = stats::mean(&x).expect("non-empty");
+        for t in 0..x.len() {
+            let direct: f64 =
+                (0..x.len() - t).map(|i| (x[i] - m) * (x[i + t] - m)).sum::<f64>() / 7.0;
+            assert!((g[t] - direct).abs() < 1e-12, "lag {t}");
+        }
+    }
+
+    #[test]
+    fn drift_and_band_definitions() {
+        let its: Vec<f64> = (0..101).map(f64::from).collect();
+        // 100 ± 0.05·(t − 50)/50: slope 0.001 per it → 0.5 over 500 it → 0.5 % of 100.
+        let v: Vec<f64> = its.iter().map(|t| 100.0 + 0.001 * (t - 50.0)).collect();
+        assert!((drift_pct(&its, &v, 500.0).expect("fit") - 0.5).abs() < 1e-9);
+        assert!((band_pct(&v).expect("values") - 0.1).abs() < 1e-9);
+        assert_eq!(band_pct(&[0.0, 0.0]), Some(0.0));
+        assert_eq!(band_pct(&[-1.0, 1.0]), Some(f64::INFINITY));
+        assert_eq!(mean_ci_half(&[2.0; 40]), Some(0.0));
+    }
+}
