@@ -371,19 +371,21 @@ impl RunStore {
 
     /// A borrowed view of every series and event for the judge.
     ///
-    /// When two sources hold a series of the same name, the later one is named
-    /// `label:name` so that names stay unique.
+    /// Solvers often print a monitor in the residual log and again in a monitor file; a
+    /// later source's series with the same name, role and values as an earlier one is the
+    /// same quantity and is left out, so it is judged once. A same-named series with other
+    /// values is kept as `label:name` so that names stay unique.
     pub fn judge_input(&self) -> RunInput<'_> {
         let mut input = RunInput::default();
-        let mut seen: Vec<&str> = Vec::new();
+        let mut seen: Vec<&Series> = Vec::new();
         for src in &self.sources {
             for s in &src.series {
-                let name: Cow<'_, str> = if seen.contains(&s.name.as_str()) {
-                    Cow::Owned(format!("{}:{}", src.label, s.name))
-                } else {
-                    seen.push(&s.name);
-                    Cow::Borrowed(&s.name)
+                let name: Cow<'_, str> = match seen.iter().find(|o| o.name == s.name) {
+                    Some(o) if same_quantity(o, s) => continue,
+                    Some(_) => Cow::Owned(format!("{}:{}", src.label, s.name)),
+                    None => Cow::Borrowed(&s.name),
                 };
+                seen.push(s);
                 input.series.push(SeriesInput {
                     name,
                     role: s.role,
@@ -398,6 +400,21 @@ impl RunStore {
         input.ended_at = self.sources.iter().filter_map(|s| s.ended.as_ref().map(|e| e.0)).max();
         input
     }
+}
+
+/// Two series are the same quantity printed twice when role and trailing values agree
+/// (to the printed precision of the coarser file: 1e-4 relative).
+fn same_quantity(a: &Series, b: &Series) -> bool {
+    const TAIL: usize = 50;
+    if a.role != b.role || a.is_empty() || b.is_empty() {
+        return false;
+    }
+    let n = a.len().min(b.len()).min(TAIL);
+    let ta = &a.values()[a.len() - n..];
+    let tb = &b.values()[b.len() - n..];
+    ta.iter().zip(tb).all(|(x, y)| {
+        (x.is_nan() && y.is_nan()) || x == y || (x - y).abs() <= 1e-4 * x.abs().max(y.abs())
+    })
 }
 
 #[cfg(test)]
@@ -480,9 +497,12 @@ mod tests {
         a.apply([info(0, "p"), rec(1, &[(0, 1.0)])]);
         let mut b = SourceStore::new("b.log", "x");
         b.apply([info(0, "p"), rec(1, &[(0, 2.0)])]);
-        run.sources = vec![a, b];
+        let mut c = SourceStore::new("c.csv", "x");
+        c.apply([info(0, "p"), rec(1, &[(0, 1.00001)])]);
+        run.sources = vec![a, b, c];
         let input = run.judge_input();
         let names: Vec<&str> = input.series.iter().map(|s| &*s.name).collect();
+        // c.csv repeats a.log's p to printed precision: judged once.
         assert_eq!(names, vec!["p", "b.log:p"]);
     }
 }
