@@ -117,8 +117,10 @@ fn write_file(path: &Path, bytes: &[u8]) -> io::Result<()> {
 
 /// Facts of one tarn sample for the README.
 fn describe(run: &SynthRun, log: &[u8], csv: &[u8]) -> String {
-    let notices: usize = run.steps.iter().map(|s| s.notices.len()).sum();
-    let warnings: usize = run.steps.iter().map(|s| s.warnings.len()).sum();
+    // A crash's cut-short last record prints no notice or warning lines.
+    let printed = &run.steps[..run.complete_steps()];
+    let notices: usize = printed.iter().map(|s| s.notices.len()).sum();
+    let warnings: usize = printed.iter().map(|s| s.warnings.len()).sum();
     let end = match run.end {
         End::Finished if run.solver_converged => "targets-reached line, then the end-of-run line",
         End::Finished => "end-of-run line",
