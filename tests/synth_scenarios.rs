@@ -68,15 +68,22 @@ fn same_seed_same_run_different_seed_different_run() {
 }
 
 #[test]
-fn lengths_and_onsets_vary_by_seed() {
-    for s in Scenario::all() {
-        let runs: Vec<SynthRun> = (0..7).map(|seed| synth::generate(*s, seed)).collect();
-        let mut lens: Vec<usize> = runs.iter().map(|r| r.steps.len()).collect();
+fn lengths_vary_by_seed() {
+    for s in [Scenario::Converging, Scenario::Stall, Scenario::DivergeNan, Scenario::Restart] {
+        let mut lens: Vec<usize> =
+            (0..5).map(|seed| synth::generate(s, seed).steps.len()).collect();
         assert!(lens.iter().all(|&n| (1000..=5300).contains(&n)), "{s}: {lens:?}");
         lens.sort();
         lens.dedup();
-        assert!(lens.len() >= 5, "{s}: lengths {lens:?}");
-        let mut onsets: Vec<i64> = runs.iter().filter_map(|r| r.onset).collect();
+        assert!(lens.len() >= 4, "{s}: lengths {lens:?}");
+    }
+}
+
+#[test]
+fn onsets_vary_by_seed_and_only_bad_runs_have_one() {
+    for s in Scenario::all() {
+        let mut onsets: Vec<i64> =
+            (0..6).filter_map(|seed| synth::generate_with(*s, seed, &short(800)).onset).collect();
         onsets.sort();
         onsets.dedup();
         if s.healthy() {
@@ -113,7 +120,7 @@ fn converged_scenarios_end_low_with_settled_monitors() {
         Scenario::PseudoPlateauThenConverge,
         Scenario::FloorConverged,
     ] {
-        for seed in SEEDS {
+        for seed in 0..2 {
             let run = synth::generate(s, seed);
             let n = run.steps.len();
             assert_eq!(run.end, End::Finished, "{s} {seed}");
