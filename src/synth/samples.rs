@@ -25,9 +25,11 @@ const TARN_SAMPLES: [TarnSample; 2] = [
     TarnSample {
         case: "duct-bend-07",
         scenario: Scenario::Converging,
-        seed: 7,
-        iterations: 640,
-        why: "a short, clean run that meets its residual targets; clipping notices early on",
+        seed: 47,
+        iterations: 700,
+        why: "a short, clean run that meets its residual targets, with clipping notices early \
+              on; the seed is one whose monitors have settled over the final 500 iterations \
+              (default window), so the sample shows a converged run",
     },
     TarnSample {
         case: "mixer-22",
