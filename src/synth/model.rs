@@ -280,12 +280,17 @@ pub(super) fn round_sig(v: f64, digits: i32) -> f64 {
     }
     let e = v.abs().log10().floor() as i32;
     let shift = digits - 1 - e;
-    if shift >= 0 {
+    // Powers of ten up to 1e22 are exact, so one correctly rounded operation on the integer
+    // mantissa gives the same double as parsing the printed decimal.
+    if (0..=22).contains(&shift) {
         let s = 10f64.powi(shift);
         (v * s).round() / s
-    } else {
+    } else if (-22..0).contains(&shift) {
         let s = 10f64.powi(-shift);
         (v / s).round() * s
+    } else {
+        let d = (digits - 1).max(0) as usize;
+        format!("{v:.d$e}").parse().unwrap_or(v)
     }
 }
 
@@ -461,7 +466,7 @@ impl Sim<'_> {
         }
         let wander = match &p.wander {
             Some(w) => {
-                let ramp = ((x - w.onset) / 100.0).clamp(0.0, 1.0);
+                let ramp = w.ramp(x);
                 let trend = w.trend * (x - w.onset).max(0.0);
                 ramp * self.wander_res.next(&mut self.rng) + trend
             }
@@ -497,7 +502,9 @@ impl Sim<'_> {
         for (e, eq) in c.eqs.iter().enumerate() {
             let own = self.own[e].next(&mut self.rng);
             let rho = c.shared_rho;
-            let noise = eq.sigma * (rho * shared + (1.0 - rho * rho).sqrt() * own) * ramp_noise;
+            let damp = p.cycle.as_ref().map_or(1.0, |cy| 1.0 - cy.noise_damp * env.min(1.0));
+            let noise =
+                eq.sigma * (rho * shared + (1.0 - rho * rho).sqrt() * own) * ramp_noise * damp;
             let cyc = match &p.cycle {
                 Some(cy) => cy.res_amp * cy.eq_amp[e] * env * cy.wave(self.theta - cy.eq_lag[e]),
                 None => 0.0,
@@ -569,7 +576,7 @@ impl Sim<'_> {
                 rel += cy.mon_amp[m] * env * cy.wave(self.theta - cy.mon_lag[m]);
             }
             if let Some(w) = &p.wander {
-                let ramp = ((x - w.onset) / 100.0).clamp(0.0, 1.0);
+                let ramp = w.ramp(x);
                 rel += ramp * self.wander_mon[m].next(&mut self.rng);
             }
             if let Some(d) = &p.drift {

@@ -25,9 +25,11 @@ const TARN_SAMPLES: [TarnSample; 2] = [
     TarnSample {
         case: "duct-bend-07",
         scenario: Scenario::Converging,
-        seed: 7,
-        iterations: 640,
-        why: "a short, clean run that meets its residual targets; clipping notices early on",
+        seed: 47,
+        iterations: 700,
+        why: "a short, clean run that meets its residual targets, with clipping notices early \
+              on; the seed is one whose monitors have settled over the final 500 iterations \
+              (default window), so the sample shows a converged run",
     },
     TarnSample {
         case: "mixer-22",
@@ -117,8 +119,10 @@ fn write_file(path: &Path, bytes: &[u8]) -> io::Result<()> {
 
 /// Facts of one tarn sample for the README.
 fn describe(run: &SynthRun, log: &[u8], csv: &[u8]) -> String {
-    let notices: usize = run.steps.iter().map(|s| s.notices.len()).sum();
-    let warnings: usize = run.steps.iter().map(|s| s.warnings.len()).sum();
+    // A crash's cut-short last record prints no notice or warning lines.
+    let printed = &run.steps[..run.complete_steps()];
+    let notices: usize = printed.iter().map(|s| s.notices.len()).sum();
+    let warnings: usize = printed.iter().map(|s| s.warnings.len()).sum();
     let end = match run.end {
         End::Finished if run.solver_converged => "targets-reached line, then the end-of-run line",
         End::Finished => "end-of-run line",

@@ -189,3 +189,64 @@ pub fn prefix_input<'a>(full: &'a RunInput<'_>, run: &SynthRun, steps: usize) ->
         ended_at: if whole { full.ended_at } else { None },
     }
 }
+
+/// Step counts of the growing prefixes on which to look for the first detection of the
+/// labelled behaviour: from the first step at or after the onset to the whole run, at least
+/// `min_stride` steps apart and at most about `max_prefixes` of them (the last is always the
+/// whole run). Empty when the run has no onset.
+pub fn delay_prefixes(run: &SynthRun, max_prefixes: usize, min_stride: usize) -> Vec<usize> {
+    let Some(onset) = run.onset else { return Vec::new() };
+    let n = run.steps.len();
+    let Some(k0) = run.steps.iter().position(|s| s.iteration >= onset) else {
+        return Vec::new();
+    };
+    let stride = min_stride.max(1).max((n - k0).div_ceil(max_prefixes.max(1)));
+    let mut out: Vec<usize> = (k0 + 1..n).step_by(stride).collect();
+    out.push(n);
+    out
+}
+
+/// Step counts of `count` live prefixes spread evenly from step `from` to the end (the
+/// whole run excluded: a live view never has the end-of-run line).
+pub fn live_prefixes(run: &SynthRun, count: usize, from: usize) -> Vec<usize> {
+    let n = run.steps.len();
+    if n <= from || count == 0 {
+        return Vec::new();
+    }
+    let stride = (n - from).div_ceil(count).max(1);
+    (from..n).step_by(stride).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::synth::{Options, Scenario, generate_with};
+
+    #[test]
+    fn delay_prefixes_are_bounded_and_start_at_the_onset() {
+        let run =
+            generate_with(Scenario::Stall, 2, &Options { iterations: Some(3000), case: None });
+        let onset = run.onset.expect("stalls have an onset");
+        let p = delay_prefixes(&run, 80, 25);
+        assert!(p.len() <= 81, "{}", p.len());
+        assert_eq!(*p.last().expect("non-empty"), run.steps.len());
+        assert!(run.steps[p[0] - 1].iteration >= onset);
+        assert!(p[0] == 1 || run.steps[p[0] - 2].iteration < onset);
+        assert!(
+            p.windows(2).all(|w| w[1] > w[0] && (w[1] - w[0] >= 25 || w[1] == run.steps.len()))
+        );
+        let healthy = generate_with(Scenario::Converging, 2, &Options::default());
+        assert!(delay_prefixes(&healthy, 80, 25).is_empty());
+    }
+
+    #[test]
+    fn live_prefixes_spread_over_the_run() {
+        let run =
+            generate_with(Scenario::Converging, 1, &Options { iterations: Some(1000), case: None });
+        let p = live_prefixes(&run, 20, 100);
+        assert_eq!(p[0], 100);
+        assert!(p.len() <= 20 && p.len() >= 19);
+        assert!(*p.last().expect("non-empty") < run.steps.len());
+        assert!(live_prefixes(&run, 20, 5000).is_empty());
+    }
+}

@@ -32,6 +32,9 @@ pub(super) struct Cycle {
     /// Monitor amplitude relative to the mean, and phase lag.
     pub mon_amp: [f64; 3],
     pub mon_lag: [f64; 3],
+    /// Share of the residual noise the cycle replaces once grown: in a limit cycle the
+    /// iteration-to-iteration variation is mostly the cycle itself.
+    pub noise_damp: f64,
 }
 
 impl Cycle {
@@ -51,7 +54,7 @@ impl Cycle {
         let mut eq_amp = [0.0; 6];
         let mut eq_lag = [0.0; 6];
         for e in 0..6 {
-            eq_amp[e] = r.range(0.4, 1.3);
+            eq_amp[e] = r.range(0.6, 1.3);
             eq_lag[e] = r.range(0.0, 1.2);
         }
         Cycle {
@@ -66,7 +69,8 @@ impl Cycle {
             ],
             mod_depth: 0.0,
             mod_period: 1.0,
-            res_amp: r.range(0.15, 0.8),
+            res_amp: r.range(0.2, 0.8),
+            noise_damp: 0.5,
             eq_amp,
             eq_lag,
             mon_amp: [r.log_range(5e-4, 1e-2), r.log_range(2e-3, 3e-2), r.log_range(3e-4, 5e-3)],
@@ -85,6 +89,14 @@ pub(super) struct Wander {
     pub trend: f64,
     pub mon_phi: f64,
     pub mon_sd: f64,
+}
+
+impl Wander {
+    /// Weight of the wander at index `x`: it fades in over the approach to the plateau, so
+    /// the noise does not change character abruptly at the onset.
+    pub fn ramp(&self, x: f64) -> f64 {
+        ((x - 0.3 * self.onset) / (0.7 * self.onset).max(1.0)).clamp(0.0, 1.0)
+    }
 }
 
 /// One equation stops being solved.
@@ -322,6 +334,7 @@ pub(super) fn build(scenario: Scenario, c: &mut Common, r: &mut Rng) -> Plan {
             cy.grow = r.range(50.0, 300.0) * sc;
             cy.jitter = r.range(0.002, 0.015);
             cy.res_amp = r.range(0.03, 0.2);
+            cy.noise_damp = 0.0;
             cy.mon_amp = [r.log_range(3e-3, 3e-2), r.log_range(2e-2, 0.2), r.log_range(2e-3, 2e-2)];
             cy.mod_depth = r.range(0.0, 0.3);
             cy.mod_period = period * r.range(5.0, 20.0);
