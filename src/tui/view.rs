@@ -399,12 +399,31 @@ fn items(live: &LiveRun, inp: &ViewInputs<'_>) -> Vec<Item> {
         rest.push(finding_item(f, Level::Info, ascii));
     }
     for src in &live.store.sources {
-        let start = src.events.len().saturating_sub(EVENTS_PER_SOURCE);
+        // One entry per event rule (its newest message, how often, since when), so a
+        // clipping notice printed every iteration does not push everything else away.
+        let start = src.events.len().saturating_sub(EVENTS_PER_SOURCE * 50);
+        let mut groups: Vec<(&str, usize, Option<i64>, &crate::record::Event)> = Vec::new();
         for ev in &src.events[start..] {
+            match groups.iter_mut().find(|g| g.0 == ev.rule) {
+                Some(g) => {
+                    g.1 += 1;
+                    g.3 = ev;
+                }
+                None => groups.push((&ev.rule, 1, ev.iteration, ev)),
+            }
+        }
+        for (rule, count, first, ev) in groups {
+            let text = if count > 1 {
+                let since = first.map(|f| format!(", first at it {f}")).unwrap_or_default();
+                let times = if ascii { "x" } else { "×" };
+                format!("{} ({times}{count}{since})", ev.message)
+            } else {
+                ev.message.clone()
+            };
             rest.push(Item {
                 iteration: ev.iteration,
-                tag: sanitized(&ev.rule, ascii),
-                text: sanitized(&ev.message, ascii),
+                tag: sanitized(rule, ascii),
+                text: sanitized(&text, ascii),
                 level: match ev.severity {
                     Severity::Error => Level::Error,
                     Severity::Warning => Level::Warning,
