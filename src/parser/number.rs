@@ -42,13 +42,13 @@ pub fn parse_number(b: &[u8]) -> Option<f64> {
     if !body[0].is_ascii_digit() && body[0] != b'.' {
         return special(body).map(|v| if negative { -v } else { v });
     }
-    if let Some(v) = windows_special(body) {
-        return Some(if negative { -v } else { v });
-    }
-
-    // Mantissa: digits [ '.' digits ] or '.' digits.
+    // Mantissa: digits [ '.' digits ] or '.' digits. Significant digits are gathered into
+    // `m` on the way for the fast path (`sig` counts them, leading zeros excluded).
+    let mut m: u64 = 0;
+    let mut sig = 0usize;
     let mut i = 0;
     while i < body.len() && body[i].is_ascii_digit() {
+        accumulate(&mut m, &mut sig, body[i]);
         i += 1;
     }
     let int_digits = i;
@@ -59,12 +59,16 @@ pub fn parse_number(b: &[u8]) -> Option<f64> {
         i += 1;
         let start = i;
         while i < body.len() && body[i].is_ascii_digit() {
+            accumulate(&mut m, &mut sig, body[i]);
             i += 1;
         }
         frac_digits = i - start;
     }
     if int_digits + frac_digits == 0 {
         return None;
+    }
+    if body.get(i) == Some(&b'#') {
+        return windows_special(body).map(|v| if negative { -v } else { v });
     }
     let mantissa_end = i;
 
@@ -95,8 +99,8 @@ pub fn parse_number(b: &[u8]) -> Option<f64> {
         exp_digits = &body[start..i];
     }
 
-    if let Some(v) =
-        fast_path(&body[..int_digits], &body[int_digits..mantissa_end], exp_sign, exp_digits)
+    if sig <= 15
+        && let Some(v) = fast_path(m, frac_digits, exp_sign, exp_digits)
     {
         return Some(if negative { -v } else { v });
     }
@@ -120,25 +124,28 @@ const POW10: [f64; 23] = [
     1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
 ];
 
-/// Clinger's fast path: with at most 15 significant digits the mantissa is an exact f64, and
-/// so is 10^k for k <= 22; one multiplication or division then rounds correctly, giving the
-/// same result as the standard parser (checked against it in the tests and the proptest).
-/// `frac` still holds its leading `.` when present. `None` means "use the slow path".
-fn fast_path(int: &[u8], frac: &[u8], exp_sign: u8, exp: &[u8]) -> Option<f64> {
-    let frac = frac.strip_prefix(b".").unwrap_or(frac);
-    let mut m: u64 = 0;
-    let mut sig = 0usize;
-    for &d in int.iter().chain(frac) {
-        if sig == 0 && d == b'0' {
-            continue;
-        }
-        sig += 1;
-        if sig > 15 {
-            return None;
-        }
-        m = m * 10 + u64::from(d - b'0');
+/// Add one mantissa digit to `m`, skipping leading zeros; `m` is only meaningful while
+/// `sig <= 15`.
+#[inline]
+fn accumulate(m: &mut u64, sig: &mut usize, digit: u8) {
+    if *sig == 0 && digit == b'0' {
+        return;
     }
-    if exp.len() > 4 {
+    *sig += 1;
+    if *sig <= 15 {
+        *m = *m * 10 + u64::from(digit - b'0');
+    }
+}
+
+/// Clinger's fast path: with at most 15 significant digits the mantissa `m` is an exact f64,
+/// and so is 10^k for k <= 22; one multiplication or division then rounds correctly, giving
+/// the same result as the standard parser (checked against it in the tests and the
+/// proptest). `None` means "use the slow path".
+fn fast_path(m: u64, frac_digits: usize, exp_sign: u8, exp: &[u8]) -> Option<f64> {
+    if m == 0 {
+        return Some(0.0);
+    }
+    if exp.len() > 4 || frac_digits > 400 {
         return None;
     }
     let mut e: i64 = 0;
@@ -148,11 +155,8 @@ fn fast_path(int: &[u8], frac: &[u8], exp_sign: u8, exp: &[u8]) -> Option<f64> {
     if exp_sign == b'-' {
         e = -e;
     }
-    let e = e - frac.len() as i64;
+    let e = e - frac_digits as i64;
     let v = m as f64;
-    if m == 0 {
-        return Some(0.0);
-    }
     match e {
         0..=22 => Some(v * POW10[e as usize]),
         -22..=-1 => Some(v / POW10[(-e) as usize]),
@@ -205,7 +209,7 @@ fn special(body: &[u8]) -> Option<f64> {
 
 /// Older Microsoft C runtimes: `1.#INF`, `1.#QNAN`, `1.#IND`, `1.#SNAN`.
 fn windows_special(body: &[u8]) -> Option<f64> {
-    let hash = memchr::memchr(b'#', body)?;
+    let hash = body.iter().position(|&c| c == b'#')?;
     let (digits, tag) = body.split_at(hash);
     if digits.is_empty() || !digits.iter().all(|c| c.is_ascii_digit() || *c == b'.') {
         return None;
