@@ -25,6 +25,7 @@ mod series;
 mod table;
 
 use std::path::{Path, PathBuf};
+use std::sync::OnceLock;
 
 pub use detect::{Candidate, Detection};
 pub use error::DefinitionError;
@@ -177,8 +178,14 @@ pub struct Registry {
 }
 
 impl Registry {
-    /// The shipped definitions only.
+    /// The shipped definitions only (compiled once per process, then cloned: compiled
+    /// regexes are shared, not rebuilt).
     pub fn builtin() -> Registry {
+        static BUILTIN_REGISTRY: OnceLock<Registry> = OnceLock::new();
+        BUILTIN_REGISTRY.get_or_init(Registry::compile_builtin).clone()
+    }
+
+    fn compile_builtin() -> Registry {
         let mut reg = Registry::default();
         for (file, text) in BUILTIN {
             let stem = file.trim_end_matches(".toml");

@@ -118,19 +118,15 @@ proptest! {
     }
 
     #[test]
-    fn parse_number_reads_what_rust_prints(v in any::<f64>()) {
-        // Round trip through the two common printed forms (reference: Rust's own formatter).
-        for text in [format!("{v:e}"), format!("{v:.6E}"), format!("{v}")] {
+    fn parse_number_agrees_with_the_standard_parser(v in any::<f64>(), digits in 0usize..18) {
+        // Reference: Rust's correctly rounded `str::parse::<f64>`, on the forms Rust prints
+        // (shortest round trip, fixed significant digits in both exponent cases, plain).
+        for text in [format!("{v:e}"), format!("{v:.digits$E}"), format!("{v:.digits$e}"), format!("{v}")] {
             let got = parse_number(text.as_bytes());
+            let want: f64 = text.parse().unwrap_or(f64::NAN);
             prop_assert!(got.is_some(), "{}", text);
             let got = got.unwrap_or_default();
-            if v.is_nan() {
-                prop_assert!(got.is_nan());
-            } else if text.contains('E') {
-                prop_assert!((got - v).abs() <= v.abs() * 1e-6 || got == v, "{} -> {}", text, got);
-            } else {
-                prop_assert_eq!(got, v, "{}", text);
-            }
+            prop_assert!(got == want || (got.is_nan() && want.is_nan()), "{} -> {} (std {})", text, got, want);
         }
     }
 

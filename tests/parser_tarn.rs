@@ -324,7 +324,10 @@ fn detection_prefers_tarn_for_tarn_logs() {
     assert_eq!(d.candidates[0].name, "tarn");
     assert_eq!(d.candidates[0].score, 17);
     assert!(d.candidates[0].reasons.iter().any(|r| r.contains("line 1")));
-    // Without the banner, step and equation lines still identify it.
+    // Without the banner, step and equation lines still identify it, and it still parses.
     let d = reg.detect(STEADY.as_bytes());
     assert_eq!(d.chosen.as_deref(), Some("tarn"), "{}", d.summary);
+    let p = run(tarn(), STEADY);
+    assert_eq!(p.records.len(), 2);
+    assert_eq!(p.value(1, "p"), 0.33);
 }

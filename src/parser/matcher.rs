@@ -99,11 +99,13 @@ impl Matcher {
     pub fn may_match(&self, line: &[u8], lead_ws: usize) -> bool {
         match &self.prefilter {
             Prefilter::None => true,
-            Prefilter::Prefix { lead, literal } => match lead {
-                Lead::None => line.starts_with(literal),
-                Lead::Any => line[lead_ws..].starts_with(literal),
-                Lead::Some => lead_ws > 0 && line[lead_ws..].starts_with(literal),
-            },
+            Prefilter::Prefix { lead, literal } => {
+                let at = if *lead == Lead::None { 0 } else { lead_ws };
+                // One byte compare first: most lines fail here, without a memcmp call.
+                line.get(at) == literal.first()
+                    && (*lead != Lead::Some || lead_ws > 0)
+                    && line[at..].starts_with(literal)
+            }
             Prefilter::Contains(f) => f.find(line).is_some(),
         }
     }

@@ -534,6 +534,25 @@ mod tests {
     }
 
     #[test]
+    fn a_bad_vector_component_keeps_the_others_in_place() {
+        // Regression (found by the proptest): a first component that does not parse must not
+        // shift the names of the later ones.
+        let (out, stats) = rows("table", "it U\n1 (x 2 3)\n2 (4 5 6)\n");
+        let names: Vec<String> = out
+            .iter()
+            .filter_map(|o| if let Output::Series(s) = o { Some(s.name.clone()) } else { None })
+            .collect();
+        assert_eq!(names, vec!["U_x", "U_y", "U_z"]);
+        let recs: Vec<&Record> = out
+            .iter()
+            .filter_map(|o| if let Output::Record(r) = o { Some(r) } else { None })
+            .collect();
+        assert_eq!(recs[0].values, vec![(1, 2.0), (2, 3.0)]);
+        assert_eq!(recs[1].values, vec![(0, 4.0), (1, 5.0), (2, 6.0)]);
+        assert_eq!(stats.skipped, 1);
+    }
+
+    #[test]
     fn component_names() {
         assert_eq!(component_name("U", 0, true), "U_x");
         assert_eq!(component_name("U", 2, true), "U_z");
