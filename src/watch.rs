@@ -141,8 +141,7 @@ impl ActionHooks {
 
 impl LiveHooks for ActionHooks {
     fn on_judged(&mut self, run: usize, data: &LiveRun) -> Vec<Finding> {
-        let final_data = data.store.ended() || data.stale;
-        self.observe(run, data.verdict(), &data.store, final_data)
+        self.observe(run, data.verdict(), &data.store, data_final(data))
     }
 }
 
@@ -185,17 +184,21 @@ pub fn worst(verdicts: impl IntoIterator<Item = Verdict>) -> Verdict {
     verdicts.into_iter().min_by_key(|&v| severity(v)).unwrap_or(Verdict::Converging)
 }
 
-/// A run needs no more watching: ended, crashed after diverging, or stale.
-fn is_done(run: &LiveRun, exit_when: ExitWhen) -> bool {
-    let v = run.verdict();
+/// No more records can be expected: the end-of-run mark, a stale log, or a crash message
+/// after divergence. Actions then fire without waiting for their `hold` records.
+fn data_final(run: &LiveRun) -> bool {
     let crashed =
         run.store.sources.iter().any(|s| s.events.iter().any(|e| e.severity == Severity::Error));
+    let v = run.verdict();
+    run.store.ended() || v == Verdict::Stale || (v == Verdict::Diverging && crashed)
+}
+
+/// A run needs no more watching under `exit_when`.
+fn is_done(run: &LiveRun, exit_when: ExitWhen) -> bool {
     match exit_when {
         ExitWhen::Never => false,
-        ExitWhen::Ended => {
-            run.store.ended() || v == Verdict::Stale || (v == Verdict::Diverging && crashed)
-        }
-        ExitWhen::Diverging => run.store.ended() || v == Verdict::Stale || v == Verdict::Diverging,
+        ExitWhen::Ended => data_final(run),
+        ExitWhen::Diverging => data_final(run) || run.verdict() == Verdict::Diverging,
     }
 }
 
@@ -286,8 +289,7 @@ pub fn run_headless(
             let grown = age(run, wall);
             run.stale = !run.store.ended() && grown.is_some_and(|a| a > opts.stale_limit);
             let j = shown(run);
-            let final_data = run.store.ended() || run.stale;
-            for f in hooks.observe(i, j.verdict, &run.store, final_data) {
+            for f in hooks.observe(i, j.verdict, &run.store, data_final(run)) {
                 print_finding(out, opts, &run.store.name, &f, wall)?;
             }
             if let Some(reason) = states[i].should_print(&j, now) {
