@@ -667,7 +667,7 @@ fn cmd_demo(a: DemoArgs, registry: Arc<Registry>) -> Result<u8> {
                 parser: Some("csv".into()),
             },
         ],
-        ..config::from_files(&[demo.log.clone()], None)
+        ..config::from_files(std::slice::from_ref(&demo.log), None)
     };
     let code = watch_specs(vec![spec], &a.live, registry);
     let _ = writer.stop();
