@@ -25,11 +25,11 @@ const TARN_SAMPLES: [TarnSample; 2] = [
     TarnSample {
         case: "duct-bend-07",
         scenario: Scenario::Converging,
-        seed: 47,
-        iterations: 700,
-        why: "a short, clean run that meets its residual targets, with clipping notices early \
-              on; the seed is one whose monitors have settled over the final 500 iterations \
-              (default window), so the sample shows a converged run",
+        seed: 7,
+        iterations: 1500,
+        why: "a clean run that meets its residual targets, with clipping notices early on, \
+              and runs long enough past them that its monitors have settled over the final \
+              500 iterations (the default window)",
     },
     TarnSample {
         case: "mixer-22",
@@ -271,7 +271,7 @@ mod tests {
             let a = fs::read(committed().join(rel)).expect("committed sample");
             let b = fs::read(tmp.path().join(rel)).expect("fresh sample");
             assert!(a == b, "{} differs from the generator's output", rel.display());
-            assert!(b.len() < 300_000, "{} is {} bytes", rel.display(), b.len());
+            assert!(b.len() < 700_000, "{} is {} bytes", rel.display(), b.len());
         }
     }
 
