@@ -230,3 +230,24 @@ fn check_rejects_a_bad_config_naming_file_and_key() {
         settle(&["check", "--drift", "-1", samples().join("plain/history.csv").to_str().unwrap()]);
     assert_ne!(o.status.code(), Some(0));
 }
+
+#[test]
+fn check_gives_the_labelled_verdicts_of_the_samples() {
+    // Labels as written by the generator (samples/README.md "expected verdict").
+    let s = samples();
+    for (path, verdict) in [
+        ("duct-bend-07", "converged"),
+        ("mixer-22", "diverging"),
+        ("plain/history.csv", "oscillating"),
+    ] {
+        let o = settle(&["check", "--json", s.join(path).to_str().unwrap()]);
+        let v: Value = serde_json::from_str(&stdout(&o)).unwrap();
+        assert_eq!(v["verdict"], verdict, "{path}: {}", stdout(&o));
+        let code = settle::judge::Verdict::parse(verdict).unwrap().exit_code();
+        assert_eq!(o.status.code(), Some(code), "{path}");
+    }
+    let o = settle(&["check", s.join("mixer-22").to_str().unwrap()]);
+    let text = stdout(&o);
+    assert!(text.starts_with("mixer-22: DIVERGING"), "verdict on the first line: {text}");
+    assert!(text.contains("criteria") && text.contains("[not met]"), "{text}");
+}
