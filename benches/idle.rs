@@ -33,8 +33,10 @@ fn measure(children: &[&Child], secs: u64) -> Vec<f64> {
 }
 
 fn main() {
-    let secs: u64 = std::env::var("SETTLE_IDLE_SECONDS").ok().and_then(|s| s.parse().ok()).unwrap_or(20);
-    let files: usize = std::env::var("SETTLE_IDLE_FILES").ok().and_then(|s| s.parse().ok()).unwrap_or(10);
+    let secs: u64 =
+        std::env::var("SETTLE_IDLE_SECONDS").ok().and_then(|s| s.parse().ok()).unwrap_or(20);
+    let files: usize =
+        std::env::var("SETTLE_IDLE_FILES").ok().and_then(|s| s.parse().ok()).unwrap_or(10);
     let dir = tempfile::tempdir().expect("tempdir");
     let mut paths = Vec::new();
     for i in 0..files {
