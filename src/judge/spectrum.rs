@@ -129,25 +129,28 @@ fn ar1_shape(phi: f64, omega: f64) -> f64 {
 /// `h_k = 1 − 2φ cos ω_k + φ²` and `σ̂² = mean(I_k h_k)`. Grid search then golden section on
 /// `φ ∈ [−0.95, 0.995]`.
 fn whittle_ar1(omega: &[f64], ord: &[f64], exclude: &[usize]) -> f64 {
+    let kept: Vec<(f64, f64)> = omega
+        .iter()
+        .zip(ord)
+        .enumerate()
+        .filter(|(i, _)| !exclude.contains(i))
+        .map(|(_, (w, v))| (w.cos(), *v))
+        .collect();
     let objective = |phi: f64| -> f64 {
-        let (mut s, mut lh, mut k) = (0.0, 0.0, 0usize);
-        for (i, (w, v)) in omega.iter().zip(ord).enumerate() {
-            if exclude.contains(&i) {
-                continue;
-            }
-            let h = 1.0 - 2.0 * phi * w.cos() + phi * phi;
+        let (mut s, mut lh) = (0.0, 0.0);
+        for &(c, v) in &kept {
+            let h = 1.0 - 2.0 * phi * c + phi * phi;
             s += v * h;
             lh += h.ln();
-            k += 1;
         }
-        if k == 0 || !(s > 0.0) {
+        if kept.is_empty() || !(s > 0.0) {
             return f64::INFINITY;
         }
-        let kf = k as f64;
+        let kf = kept.len() as f64;
         kf * (s / kf).ln() - lh
     };
     let (lo, hi) = (-0.95, 0.995);
-    let steps = 60;
+    let steps = 40;
     let step = (hi - lo) / steps as f64;
     let mut best = (0.0, objective(0.0));
     for i in 0..=steps {
@@ -160,7 +163,7 @@ fn whittle_ar1(omega: &[f64], ord: &[f64], exclude: &[usize]) -> f64 {
     if !best.1.is_finite() {
         return 0.0;
     }
-    golden_min(objective, (best.0 - step).max(lo), (best.0 + step).min(hi), 40)
+    golden_min(objective, (best.0 - step).max(lo), (best.0 + step).min(hi), 30)
 }
 
 /// Golden-section minimisation of `f` on `[a, b]`.
@@ -196,44 +199,49 @@ pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
     let nyquist = (f - 0.5).abs() < 1e-12;
     let cols = if nyquist { 3 } else { 4 };
     let w = 2.0 * std::f64::consts::PI * f;
-    let basis = |i: usize| -> [f64; 4] {
-        let t = i as f64;
-        [1.0, (t - tc) / n as f64, (w * t).cos(), (w * t).sin()]
+    // cos/sin by rotation instead of two trigonometric calls per sample; re-anchored every
+    // 256 samples so the rounding error cannot accumulate.
+    let (cw, sw) = (w.cos(), w.sin());
+    let each = |visit: &mut dyn FnMut([f64; 4], f64)| {
+        let (mut c, mut s) = (1.0f64, 0.0f64);
+        for (i, xi) in x.iter().enumerate() {
+            if i % 256 == 0 {
+                (s, c) = (w * i as f64).sin_cos();
+            }
+            visit([1.0, (i as f64 - tc) / n as f64, c, s], *xi);
+            (c, s) = (c * cw - s * sw, s * cw + c * sw);
+        }
     };
-    let mut a = vec![vec![0.0; cols]; cols];
-    let mut rhs = vec![0.0; cols];
-    for (i, xi) in x.iter().enumerate() {
-        let b = basis(i);
+    let mut a = [[0.0f64; 4]; 4];
+    let mut rhs = [0.0f64; 4];
+    each(&mut |b, xi| {
         for r in 0..cols {
             rhs[r] += b[r] * xi;
             for c in 0..cols {
                 a[r][c] += b[r] * b[c];
             }
         }
-    }
-    let coef = stats::solve_small(a, rhs)?;
-    let sse: f64 = x
-        .iter()
-        .enumerate()
-        .map(|(i, xi)| {
-            let b = basis(i);
-            let fit: f64 = (0..cols).map(|c| coef[c] * b[c]).sum();
-            (xi - fit).powi(2)
-        })
-        .sum();
+    });
+    let a: Vec<Vec<f64>> = a[..cols].iter().map(|r| r[..cols].to_vec()).collect();
+    let coef = stats::solve_small(a, rhs[..cols].to_vec())?;
+    let mut sse = 0.0;
+    each(&mut |b, xi| {
+        let fit: f64 = (0..cols).map(|c| coef[c] * b[c]).sum();
+        sse += (xi - fit) * (xi - fit);
+    });
     let amp = if nyquist { coef[2].abs() } else { coef[2].hypot(coef[3]) };
     Some((sse, amp))
 }
 
 /// Refine the frequency of a peak found at Fourier index `k` of a length-`n` series: the
 /// frequency in `[(k−1)/n, (k+1)/n] ∩ (0, 0.5]` with the smallest [`sine_fit`] residual, by a
-/// 16-point grid then golden section. Exact for a sinusoid plus a line.
+/// 10-step grid then golden section. Exact for a sinusoid plus a line.
 fn refine_frequency(x: &[f64], k: usize) -> f64 {
     let n = x.len() as f64;
     let lo = ((k as f64 - 1.0) / n).max(0.5 / n);
     let hi = ((k as f64 + 1.0) / n).min(0.5);
     let sse = |f: f64| sine_fit(x, f).map_or(f64::INFINITY, |(s, _)| s);
-    let grid = 16;
+    let grid = 10;
     let step = (hi - lo) / grid as f64;
     let mut best = (k as f64 / n, sse(k as f64 / n));
     for i in 0..=grid {
@@ -243,7 +251,7 @@ fn refine_frequency(x: &[f64], k: usize) -> f64 {
             best = (f, v);
         }
     }
-    let f = golden_min(sse, (best.0 - step).max(lo), (best.0 + step).min(hi), 50);
+    let f = golden_min(sse, (best.0 - step).max(lo), (best.0 + step).min(hi), 36);
     // Golden section never evaluates the interval ends; keep an end point if it is better
     // (the Nyquist frequency for a period-2 oscillation).
     let cand = [f, best.0, hi];
