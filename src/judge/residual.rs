@@ -8,7 +8,7 @@
 
 use super::criteria::{self, Resolved};
 use super::limits::*;
-use super::series::{self, View, startup_len};
+use super::series::{self, View};
 use super::spectrum;
 use super::stats;
 use super::text::{dec, its, num};
@@ -226,7 +226,7 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
 /// divergence finding was pushed.
 fn divergence(name: &str, v: &View<'_>, win: &series::Window, sink: &mut Sink) -> bool {
     let last_it = v.last_it();
-    let startup_end = v.seg_first_it() + startup_len(last_it - v.seg_first_it());
+    let startup_end = series::startup_end(v.seg_first_it());
     let mut found = false;
 
     // 1. Significantly rising after the start-up, by a material amount.

@@ -4,9 +4,9 @@
 //! Fisher (1929) tests the largest periodogram ordinate against white noise. Solver histories
 //! carry red (positively autocorrelated) noise, whose low-frequency ordinates are large
 //! without any oscillation; following METHODS §3 we compare each ordinate with an AR(1)
-//! spectrum fitted to the window (Whittle likelihood, with the candidate peak left out of the
-//! fit so a genuine oscillation cannot inflate its own background), and test the whitened
-//! ordinates. The lowest Fourier frequency (one cycle per window) is left out: linear
+//! spectrum fitted to the window (Whittle likelihood on the periodogram of the window with its
+//! strongest sinusoid removed, so a genuine oscillation cannot inflate its own background),
+//! and test the whitened ordinates. The lowest Fourier frequency (one cycle per window) is left out: linear
 //! detrending distorts it and a partial trend looks like it. Periods from 2 iterations (the
 //! caller passes an odd-length window so period 2 is not the dropped Nyquist ordinate) up to
 //! half the window are covered.
@@ -190,31 +190,31 @@ fn golden_min(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64, iters: usize) -> f
     0.5 * (a + b)
 }
 
-/// Least-squares fit of `a + b·t + c·cos(2πft) + d·sin(2πft)` to `x` (the sine column is
-/// dropped at the Nyquist frequency). Returns the residual sum of squares and the
-/// semi-amplitude `sqrt(c² + d²)`.
-pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
+/// Visit the regression basis `[1, (t − t̄)/n, cos 2πft, sin 2πft]` of every sample with the
+/// sample. cos/sin come from a rotation instead of two trigonometric calls per sample,
+/// re-anchored every 256 samples so rounding cannot accumulate.
+fn each_basis(x: &[f64], f: f64, mut visit: impl FnMut([f64; 4], f64)) {
     let n = x.len();
     let tc = (n as f64 - 1.0) / 2.0;
-    let nyquist = (f - 0.5).abs() < 1e-12;
-    let cols = if nyquist { 3 } else { 4 };
     let w = 2.0 * std::f64::consts::PI * f;
-    // cos/sin by rotation instead of two trigonometric calls per sample; re-anchored every
-    // 256 samples so the rounding error cannot accumulate.
     let (cw, sw) = (w.cos(), w.sin());
-    let each = |visit: &mut dyn FnMut([f64; 4], f64)| {
-        let (mut c, mut s) = (1.0f64, 0.0f64);
-        for (i, xi) in x.iter().enumerate() {
-            if i % 256 == 0 {
-                (s, c) = (w * i as f64).sin_cos();
-            }
-            visit([1.0, (i as f64 - tc) / n as f64, c, s], *xi);
-            (c, s) = (c * cw - s * sw, s * cw + c * sw);
+    let (mut c, mut s) = (1.0f64, 0.0f64);
+    for (i, xi) in x.iter().enumerate() {
+        if i % 256 == 0 {
+            (s, c) = (w * i as f64).sin_cos();
         }
-    };
+        visit([1.0, (i as f64 - tc) / n as f64, c, s], *xi);
+        (c, s) = (c * cw - s * sw, s * cw + c * sw);
+    }
+}
+
+/// Coefficients of the least-squares fit of `a + b·t + c·cos(2πft) + d·sin(2πft)` (the sine
+/// column is dropped at the Nyquist frequency, where it vanishes).
+fn sine_coefficients(x: &[f64], f: f64) -> Option<Vec<f64>> {
+    let cols = if (f - 0.5).abs() < 1e-12 { 3 } else { 4 };
     let mut a = [[0.0f64; 4]; 4];
     let mut rhs = [0.0f64; 4];
-    each(&mut |b, xi| {
+    each_basis(x, f, |b, xi| {
         for r in 0..cols {
             rhs[r] += b[r] * xi;
             for c in 0..cols {
@@ -223,13 +223,29 @@ pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
         }
     });
     let a: Vec<Vec<f64>> = a[..cols].iter().map(|r| r[..cols].to_vec()).collect();
-    let coef = stats::solve_small(a, rhs[..cols].to_vec())?;
+    stats::solve_small(a, rhs[..cols].to_vec())
+}
+
+/// Residuals of `x` about its least-squares line-plus-sinusoid at frequency `f`.
+fn sine_remainder(x: &[f64], coef: &[f64], f: f64) -> Vec<f64> {
+    let mut out = Vec::with_capacity(x.len());
+    each_basis(x, f, |b, xi| {
+        let fit: f64 = coef.iter().zip(b).map(|(c, v)| c * v).sum();
+        out.push(xi - fit);
+    });
+    out
+}
+
+/// Least-squares fit of `a + b·t + c·cos(2πft) + d·sin(2πft)` to `x`: the residual sum of
+/// squares and the semi-amplitude `sqrt(c² + d²)` (`|c|` at the Nyquist frequency).
+pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
+    let coef = sine_coefficients(x, f)?;
     let mut sse = 0.0;
-    each(&mut |b, xi| {
-        let fit: f64 = (0..cols).map(|c| coef[c] * b[c]).sum();
+    each_basis(x, f, |b, xi| {
+        let fit: f64 = coef.iter().zip(b).map(|(c, v)| c * v).sum();
         sse += (xi - fit) * (xi - fit);
     });
-    let amp = if nyquist { coef[2].abs() } else { coef[2].hypot(coef[3]) };
+    let amp = if coef.len() == 3 { coef[2].abs() } else { coef[2].hypot(coef[3]) };
     Some((sse, amp))
 }
 
@@ -283,25 +299,22 @@ pub fn find_oscillation(x: &[f64]) -> Option<Oscillation> {
     let whiten = |phi: f64| -> Vec<f64> {
         ord.iter().zip(&omega).map(|(v, w)| v / ar1_shape(phi, *w)).collect()
     };
-    // Pass 1: background from all ordinates; pass 2: refit without the candidate and three
-    // neighbours on each side (its main lobe and strongest side lobes); a third pass only if
-    // the candidate moved.
-    let mut phi = whittle_ar1(&omega, &ord, &[]);
-    let (mut idx, _) = fisher_g(&whiten(phi))?;
-    for _ in 0..2 {
-        let excl: Vec<usize> = (idx.saturating_sub(3)..=idx + 3).collect();
-        phi = whittle_ar1(&omega, &ord, &excl);
-        let (new_idx, _) = fisher_g(&whiten(phi))?;
-        if new_idx == idx {
-            break;
-        }
-        idx = new_idx;
-    }
+    // Background: fitted to the periodogram of the window with its strongest sinusoid (the
+    // largest raw ordinate, refined) removed, so that neither the peak nor its spectral
+    // leakage — which for a strong oscillation towers over the noise for tens of bins — can
+    // inflate its own background. The neighbours of the removed peak are left out as well.
+    let raw = ord.iter().enumerate().max_by(|a, b| a.1.total_cmp(b.1)).map(|(i, _)| i)?;
+    let f_raw = refine_frequency(x, ks[raw]);
+    let coef = sine_coefficients(x, f_raw)?;
+    let rest = periodogram(&sine_remainder(x, &coef, f_raw));
+    let ord_rest: Vec<f64> = ks.iter().map(|&k| rest[k]).collect();
+    let excl: Vec<usize> = (raw.saturating_sub(1)..=raw + 1).collect();
+    let phi = whittle_ar1(&omega, &ord_rest, &excl);
     let w = whiten(phi);
     let (idx, g) = fisher_g(&w)?;
     let p = fisher_p_value(g, w.len());
     let k = ks[idx];
-    let f = refine_frequency(x, k);
+    let f = if idx == raw { f_raw } else { refine_frequency(x, k) };
     let (_, amplitude) = sine_fit(x, f)?;
     Some(Oscillation { k, g, p_value: p, m: w.len(), period: 1.0 / f, amplitude, phi })
 }
