@@ -282,7 +282,7 @@ fn detector_keeps_its_level_on_white_and_red_noise() {
         let mut hits = 0;
         for _ in 0..reps {
             let x = rng.ar1(257, phi);
-            if spectrum::find_oscillation(&x).is_some_and(|o| o.p_value < 0.01) {
+            if spectrum::find_oscillation(&x).is_some_and(|o| o.significant(0.01)) {
                 hits += 1;
             }
         }

@@ -218,7 +218,7 @@ fn oscillation(
     let Some(o) = spectrum::find_oscillation(vals) else {
         return;
     };
-    if !(o.p_value < OSC_ALPHA) {
+    if !o.significant(OSC_ALPHA) {
         return;
     }
     let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;

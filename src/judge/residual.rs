@@ -298,7 +298,7 @@ fn oscillation(name: &str, win: &series::Window, decisive: bool, sink: &mut Sink
     let Some(o) = spectrum::find_oscillation(vals) else {
         return;
     };
-    if !(o.p_value < OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
+    if !o.significant(OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
         return;
     }
     let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;

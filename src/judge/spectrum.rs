@@ -2,14 +2,22 @@
 //! period and amplitude of the dominant component.
 //!
 //! Fisher (1929) tests the largest periodogram ordinate against white noise. Solver histories
-//! carry red (positively autocorrelated) noise, whose low-frequency ordinates are large
-//! without any oscillation; following METHODS §3 we compare each ordinate with an AR(1)
-//! spectrum fitted to the window (Whittle likelihood on the periodogram of the window with its
-//! strongest sinusoid removed, so a genuine oscillation cannot inflate its own background),
-//! and test the whitened ordinates. The lowest Fourier frequency (one cycle per window) is left out: linear
-//! detrending distorts it and a partial trend looks like it. Periods from 2 iterations (the
-//! caller passes an odd-length window so period 2 is not the dropped Nyquist ordinate) up to
-//! half the window are covered.
+//! break that null in two ways, and the detector guards against both (METHODS §3 caveats):
+//!
+//! * **Trends.** A settling monitor or a converging log-residual is a smooth curve; its
+//!   leakage puts a steep `1/k²` background into the lowest frequencies. The window is
+//!   detrended by a quadratic, and candidates need at least [`MIN_CYCLES`] cycles per window.
+//! * **Red noise.** Positively autocorrelated noise has large low-frequency ordinates. Each
+//!   ordinate is divided by an AR(1) spectrum (METHODS §3 suggestion) fitted by Whittle
+//!   likelihood to the periodogram of the window *with its strongest sinusoid removed*, so
+//!   neither a genuine peak nor its spectral leakage (which towers over the noise for tens of
+//!   bins) inflates its own background; Fisher's g is computed on these whitened ordinates.
+//!
+//! A limit cycle is sustained, so the amplitude of the fitted sinusoid is also compared
+//! between the two halves of the window ([`Oscillation::steady`]); random red-noise peaks
+//! and trend remnants rarely have the same amplitude in both halves. Periods from 2
+//! iterations (callers pass an odd-length window so that period 2 is not the dropped Nyquist
+//! ordinate) up to a quarter of the window are covered.
 
 use rustfft::FftPlanner;
 use rustfft::num_complex::Complex;
@@ -89,6 +97,11 @@ pub fn fisher_p_value(g: f64, m: usize) -> f64 {
     p.clamp(0.0, 1.0)
 }
 
+/// Fewest cycles per window a candidate period must show (so that each half of the window
+/// holds two cycles for the steadiness check, and trend leakage at the lowest frequencies is
+/// never a candidate; our choice).
+pub const MIN_CYCLES: usize = 5;
+
 /// A dominant periodic component found in a window.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Oscillation {
@@ -98,13 +111,32 @@ pub struct Oscillation {
     pub g: f64,
     /// Exact p-value of `g` with `m` ordinates.
     pub p_value: f64,
+    /// Number of ordinates tested (`k = MIN_CYCLES..=⌊(n−1)/2⌋`).
     pub m: usize,
     /// Refined period in samples.
     pub period: f64,
     /// Semi-amplitude of the least-squares sinusoid at the refined frequency (units of `x`).
     pub amplitude: f64,
+    /// Smaller over larger semi-amplitude of the same sinusoid fitted to each half window.
+    pub half_ratio: f64,
     /// AR(1) coefficient of the fitted background spectrum.
     pub phi: f64,
+}
+
+impl Oscillation {
+    /// Smallest [`Oscillation::half_ratio`] of a sustained oscillation (ours: an amplitude
+    /// changing threefold within the window is not a steady limit cycle).
+    pub const MIN_HALF_RATIO: f64 = 1.0 / 3.0;
+
+    /// Same amplitude (within a factor 3) in both halves of the window.
+    pub fn steady(&self) -> bool {
+        self.half_ratio >= Self::MIN_HALF_RATIO
+    }
+
+    /// Significant at level `alpha` and steady.
+    pub fn significant(&self, alpha: f64) -> bool {
+        self.p_value < alpha && self.steady()
+    }
 }
 
 /// Linear detrend: residuals of the least-squares line against the sample index.
@@ -190,10 +222,10 @@ fn golden_min(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64, iters: usize) -> f
     0.5 * (a + b)
 }
 
-/// Visit the regression basis `[1, (t − t̄)/n, cos 2πft, sin 2πft]` of every sample with the
-/// sample. cos/sin come from a rotation instead of two trigonometric calls per sample,
-/// re-anchored every 256 samples so rounding cannot accumulate.
-fn each_basis(x: &[f64], f: f64, mut visit: impl FnMut([f64; 4], f64)) {
+/// Visit the regression basis `[1, τ, τ², cos 2πft, sin 2πft]` (`τ = (t − t̄)/n`) of every
+/// sample with the sample. cos/sin come from a rotation instead of two trigonometric calls
+/// per sample, re-anchored every 256 samples so rounding cannot accumulate.
+fn each_basis(x: &[f64], f: f64, mut visit: impl FnMut([f64; 5], f64)) {
     let n = x.len();
     let tc = (n as f64 - 1.0) / 2.0;
     let w = 2.0 * std::f64::consts::PI * f;
@@ -203,17 +235,18 @@ fn each_basis(x: &[f64], f: f64, mut visit: impl FnMut([f64; 4], f64)) {
         if i % 256 == 0 {
             (s, c) = (w * i as f64).sin_cos();
         }
-        visit([1.0, (i as f64 - tc) / n as f64, c, s], *xi);
+        let tau = (i as f64 - tc) / n as f64;
+        visit([1.0, tau, tau * tau, c, s], *xi);
         (c, s) = (c * cw - s * sw, s * cw + c * sw);
     }
 }
 
-/// Coefficients of the least-squares fit of `a + b·t + c·cos(2πft) + d·sin(2πft)` (the sine
-/// column is dropped at the Nyquist frequency, where it vanishes).
+/// Coefficients of the least-squares fit of a quadratic plus `c·cos(2πft) + d·sin(2πft)` (the
+/// sine column is dropped at the Nyquist frequency, where it vanishes).
 fn sine_coefficients(x: &[f64], f: f64) -> Option<Vec<f64>> {
-    let cols = if (f - 0.5).abs() < 1e-12 { 3 } else { 4 };
-    let mut a = [[0.0f64; 4]; 4];
-    let mut rhs = [0.0f64; 4];
+    let cols = if (f - 0.5).abs() < 1e-12 { 4 } else { 5 };
+    let mut a = [[0.0f64; 5]; 5];
+    let mut rhs = [0.0f64; 5];
     each_basis(x, f, |b, xi| {
         for r in 0..cols {
             rhs[r] += b[r] * xi;
@@ -226,7 +259,11 @@ fn sine_coefficients(x: &[f64], f: f64) -> Option<Vec<f64>> {
     stats::solve_small(a, rhs[..cols].to_vec())
 }
 
-/// Residuals of `x` about its least-squares line-plus-sinusoid at frequency `f`.
+fn semi_amplitude(coef: &[f64]) -> f64 {
+    if coef.len() == 4 { coef[3].abs() } else { coef[3].hypot(coef[4]) }
+}
+
+/// Residuals of `x` about its least-squares quadratic-plus-sinusoid at frequency `f`.
 fn sine_remainder(x: &[f64], coef: &[f64], f: f64) -> Vec<f64> {
     let mut out = Vec::with_capacity(x.len());
     each_basis(x, f, |b, xi| {
@@ -236,8 +273,8 @@ fn sine_remainder(x: &[f64], coef: &[f64], f: f64) -> Vec<f64> {
     out
 }
 
-/// Least-squares fit of `a + b·t + c·cos(2πft) + d·sin(2πft)` to `x`: the residual sum of
-/// squares and the semi-amplitude `sqrt(c² + d²)` (`|c|` at the Nyquist frequency).
+/// Least-squares fit of a quadratic plus `c·cos(2πft) + d·sin(2πft)` to `x`: the residual sum
+/// of squares and the semi-amplitude `sqrt(c² + d²)` (`|c|` at the Nyquist frequency).
 pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
     let coef = sine_coefficients(x, f)?;
     let mut sse = 0.0;
@@ -245,8 +282,7 @@ pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
         let fit: f64 = coef.iter().zip(b).map(|(c, v)| c * v).sum();
         sse += (xi - fit) * (xi - fit);
     });
-    let amp = if coef.len() == 3 { coef[2].abs() } else { coef[2].hypot(coef[3]) };
-    Some((sse, amp))
+    Some((sse, semi_amplitude(&coef)))
 }
 
 /// Refine the frequency of a peak found at Fourier index `k` of a length-`n` series: the
@@ -254,7 +290,7 @@ pub fn sine_fit(x: &[f64], f: f64) -> Option<(f64, f64)> {
 /// 10-step grid then golden section. Exact for a sinusoid plus a line.
 fn refine_frequency(x: &[f64], k: usize) -> f64 {
     let n = x.len() as f64;
-    let lo = ((k as f64 - 1.0) / n).max(0.5 / n);
+    let lo = ((k as f64 - 1.0) / n).max((MIN_CYCLES as f64 - 0.5) / n);
     let hi = ((k as f64 + 1.0) / n).min(0.5);
     let sse = |f: f64| sine_fit(x, f).map_or(f64::INFINITY, |(s, _)| s);
     let grid = 10;
@@ -271,38 +307,42 @@ fn refine_frequency(x: &[f64], k: usize) -> f64 {
     // Golden section never evaluates the interval ends; keep an end point if it is better
     // (the Nyquist frequency for a period-2 oscillation).
     let cand = [f, best.0, hi];
-    cand.into_iter().min_by(|a, b| sse(*a).total_cmp(&sse(*b))).unwrap_or(f)
+    let f = cand.into_iter().min_by(|a, b| sse(*a).total_cmp(&sse(*b))).unwrap_or(f);
+    // Within a quarter bin of Nyquist the sine column all but vanishes and the fit becomes
+    // ill-conditioned; the window cannot tell those frequencies apart, so call it period 2.
+    if (0.5 - f) * n < 0.25 { 0.5 } else { f }
+}
+
+/// Quadratic detrend: residuals of the least-squares quadratic in the sample index.
+pub fn detrend_quadratic(x: &[f64]) -> Vec<f64> {
+    stats::quadratic_residuals(x)
 }
 
 /// Search a window for a dominant periodic component.
 ///
-/// Linear detrend, periodogram, AR(1) background by Whittle (peak left out), Fisher's g on
-/// the whitened ordinates `k = 2..=m`, then period and amplitude from a least-squares
-/// sinusoid at the refined frequency. Returns the strongest candidate whatever its p-value
-/// (callers compare with their α). `None` for fewer than 16 values or a constant window.
+/// Quadratic detrend, periodogram, AR(1) background by Whittle from the window with its
+/// strongest sinusoid removed, Fisher's g on the whitened ordinates `k = MIN_CYCLES..=m`,
+/// then period and amplitude from a least-squares sinusoid at the refined frequency and the
+/// half-window amplitude ratio. Returns the strongest candidate whatever its p-value (callers
+/// use [`Oscillation::significant`]). `None` for fewer than 16 values or a constant window.
 pub fn find_oscillation(x: &[f64]) -> Option<Oscillation> {
     let n = x.len();
     if n < 16 || x.iter().any(|v| !v.is_finite()) {
         return None;
     }
-    let d = detrend(x);
+    let d = detrend_quadratic(x);
     let ord_all = periodogram(&d);
     let m = fisher_m(n);
-    // Candidate ordinates k = 2..=m.
-    let ks: Vec<usize> = (2..=m).collect();
+    let ks: Vec<usize> = (MIN_CYCLES..=m).collect();
+    if ks.len() < 4 {
+        return None;
+    }
     let omega: Vec<f64> =
         ks.iter().map(|&k| 2.0 * std::f64::consts::PI * k as f64 / n as f64).collect();
     let ord: Vec<f64> = ks.iter().map(|&k| ord_all[k]).collect();
     if !(ord.iter().sum::<f64>() > 0.0) {
         return None;
     }
-    let whiten = |phi: f64| -> Vec<f64> {
-        ord.iter().zip(&omega).map(|(v, w)| v / ar1_shape(phi, *w)).collect()
-    };
-    // Background: fitted to the periodogram of the window with its strongest sinusoid (the
-    // largest raw ordinate, refined) removed, so that neither the peak nor its spectral
-    // leakage — which for a strong oscillation towers over the noise for tens of bins — can
-    // inflate its own background. The neighbours of the removed peak are left out as well.
     let raw = ord.iter().enumerate().max_by(|a, b| a.1.total_cmp(b.1)).map(|(i, _)| i)?;
     let f_raw = refine_frequency(x, ks[raw]);
     let coef = sine_coefficients(x, f_raw)?;
@@ -310,13 +350,17 @@ pub fn find_oscillation(x: &[f64]) -> Option<Oscillation> {
     let ord_rest: Vec<f64> = ks.iter().map(|&k| rest[k]).collect();
     let excl: Vec<usize> = (raw.saturating_sub(1)..=raw + 1).collect();
     let phi = whittle_ar1(&omega, &ord_rest, &excl);
-    let w = whiten(phi);
+    let w: Vec<f64> = ord.iter().zip(&omega).map(|(v, w)| v / ar1_shape(phi, *w)).collect();
     let (idx, g) = fisher_g(&w)?;
     let p = fisher_p_value(g, w.len());
     let k = ks[idx];
     let f = if idx == raw { f_raw } else { refine_frequency(x, k) };
-    let (_, amplitude) = sine_fit(x, f)?;
-    Some(Oscillation { k, g, p_value: p, m: w.len(), period: 1.0 / f, amplitude, phi })
+    let amplitude = semi_amplitude(&sine_coefficients(x, f)?);
+    let half = n / 2;
+    let a1 = sine_coefficients(&x[..half], f).map_or(0.0, |c| semi_amplitude(&c));
+    let a2 = sine_coefficients(&x[half..], f).map_or(0.0, |c| semi_amplitude(&c));
+    let half_ratio = if a1.max(a2) > 0.0 { a1.min(a2) / a1.max(a2) } else { 0.0 };
+    Some(Oscillation { k, g, p_value: p, m: w.len(), period: 1.0 / f, amplitude, half_ratio, phi })
 }
 
 #[cfg(test)]
@@ -342,9 +386,9 @@ mod tests {
     fn constant_and_short_windows_have_no_oscillation() {
         assert!(find_oscillation(&[1.0; 100]).is_none());
         assert!(find_oscillation(&[1.0, 2.0, 1.0]).is_none());
-        // A pure line detrends to zero.
-        let line: Vec<f64> = (0..101).map(|i| 3.0 + 0.5 * i as f64).collect();
-        assert!(find_oscillation(&line).is_none_or(|o| o.p_value > 0.01));
+        // A pure quadratic detrends to zero.
+        let q: Vec<f64> = (0..101).map(|i| 3.0 + 0.5 * i as f64 - 0.01 * (i * i) as f64).collect();
+        assert!(find_oscillation(&q).is_none_or(|o| !o.significant(0.01)));
     }
 
     #[test]
@@ -361,7 +405,7 @@ mod tests {
             // At period 2 only the cosine part is observable: 0.5·cos(0.3).
             let amp = if period == 2.0 { 0.5 * 0.3f64.cos() } else { 0.5 };
             assert!((o.amplitude - amp).abs() < 1e-6, "{period}: {o:?}");
-            assert!(o.p_value < 1e-6, "{period}: {o:?}");
+            assert!(o.p_value < 1e-6 && o.steady(), "{period}: {o:?}");
         }
     }
 }
