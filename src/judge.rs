@@ -109,7 +109,12 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
                 crash_signs.extend(facts.crash_sign);
             }
             Role::Indicator => {
-                crash_signs.extend(monitor::analyse_indicator(name, &view, window, &mut sink));
+                crash_signs.extend(monitor::analyse_indicator(
+                    name,
+                    &view,
+                    rc.evidence(),
+                    &mut sink,
+                ));
             }
             Role::Info => {}
         }

@@ -45,6 +45,14 @@ pub struct Resolved {
     pub ci: Option<Limit>,
 }
 
+impl Resolved {
+    /// Window of the stall, divergence, oscillation and blow-up tests: the criteria window,
+    /// at least [`super::limits::MIN_EVIDENCE_WINDOW`].
+    pub fn evidence(&self) -> usize {
+        self.window.max(super::limits::MIN_EVIDENCE_WINDOW)
+    }
+}
+
 /// The window length in effect (at least 10 iterations).
 pub fn window(criteria: &Criteria) -> usize {
     criteria.window.unwrap_or(Criteria::DEFAULT_WINDOW).max(10)

@@ -7,7 +7,7 @@
 //! what lets monitors and indicators make a run `diverging`.
 
 use super::limits::*;
-use super::series::{View, startup_len};
+use super::series::{self, View};
 use super::stats;
 use super::text::{dec, num};
 use super::trend;
@@ -25,7 +25,7 @@ pub fn non_finite(name: &str, v: &View<'_>, sink: &mut Sink) {
     let n = v.len();
     let last_it = v.last_it();
     let in_seg: Vec<usize> = (v.seg..n).filter(|&i| !v.vals[i].is_finite()).collect();
-    let startup_end = v.seg_first_it() + startup_len(last_it - v.seg_first_it());
+    let startup_end = series::startup_end(v.seg_first_it());
     let (idx, supports, detail_tail) = match (in_seg.first(), in_seg.last()) {
         (Some(&f), Some(&l)) => {
             let decisive = l == n - 1 || v.its[l] >= startup_end;
@@ -86,7 +86,7 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
     let n = v.len();
     let last_it = v.last_it();
     let seg_first = v.seg_first_it();
-    let startup_end = seg_first + startup_len(last_it - seg_first);
+    let startup_end = series::startup_end(seg_first);
     // Reference range: after the start-up, ending before the most recent part (half a window,
     // or half of what there is), at most four windows long.
     let recent = ((window / 2) as i64).min((last_it - startup_end) / 2).max(1);

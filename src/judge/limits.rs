@@ -5,6 +5,12 @@
 //! choice, made by reasoning about real solver histories (DESIGN §7), not tuned to test
 //! series; each says so.
 
+/// Fewest iterations the stall, divergence, oscillation and blow-up tests look at, whatever
+/// the criteria window: pseudo-plateaus last a hundred iterations and more, and limit cycles
+/// of tens of iterations need several cycles (DESIGN §7). The criteria themselves (drift, band,
+/// CI) always use the configured window (our choice).
+pub const MIN_EVIDENCE_WINDOW: usize = 500;
+
 /// Significance level of the oscillation test per series. 1 % rather than 5 % because a run
 /// has several series and a false "oscillating" costs the user a look (our choice).
 pub const OSC_ALPHA: f64 = 0.01;
@@ -24,6 +30,11 @@ pub const OSC_MIN_POINTS: usize = 32;
 /// at least this many decades (statistical significance alone flags harmless slow creeps on a
 /// solver floor; our choice).
 pub const DIVERGE_MIN_RISE_DEC: f64 = 1.0;
+
+/// A residual rising significantly by at least this many decades over the last fifth of the
+/// window (at least 50 iterations) is blowing up (ours: a hundredfold in a few tens of
+/// iterations is not noise on any solver floor).
+pub const DIVERGE_FAST_RISE_DEC: f64 = 2.0;
 
 /// Divergence when a residual stands this many decades above its running minimum after the
 /// start-up (METHODS §6: "residual > 10²–10³ × its running minimum"; we take the upper end).
@@ -65,7 +76,7 @@ pub const ROUNDOFF_DROP_DEC: f64 = 12.0;
 
 /// Around a crash: a series whose last values jumped by at least this factor (or fell below
 /// its inverse cubed) against the window before them counts as a sign of blow-up (ours).
-pub const CRASH_JUMP: f64 = 3.0;
+pub const CRASH_JUMP: f64 = 2.0;
 
 /// Warnings of one rule in at least this share of the window's iterations are frequent.
 pub const FREQUENT_WARNING_SHARE: f64 = 0.5;

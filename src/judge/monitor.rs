@@ -64,8 +64,8 @@ fn window_stats(win: &Window, w: usize, with_ci: bool) -> Option<Stats> {
 /// Judge one monitor; pushes criteria, findings and the summary into `sink`.
 pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> MonitorFacts {
     health::non_finite(name, v, sink);
-    health::blowup(name, v, rc.window, false, sink);
-    let crash_sign = health::end_jump(name, v, rc.window);
+    health::blowup(name, v, rc.evidence(), false, sink);
+    let crash_sign = health::end_jump(name, v, rc.evidence());
     let w = rc.window;
     let last_it = v.last_it();
     let win = v.window(w);
@@ -119,9 +119,12 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Moni
         summary.band_pct = s.band;
         summary.transient_end = (s.transient > 0).then(|| win.its[s.transient.min(win.len() - 1)]);
         drift_findings(name, &win, s, rc, &facts.failing, sink);
-        let post =
-            Window { its: win.its[s.transient..].to_vec(), vals: win.vals[s.transient..].to_vec() };
-        let post = if post.len() >= 64 { post } else { win.clone() };
+        // The oscillation test looks at the evidence window (at least 500 iterations) after
+        // the start-up transient MSER-5 finds in it.
+        let long = v.window(rc.evidence());
+        let cut = stationarity::mser5(&long.vals).unwrap_or(0);
+        let post = Window { its: long.its[cut..].to_vec(), vals: long.vals[cut..].to_vec() };
+        let post = if post.len() >= 64 { post } else { long };
         let band_breaks = facts.failing.iter().any(|c| *c == "drift" || *c == "band");
         oscillation(name, &post, s.mean, rc.band.value, band_breaks, sink);
         if let Some(e) = iterative::block_estimate(&win.vals) {
@@ -218,7 +221,7 @@ fn oscillation(
     let Some(o) = spectrum::find_oscillation(vals) else {
         return;
     };
-    if !(o.p_value < OSC_ALPHA) {
+    if !o.significant(OSC_ALPHA) {
         return;
     }
     let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;

@@ -8,7 +8,7 @@
 
 use super::criteria::{self, Resolved};
 use super::limits::*;
-use super::series::{self, View, startup_len};
+use super::series::{self, View};
 use super::spectrum;
 use super::stats;
 use super::text::{dec, its, num};
@@ -55,7 +55,7 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
     let last_it = v.last_it();
     let last_raw = v.vals[n - 1];
     health::non_finite(name, v, sink);
-    let crash_sign = health::end_jump(name, v, rc.window);
+    let crash_sign = health::end_jump(name, v, rc.evidence());
 
     let Some(lv) = levels(v) else {
         // No positive value at all (all zero, negative or non-finite): nothing to measure.
@@ -119,16 +119,19 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
         target = target.min(b.value);
     }
 
-    // Trend over the window of the latest segment.
-    let w = rc.window;
+    // Trend over the window of the latest segment, without its start-up once there is enough
+    // after it: a pseudo-plateau or a start-up rise must not pass for a stall (DESIGN §7).
+    let w = rc.evidence();
     let win = v.window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN });
-    let tr = trend::fit(&win.its, &win.vals);
+    let post = win.from_iteration(series::startup_end(v.seg_first_it()));
+    let settled = if post.len() >= 30 { &post } else { &win };
+    let tr = trend::fit(&settled.its, &settled.vals);
     let falling = tr.is_some_and(|t| t.falling(MIN_FALL_DEC_PER_KIT));
     let eta = if met { None } else { tr.and_then(|t| t.eta(target.log10())) };
-    let full = win.span() as f64 >= 0.9 * w as f64 && win.len() >= 30;
-    let half = win.span() as f64 >= 0.5 * w as f64 && win.len() >= OSC_MIN_POINTS;
+    let full = post.span() as f64 >= 0.9 * w as f64 && post.len() >= 30;
+    let half = post.span() as f64 >= 0.5 * w as f64 && post.len() >= OSC_MIN_POINTS;
 
-    let diverging = divergence(name, v, &win, sink);
+    let diverging = divergence(name, v, &win, w, sink);
 
     if let Some(t) = tr {
         if !met && falling {
@@ -137,8 +140,13 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
             stall(name, v, &t, drop, rc, sink);
         }
     }
-    if half {
-        oscillation(name, &win, !met && !falling, sink);
+    if half && !falling {
+        // Decisive when the criteria are not met, or met only at this point of the cycle: the
+        // crest of the oscillation around the fitted level is above the target.
+        let crest_above = |amp: f64| tr.is_none_or(|t| t.fitted_last + amp > target.log10());
+        oscillation(name, &post, |amp| !met || crest_above(amp), sink);
+    } else if half {
+        oscillation(name, &post, |_| false, sink);
     }
     frozen(name, v, sink);
     step_drop(name, v, &lv, drop, rc.drop.value, drop_since.is_some(), sink);
@@ -194,7 +202,7 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
     let band = (4.0 * t.resid_sd).max(0.3);
     let ceiling = 10f64.powf(t.fitted_last + band);
     let start = v.end_at(t.first - 1);
-    let floor_it = t.first - 20 * rc.window as i64;
+    let floor_it = t.first - 20 * rc.evidence() as i64;
     let mut first = t.first;
     for i in (v.seg..start).rev() {
         if v.its[i] < floor_it || v.vals[i] > ceiling || !v.vals[i].is_finite() {
@@ -222,11 +230,17 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
     sink.findings.push(f);
 }
 
-/// The two divergence rules on the latest segment after its start-up. Returns true when a
+/// The divergence rules on the latest segment after its start-up. Returns true when a
 /// divergence finding was pushed.
-fn divergence(name: &str, v: &View<'_>, win: &series::Window, sink: &mut Sink) -> bool {
+fn divergence(
+    name: &str,
+    v: &View<'_>,
+    win: &series::Window,
+    window: usize,
+    sink: &mut Sink,
+) -> bool {
     let last_it = v.last_it();
-    let startup_end = v.seg_first_it() + startup_len(last_it - v.seg_first_it());
+    let startup_end = series::startup_end(v.seg_first_it());
     let mut found = false;
 
     // 1. Significantly rising after the start-up, by a material amount.
@@ -253,7 +267,32 @@ fn divergence(name: &str, v: &View<'_>, win: &series::Window, sink: &mut Sink) -
         }
     }
 
-    // 2. Many decades above the running minimum (of block medians, so one odd value does not
+    // 2. A fast rise over the last fifth of the window: blow-ups take tens of iterations and
+    // barely move a fit over the whole window.
+    let short = win.from_iteration(startup_end.max(last_it - (window as i64 / 5).max(50) + 1));
+    if let (false, Some(t)) = (found, trend::fit(&short.its, &short.vals)) {
+        let rise = t.slope_dec_per_kit * short.span() as f64 / 1000.0;
+        if t.rising() && rise >= DIVERGE_FAST_RISE_DEC {
+            let mut f =
+                finding(FindingKind::Divergence, name, t.first, t.last, "slope_dec_per_kit");
+            f.value = t.slope_dec_per_kit;
+            f.threshold = Some(0.0);
+            f.p_value = stats::t_two_sided_p(t.slope_dec_per_kit / t.se_dec_per_kit, t.dof);
+            f.supports = Some(Verdict::Diverging);
+            f.detail = format!(
+                "{name} shot up {} decades in the last {} iterations ({} dec per 1000 it, 95 % CI {}…{})",
+                dec(rise),
+                its(short.span() as f64),
+                dec(t.slope_dec_per_kit),
+                dec(t.ci.0),
+                dec(t.ci.1),
+            );
+            sink.findings.push(f);
+            found = true;
+        }
+    }
+
+    // 3. Many decades above the running minimum (of block medians, so one odd value does not
     // count) since the start-up. One O(n) pass.
     let from = v.seg + v.its[v.seg..].partition_point(|&i| i < startup_end);
     let n = v.len();
@@ -287,7 +326,7 @@ fn divergence(name: &str, v: &View<'_>, win: &series::Window, sink: &mut Sink) -
     found
 }
 
-fn oscillation(name: &str, win: &series::Window, decisive: bool, sink: &mut Sink) {
+fn oscillation(name: &str, win: &series::Window, decisive: impl Fn(f64) -> bool, sink: &mut Sink) {
     let mut vals: &[f64] = &win.vals;
     let mut its: &[i64] = &win.its;
     if vals.len() % 2 == 0 {
@@ -298,7 +337,7 @@ fn oscillation(name: &str, win: &series::Window, decisive: bool, sink: &mut Sink
     let Some(o) = spectrum::find_oscillation(vals) else {
         return;
     };
-    if !(o.p_value < OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
+    if !o.significant(OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
         return;
     }
     let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;
@@ -309,7 +348,7 @@ fn oscillation(name: &str, win: &series::Window, decisive: bool, sink: &mut Sink
     f.p_value = Some(o.p_value);
     f.period = Some(period);
     f.amplitude = Some(o.amplitude);
-    f.supports = decisive.then_some(Verdict::Oscillating);
+    f.supports = decisive(o.amplitude).then_some(Verdict::Oscillating);
     f.detail = format!(
         "{name} oscillates with a period of {} iterations and ±{} decades (Fisher's g = {}, p = {})",
         num(period),

@@ -151,11 +151,17 @@ impl<'s> View<'s> {
     }
 }
 
-/// Start-up length in iterations for a segment that has run `elapsed` iterations: 20 % of
-/// it, between 20 and 200 iterations (DESIGN §7: residuals often rise in the first tens to
-/// hundreds of iterations while the flow develops; our choice of numbers).
-pub fn startup_len(elapsed: i64) -> i64 {
-    (elapsed / 5).clamp(20, 200)
+/// Length of the start-up in iterations at the beginning of every segment.
+///
+/// Residuals often rise in the first tens to hundreds of iterations while the flow develops,
+/// and monitors ramp up from zero (DESIGN §7): growth there is not divergence. 200 is our
+/// reading of "tens to hundreds"; blow-ups inside it are still caught by non-finite values
+/// and crash signatures.
+pub const STARTUP_ITERATIONS: i64 = 200;
+
+/// First iteration after the start-up of a segment that began at `seg_first`.
+pub fn startup_end(seg_first: i64) -> i64 {
+    seg_first + STARTUP_ITERATIONS
 }
 
 /// Medians of consecutive blocks of 5 values `f(x)` of `v` (a cheap outlier-proof summary for
@@ -218,7 +224,6 @@ mod tests {
         let v = [5.0, 1.0, f64::NAN, 4.0, 2.0, 3.0, 9.0, -1.0];
         assert_eq!(block_medians(&v, 0, |x| x), vec![(5, 3.0)]);
         assert_eq!(block_medians(&v, 10, f64::abs), vec![(15, 3.0)]);
-        assert_eq!(startup_len(10), 20);
-        assert_eq!(startup_len(5000), 200);
+        assert_eq!(startup_end(1000), 1200);
     }
 }

@@ -1,0 +1,611 @@
+//! Verdicts on small synthetic runs generated here (seeded). The histories imitate what real
+//! solvers print (DESIGN §7): normalised residuals starting at 1, a start-up rise, noise in
+//! log space with AR(1) autocorrelation, a floor set by the linear solver, monitors that
+//! settle exponentially with correlated noise. The numbers are invented for these scenarios.
+
+use std::borrow::Cow;
+
+use settle::judge::{
+    Criteria, FindingKind, Judgement, RunInput, SeriesCriteria, SeriesInput, Verdict, judge,
+};
+use settle::record::{Event, Role, Severity};
+
+/// SplitMix64 uniforms and Box–Muller normals.
+struct Rng(u64);
+
+impl Rng {
+    fn uniform(&mut self) -> f64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^= z >> 31;
+        ((z >> 11) as f64 + 0.5) / (1u64 << 53) as f64
+    }
+
+    fn normal(&mut self) -> f64 {
+        let (u, v) = (self.uniform(), self.uniform());
+        (-2.0 * u.ln()).sqrt() * (2.0 * std::f64::consts::PI * v).cos()
+    }
+
+    /// AR(1) noise with marginal SD `sd`.
+    fn ar1(&mut self, n: usize, phi: f64, sd: f64) -> Vec<f64> {
+        let innov = sd * (1.0 - phi * phi).sqrt();
+        let mut x = sd * self.normal();
+        (0..n)
+            .map(|_| {
+                x = phi * x + innov * self.normal();
+                x
+            })
+            .collect()
+    }
+}
+
+/// A residual `10^(level(i) + noise)`, noise in decades.
+fn residual(rng: &mut Rng, n: usize, noise_dec: f64, level: impl Fn(f64) -> f64) -> Vec<f64> {
+    let e = rng.ar1(n, 0.8, noise_dec);
+    (0..n).map(|i| 10f64.powf(level(i as f64) + e[i])).collect()
+}
+
+/// A monitor `mean(i)·(1 + noise)`, relative noise.
+fn monitor(rng: &mut Rng, n: usize, rel_noise: f64, mean: impl Fn(f64) -> f64) -> Vec<f64> {
+    let e = rng.ar1(n, 0.9, rel_noise);
+    (0..n).map(|i| mean(i as f64) * (1.0 + e[i])).collect()
+}
+
+/// A converging residual level: 1 at it 0, a start-up rise of half a decade over 40 it,
+/// then a fall of `rate` decades per 1000 it down to a floor at `floor` decades.
+fn converging(rate: f64, floor: f64) -> impl Fn(f64) -> f64 {
+    move |i| {
+        let rise = 0.5 * (i / 40.0).min(1.0);
+        let fall = if i > 40.0 { rate * (i - 40.0) / 1000.0 } else { 0.0 };
+        (rise - fall).max(floor)
+    }
+}
+
+/// A settling monitor: `target·(1 + 0.2·e^{−i/τ})`.
+fn settling(target: f64, tau: f64) -> impl Fn(f64) -> f64 {
+    move |i| target * (1.0 + 0.2 * (-i / tau).exp())
+}
+
+/// Name, role, iterations, values, segment starts.
+type Series = (String, Role, Vec<i64>, Vec<f64>, Vec<usize>);
+
+struct Run {
+    series: Vec<Series>,
+    events: Vec<Event>,
+    ended: bool,
+}
+
+impl Run {
+    fn new() -> Run {
+        Run { series: Vec::new(), events: Vec::new(), ended: false }
+    }
+
+    fn add(mut self, name: &str, role: Role, values: Vec<f64>) -> Run {
+        let its: Vec<i64> = (1..=values.len() as i64).collect();
+        self.series.push((name.into(), role, its, values, vec![0]));
+        self
+    }
+
+    fn add_with(
+        mut self,
+        name: &str,
+        role: Role,
+        its: Vec<i64>,
+        values: Vec<f64>,
+        segs: Vec<usize>,
+    ) -> Run {
+        self.series.push((name.into(), role, its, values, segs));
+        self
+    }
+
+    fn event(mut self, severity: Severity, rule: &str, iteration: Option<i64>) -> Run {
+        self.events.push(Event {
+            severity,
+            rule: rule.into(),
+            message: format!("{rule} message"),
+            line: 1,
+            iteration,
+        });
+        self
+    }
+
+    fn ended(mut self) -> Run {
+        self.ended = true;
+        self
+    }
+
+    fn judge_with(&self, c: &Criteria) -> Judgement {
+        let input = RunInput {
+            series: self
+                .series
+                .iter()
+                .map(|(name, role, its, vals, segs)| SeriesInput {
+                    name: Cow::Borrowed(name),
+                    role: *role,
+                    iterations: Cow::Borrowed(its),
+                    values: Cow::Borrowed(vals),
+                    segment_starts: segs.clone(),
+                })
+                .collect(),
+            events: self.events.iter().map(Cow::Borrowed).collect(),
+            ended: self.ended,
+            ended_at: None,
+        };
+        judge(&input, c)
+    }
+
+    fn judge(&self) -> Judgement {
+        self.judge_with(&Criteria::default())
+    }
+}
+
+fn explain(j: &Judgement) -> String {
+    let mut s = format!("verdict {} since {:?} causes {:?}\n", j.verdict, j.since, j.causes);
+    for f in &j.findings {
+        s += &format!(
+            "  {:?} {:?} [{}..{}] {:?}: {}\n",
+            f.kind, f.series, f.first, f.last, f.supports, f.detail
+        );
+    }
+    for c in &j.criteria {
+        s += &format!(
+            "  crit {} {} {} thr {} met {} since {:?}\n",
+            c.name, c.series, c.value, c.threshold, c.met, c.since
+        );
+    }
+    s
+}
+
+fn has(j: &Judgement, kind: FindingKind, series: &str) -> bool {
+    j.findings.iter().any(|f| f.kind == kind && f.series.as_deref() == Some(series))
+}
+
+// ------------------------------------------------------------------------ scenarios
+
+fn clean_run(seed: u64, n: usize) -> Run {
+    let mut rng = Rng(seed);
+    Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
+        .add("res_U", Role::Residual, residual(&mut rng, n, 0.05, converging(3.0, -6.5)))
+        .add("Cd", Role::Monitor, monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0)))
+}
+
+#[test]
+fn clean_convergence_is_converged() {
+    for seed in 1..=4 {
+        let j = clean_run(seed, 4000).judge();
+        assert_eq!(j.verdict, Verdict::Converged, "seed {seed}\n{}", explain(&j));
+        // res_p reaches 3 decades below its peak near it 1220 and Cd's drift falls below 0.1 %
+        // near it 1500: all criteria hold together from then on (checkpoint resolution 50 it).
+        let since = j.since.expect("dated");
+        assert!((1400..2400).contains(&since), "{since}");
+        assert!(j.criteria.iter().all(|c| c.met));
+    }
+}
+
+#[test]
+fn plateau_is_stalled() {
+    let mut rng = Rng(10);
+    let n = 3000;
+    // Falls to 1e-2 by it 800, then flat (1.4 decades short of the 3-decade drop).
+    let res = residual(&mut rng, n, 0.05, |i| converging(2.5, -1.6)(i));
+    let run = Run::new().add("res_p", Role::Residual, res).add(
+        "Cd",
+        Role::Monitor,
+        monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0)),
+    );
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Stalled, "{}", explain(&j));
+    let f = &j.findings[j.causes[0]];
+    assert_eq!(f.kind, FindingKind::Stall);
+    // The plateau starts near it 880; dated within a few hundred iterations.
+    assert!((600..1400).contains(&f.first), "{}", explain(&j));
+}
+
+#[test]
+fn residual_limit_cycles_are_oscillating_with_their_period() {
+    for period in [40.0f64, 3.0, 2.0, 90.0] {
+        let mut rng = Rng(20 + period as u64);
+        let n = 3000;
+        let res = residual(&mut rng, n, 0.03, move |i| {
+            let base = converging(2.5, -2.0)(i);
+            let amp = if i > 1000.0 { 0.4 } else { 0.0 };
+            base + amp * (2.0 * std::f64::consts::PI * i / period).cos()
+        });
+        let run = Run::new().add("res_p", Role::Residual, res).add(
+            "Cd",
+            Role::Monitor,
+            monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0)),
+        );
+        let j = run.judge();
+        assert_eq!(j.verdict, Verdict::Oscillating, "period {period}\n{}", explain(&j));
+        let f = &j.findings[j.causes[0]];
+        let got = f.period.expect("period");
+        assert!((got - period).abs() / period < 0.1, "period {period}: {got}");
+        assert!(f.p_value.expect("p") < 0.01);
+    }
+}
+
+#[test]
+fn monitor_oscillation_decides_unless_inside_the_tolerance() {
+    for (amp, want) in [(0.02, Verdict::Oscillating), (0.001, Verdict::Converged)] {
+        let mut rng = Rng(31);
+        let n = 4000;
+        let cd = monitor(&mut rng, n, 1e-4, move |i| {
+            settling(0.0312, 250.0)(i) * (1.0 + amp * (2.0 * std::f64::consts::PI * i / 60.0).sin())
+        });
+        let run = Run::new()
+            .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
+            .add("Cd", Role::Monitor, cd);
+        let j = run.judge();
+        assert_eq!(j.verdict, want, "amp {amp}\n{}", explain(&j));
+        if want == Verdict::Oscillating {
+            let f = &j.findings[j.causes[0]];
+            assert!((f.period.expect("period") - 60.0).abs() < 6.0);
+            // Amplitude in percent of the mean: 2 %.
+            assert!((f.amplitude.expect("amplitude") - 2.0).abs() < 0.3, "{}", explain(&j));
+        }
+    }
+}
+
+#[test]
+fn exponential_divergence_ending_in_nan_or_overflow_is_diverging() {
+    for end in [f64::NAN, f64::INFINITY] {
+        let mut rng = Rng(40);
+        let n = 1800;
+        let mut res = residual(&mut rng, n, 0.05, |i| {
+            let base = converging(2.5, -4.0)(i);
+            if i > 1500.0 { base + (i - 1500.0) / 40.0 } else { base }
+        });
+        res.extend([end; 3]);
+        let mut cd = monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0));
+        cd.extend([end; 3]);
+        let run = Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd);
+        let j = run.judge();
+        assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+        assert!(has(&j, FindingKind::NonFinite, "res_p"));
+    }
+}
+
+#[test]
+fn residuals_met_while_monitor_drifts_is_suspect() {
+    let mut rng = Rng(50);
+    let n = 4000;
+    // +1 % per 500 iterations.
+    let cd = monitor(&mut rng, n, 1e-4, |i| 0.0312 * (1.0 + 0.02 * i / 1000.0));
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
+        .add("Cd", Role::Monitor, cd);
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
+    assert!(j.causes.iter().all(|&i| j.findings[i].kind == FindingKind::FalseConvergence));
+    let drift = j.criteria.iter().find(|c| c.name == "drift").expect("drift criterion");
+    assert!(!drift.met && (drift.value - 1.0).abs() < 0.2, "{}", explain(&j));
+}
+
+#[test]
+fn still_converging_has_an_eta() {
+    let mut rng = Rng(60);
+    let n = 1200;
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.0, -8.0)))
+        .add("Cd", Role::Monitor, monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0)));
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converging, "{}", explain(&j));
+    let r = &j.residuals[0];
+    // Level at 1200: 0.5 − 2.0·1.16 = −1.82; peak ≈ 10^0.5 → target −2.5: 0.68 dec at
+    // 2 dec/kit ≈ 340 iterations.
+    let eta = r.eta_iterations.expect("eta");
+    assert!((200.0..500.0).contains(&eta), "{eta}\n{}", explain(&j));
+    assert!((r.slope_dec_per_kit + 2.0).abs() < 0.3);
+    assert!(r.slope_ci.0 < r.slope_dec_per_kit && r.slope_dec_per_kit < r.slope_ci.1);
+}
+
+#[test]
+fn startup_rise_then_convergence_is_not_diverging() {
+    let mut rng = Rng(70);
+    let n = 3000;
+    // Rises 1.7 decades over 120 it (flow developing), then converges.
+    let level = |i: f64| {
+        if i < 120.0 { 1.7 * i / 120.0 } else { (1.7 - 3.0 * (i - 120.0) / 1000.0).max(-6.0) }
+    };
+    for upto in [150usize, 400, 3000] {
+        let mut rng2 = Rng(71);
+        let run = Run::new()
+            .add("res_p", Role::Residual, residual(&mut rng, upto, 0.05, level))
+            .add("Cd", Role::Monitor, monitor(&mut rng2, upto, 1e-4, settling(0.0312, 250.0)));
+        let j = run.judge();
+        assert_ne!(j.verdict, Verdict::Diverging, "upto {upto}\n{}", explain(&j));
+        if upto == n {
+            assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+        }
+    }
+}
+
+#[test]
+fn restart_mid_run_judges_the_latest_segment() {
+    let mut rng = Rng(80);
+    let full = residual(&mut rng, 4000, 0.05, converging(2.5, -6.0));
+    let cd = monitor(&mut rng, 4000, 1e-4, settling(0.0312, 250.0));
+    // First segment: it 1..=2000; restart from a checkpoint at it 1500: it 1501..=4000.
+    let mut its: Vec<i64> = (1..=2000).collect();
+    its.extend(1501..=4000);
+    let mut vals = full[..2000].to_vec();
+    vals.extend_from_slice(&full[1500..]);
+    let mut cvals = cd[..2000].to_vec();
+    cvals.extend_from_slice(&cd[1500..]);
+    let run = Run::new()
+        .add_with("res_p", Role::Residual, its.clone(), vals, vec![0, 2000])
+        .add_with("Cd", Role::Monitor, its, cvals, vec![0, 2000]);
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+    assert!(j.findings.iter().any(|f| f.kind == FindingKind::Restart));
+    // The drop is from the peak of the whole run (≈ 10^0.5 near it 40).
+    let r = &j.residuals[0];
+    assert!(r.peak > 2.0 && r.drop_dec > 5.5, "{r:?}");
+    assert!(j.since.expect("dated") > 1500);
+}
+
+#[test]
+fn frozen_residual_is_suspect() {
+    let mut rng = Rng(90);
+    let n = 3000;
+    let mut res = residual(&mut rng, n, 0.05, converging(2.5, -6.0));
+    let frozen = res[2500];
+    for v in &mut res[2500..] {
+        *v = frozen;
+    }
+    let run = Run::new().add("res_p", Role::Residual, res).add(
+        "Cd",
+        Role::Monitor,
+        monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0)),
+    );
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
+    let f = &j.findings[j.causes[0]];
+    assert_eq!(f.kind, FindingKind::FrozenResidual);
+    assert_eq!(f.first, 2501);
+}
+
+#[test]
+fn crash_with_growing_monitor_and_no_end_mark_is_diverging() {
+    let mut rng = Rng(100);
+    let n = 2000;
+    // The monitor starts to run away in the last 15 iterations (×6), then the log ends in an
+    // error; residuals saturate and print nothing unusual.
+    let cd = monitor(&mut rng, n, 1e-4, |i| {
+        let base = settling(0.0312, 250.0)(i);
+        if i > 1985.0 { base * 1.6f64.powf(i - 1985.0) } else { base }
+    });
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -2.5)))
+        .add("Cd", Role::Monitor, cd)
+        .event(Severity::Error, "crash", Some(n as i64));
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    assert!(j.causes.iter().any(|&i| j.findings[i].kind == FindingKind::Crash));
+    // The same log with an end-of-run mark is no crash.
+    let ended = Run { ended: true, ..run };
+    assert!(!ended.judge().findings.iter().any(|f| f.kind == FindingKind::Crash));
+}
+
+#[test]
+fn crash_without_signs_does_not_decide() {
+    let mut rng = Rng(101);
+    let n = 1100;
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -8.0)))
+        .add("Cd", Role::Monitor, monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0)))
+        .event(Severity::Error, "crash", Some(n as i64));
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converging, "{}", explain(&j));
+    let f = j.findings.iter().find(|f| f.kind == FindingKind::Crash).expect("crash finding");
+    assert_eq!(f.supports, None);
+}
+
+#[test]
+fn indicator_exploding_while_residuals_saturate_is_diverging() {
+    let mut rng = Rng(110);
+    let n = 2500;
+    // Residuals saturate near 0.5 with noise; the continuity error grows 4 decades.
+    let res = residual(&mut rng, n, 0.1, |i| if i < 200.0 { -1.0 } else { -0.3 });
+    let cont =
+        residual(
+            &mut rng,
+            n,
+            0.05,
+            |i| if i < 2000.0 { -3.0 } else { -3.0 + (i - 2000.0) / 120.0 },
+        );
+    let run = Run::new().add("res_p", Role::Residual, res).add("continuity", Role::Indicator, cont);
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    assert!(j.causes.iter().any(|&i| j.findings[i].series.as_deref() == Some("continuity")));
+}
+
+#[test]
+fn silent_divergence_of_a_monitor_is_diverging() {
+    let mut rng = Rng(120);
+    let n = 3000;
+    // Residuals bounded and noisy; the monitor grows exponentially from it 2000.
+    let res = residual(&mut rng, n, 0.1, |i| converging(2.5, -3.5)(i));
+    let cd = monitor(&mut rng, n, 1e-4, |i| {
+        0.0312 * (1.0 + if i > 2000.0 { 1e-3 * ((i - 2000.0) / 80.0).exp() } else { 0.0 })
+    });
+    let run = Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd);
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    assert!(has(&j, FindingKind::BlowUp, "Cd"), "{}", explain(&j));
+}
+
+#[test]
+fn sweep_count_pinned_at_its_limit_is_diverging() {
+    let mut rng = Rng(130);
+    let n = 2000;
+    let sweeps: Vec<f64> = (0..n)
+        .map(|i| if i < 1900 { (8.0 + 4.0 * rng.uniform()).round() } else { 200.0 })
+        .collect();
+    let run = Run::new().add("res_p", Role::Residual, residual(&mut rng, n, 0.1, |_| -2.0)).add(
+        "p_sweeps",
+        Role::Indicator,
+        sweeps,
+    );
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    assert!(has(&j, FindingKind::BlowUp, "p_sweeps"));
+}
+
+#[test]
+fn solver_end_mark_while_monitor_drifts_is_suspect() {
+    let mut rng = Rng(140);
+    let n = 1500;
+    // The solver stops on its own residual target (2.4 decades) while drag still drifts.
+    let cd = monitor(&mut rng, n, 1e-4, |i| 0.0312 * (1.0 + 0.03 * i / 1000.0));
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.0, -8.0)))
+        .add("Cd", Role::Monitor, cd)
+        .ended();
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
+    assert!(j.causes.iter().any(|&i| j.findings[i].kind == FindingKind::SolverStoppedEarly));
+}
+
+#[test]
+fn one_step_drop_that_makes_the_criterion_is_suspect() {
+    let mut rng = Rng(150);
+    let n = 2000;
+    // Slowly falling to 1e-1, then a reset makes it 1e-6 in one step.
+    let res = residual(&mut rng, n, 0.03, |i| if i < 1700.0 { -(i / 1700.0) } else { -6.0 });
+    let run = Run::new().add("res_p", Role::Residual, res).add(
+        "Cd",
+        Role::Monitor,
+        monitor(&mut rng, n, 1e-5, |_| 0.0312),
+    );
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
+    assert!(j.causes.iter().any(|&i| j.findings[i].kind == FindingKind::StepDrop));
+}
+
+#[test]
+fn clipping_warnings_in_most_iterations_are_a_finding() {
+    let base = clean_run(3, 4000);
+    // Clipping in the first 5 iterations only: normal.
+    let mut early = Run { ..clean_run(3, 4000) };
+    for it in 1..=5 {
+        early = early.event(Severity::Warning, "clipping", Some(it));
+    }
+    assert!(!early.judge().findings.iter().any(|f| f.kind == FindingKind::FrequentWarnings));
+    let mut often = base;
+    for it in (1..=4000).filter(|i| i % 4 != 0) {
+        often = often.event(Severity::Warning, "clipping", Some(it));
+    }
+    let j = often.judge();
+    let f = j.findings.iter().find(|f| f.kind == FindingKind::FrequentWarnings).expect("finding");
+    assert!((f.value - 0.75).abs() < 0.01);
+    assert_eq!(j.verdict, Verdict::Converged, "informational only");
+}
+
+#[test]
+fn per_series_overrides_change_the_outcome() {
+    let run = clean_run(2, 4000);
+    // Demanding 8 decades from res_p (it reaches about 6.5): no longer converged.
+    let mut series = std::collections::BTreeMap::new();
+    series.insert("res_p".into(), SeriesCriteria { drop: Some(8.0), ..Default::default() });
+    let j = run.judge_with(&Criteria { series: series.clone(), ..Default::default() });
+    assert_ne!(j.verdict, Verdict::Converged, "{}", explain(&j));
+    let c = j.criteria.iter().find(|c| c.series == "res_p" && c.name == "drop").expect("drop");
+    assert!(!c.met && c.threshold == 8.0 && !c.default);
+    // Ignoring it again restores the verdict.
+    series.insert("res_*".into(), SeriesCriteria { ignore: true, ..Default::default() });
+    series.remove("res_p");
+    let j = run.judge_with(&Criteria { series, ..Default::default() });
+    assert_eq!(j.verdict, Verdict::Converged);
+    assert!(j.criteria.iter().all(|c| c.series == "Cd"));
+}
+
+// ------------------------------------------------------------------------ degenerate inputs
+
+#[test]
+fn empty_run_and_empty_series() {
+    let j = Run::new().judge();
+    assert_eq!(j.verdict, Verdict::Converging);
+    assert!(j.findings.is_empty() && j.criteria.is_empty());
+    let j = Run::new().add("res_p", Role::Residual, vec![]).judge();
+    assert_eq!(j.verdict, Verdict::Converging);
+}
+
+#[test]
+fn single_values_and_constants() {
+    let j = Run::new()
+        .add("res_p", Role::Residual, vec![1.0])
+        .add("Cd", Role::Monitor, vec![0.03])
+        .judge();
+    assert_eq!(j.verdict, Verdict::Converging, "{}", explain(&j));
+    assert!(j.criteria.iter().all(|c| !c.met));
+    // A constant residual is frozen; a constant monitor is perfectly stationary.
+    let j = Run::new()
+        .add("res_p", Role::Residual, vec![0.5; 2000])
+        .add("Cd", Role::Monitor, vec![0.03; 2000])
+        .judge();
+    assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
+    let band = j.criteria.iter().find(|c| c.name == "band").expect("band");
+    assert!(band.met && band.value == 0.0);
+}
+
+#[test]
+fn all_nan_and_zero_series() {
+    let j = Run::new().add("res_p", Role::Residual, vec![f64::NAN; 100]).judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    let j = Run::new().add("Cd", Role::Monitor, vec![f64::NAN; 100]).judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    // An all-zero residual prints the same value forever: frozen, and nothing to measure.
+    let j = Run::new().add("res_k", Role::Residual, vec![0.0; 100]).judge();
+    assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
+    assert!(j.residuals[0].drop_dec.is_nan());
+    // A monitor that is zero throughout has zero drift and band.
+    let j = Run::new().add("Cs", Role::Monitor, vec![0.0; 1000]).judge();
+    assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+}
+
+#[test]
+fn negative_monitor_values_use_the_magnitude_of_the_mean() {
+    let mut rng = Rng(160);
+    let n = 3000;
+    let cl = monitor(&mut rng, n, 1e-4, |i| -settling(0.41, 250.0)(i));
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
+        .add("Cl", Role::Monitor, cl);
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+    assert!(j.monitors[0].mean < 0.0 && j.monitors[0].band_pct > 0.0);
+}
+
+#[test]
+fn info_series_are_not_judged_and_indicators_have_no_criteria() {
+    let mut run = clean_run(4, 4000);
+    run = run.add("wall_time", Role::Info, vec![f64::NAN; 4000]).add(
+        "sweeps",
+        Role::Indicator,
+        vec![3.0; 4000],
+    );
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+    assert!(j.criteria.iter().all(|c| c.series != "sweeps" && c.series != "wall_time"));
+}
+
+#[test]
+fn a_million_points_are_judged_within_the_window() {
+    let n = 1_000_000;
+    let mut rng = Rng(170);
+    let res = residual(&mut rng, n, 0.05, converging(0.01, -6.0));
+    let cd = monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0));
+    let run = Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd);
+    // Only a few O(n) scans touch the whole run (speed is measured by benchmarks, not here);
+    // the windowed results must still be those of the final window.
+    let j = run.judge();
+    assert_eq!(j.iterations, n as i64);
+    assert!(j.residuals[0].drop_dec > 5.0, "{}", explain(&j));
+    assert_eq!(j.monitors[0].window_first, n as i64 - 499);
+    assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+}
