@@ -196,11 +196,17 @@ fn false_convergence(
             sink.findings.push(f);
         }
     }
-    let mark = if input.ended {
-        Some(("its end-of-run mark".to_string(), input.ended_at.unwrap_or(last)))
-    } else {
-        events::converged_mark(input)
-            .map(|e| (format!("its own `{}` mark", e.rule), e.iteration.unwrap_or(last)))
+    // The solver's own convergence mark is a claim of convergence, and so is a bare
+    // end-of-run mark while the residuals are still falling or met (the solver stopped on a
+    // target of its own). A run whose residual stalled claims nothing by ending: it hit its
+    // iteration limit, and is judged stalled, not falsely converged.
+    let stalled = sink.findings.iter().any(|f| f.supports == Some(Verdict::Stalled));
+    let mark = match events::converged_mark(input) {
+        Some(e) => Some((format!("its own `{}` mark", e.rule), e.iteration.unwrap_or(last))),
+        None if input.ended && !stalled => {
+            Some(("its end-of-run mark".to_string(), input.ended_at.unwrap_or(last)))
+        }
+        None => None,
     };
     if let (Some((what, at)), false) = (mark, failing.is_empty()) {
         let names: Vec<&str> = failing.iter().map(|(n, _, _)| n.as_str()).collect();

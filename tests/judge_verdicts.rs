@@ -457,6 +457,21 @@ fn sweep_count_pinned_at_its_limit_is_diverging() {
 }
 
 #[test]
+fn stalled_run_ending_at_its_iteration_limit_stays_stalled() {
+    // Synthetic: a plateau 1.4 decades short of the drop, drag still drifting, and the
+    // solver's end-of-run mark at its iteration limit. Ending claims nothing here: the run is
+    // stalled, not falsely converged.
+    let mut rng = Rng(12);
+    let n = 3000;
+    let res = residual(&mut rng, n, 0.05, |i| converging(2.5, -1.6)(i));
+    let cd = monitor(&mut rng, n, 1e-4, |i| 0.0312 * (1.0 + 0.01 * i / 1000.0));
+    let run = Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd).ended();
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Stalled, "{}", explain(&j));
+    assert!(!j.findings.iter().any(|f| f.kind == FindingKind::SolverStoppedEarly));
+}
+
+#[test]
 fn solver_end_mark_while_monitor_drifts_is_suspect() {
     let mut rng = Rng(140);
     let n = 1500;
