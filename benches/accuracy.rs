@@ -75,21 +75,22 @@ fn detection_delay(
     })
 }
 
-/// Live prefixes of a healthy run: how many were judged, how many raised an alarm.
+/// Live prefixes of a healthy run: how many were judged, and the alarm verdicts raised.
 fn live_alarms(
     run: &SynthRun,
     full: &RunInput<'_>,
     criteria: &Criteria,
     clock: &mut Clock,
-) -> (usize, usize) {
+) -> (usize, Vec<Verdict>) {
     let prefixes = synth::live_prefixes(run, LIVE_PREFIXES, LIVE_FROM);
     let alarms = prefixes
         .iter()
-        .filter(|&&k| {
+        .map(|&k| {
             let input = synth::prefix_input(full, run, k);
-            is_alarm(clock.judge(&input, criteria).verdict)
+            clock.judge(&input, criteria).verdict
         })
-        .count();
+        .filter(|&v| is_alarm(v))
+        .collect();
     (prefixes.len(), alarms)
 }
 
@@ -139,6 +140,7 @@ fn main() {
         "{:<29} {:<11} {:>7}  {:<34} {:>7} {:>7} {:>6}",
         "scenario", "expected", "acc %", "wrong verdicts", "delay50", "delay90", "undet"
     );
+    let mut live_kinds: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
     let mut rows: Vec<(Scenario, Row)> = Vec::new();
     for &s in &scenarios {
         let mut row = Row::default();
@@ -163,8 +165,11 @@ fn main() {
                 row.final_alarms += usize::from(is_alarm(verdict));
                 let (judged, alarms) = live_alarms(&run, &full, &criteria, &mut clock);
                 row.live_prefixes += judged;
-                row.live_alarm_prefixes += alarms;
-                row.live_alarm_runs += usize::from(alarms > 0);
+                row.live_alarm_prefixes += alarms.len();
+                row.live_alarm_runs += usize::from(!alarms.is_empty());
+                for v in alarms {
+                    *live_kinds.entry(v.as_str()).or_insert(0usize) += 1;
+                }
             }
         }
         row.delays.sort_unstable();
@@ -207,6 +212,8 @@ fn main() {
             pct(h_live_runs, h_runs),
             pct(h_alarm_prefixes, h_prefixes)
         );
+        let kinds: Vec<String> = live_kinds.iter().map(|(k, n)| format!("{k} {n}")).collect();
+        println!("alarm verdicts on live prefixes of healthy runs: {}", kinds.join(", "));
     }
     let per_call = clock.spent.as_secs_f64() * 1e6 / clock.calls.max(1) as f64;
     println!(
