@@ -47,18 +47,66 @@ fn computed(win: &Window, w: usize) -> bool {
     win.span() as f64 >= 0.5 * w as f64 && win.len() >= 20
 }
 
-fn window_stats(win: &Window, w: usize, with_ci: bool) -> Option<Stats> {
+/// Drift and band of a window, and — with `full` — the MSER-5 transient, the mean after it
+/// and the CI half-width of that mean.
+fn window_stats(win: &Window, w: usize, full: bool) -> Option<Stats> {
     if !computed(win, w) {
         return None;
     }
     let drift = stationarity::drift_pct(&win.its_f64(), &win.vals, w as f64)?;
     let band = stationarity::band_pct(&win.vals)?;
+    if !full {
+        let mean = stats::mean(&win.vals)?;
+        return Some(Stats { drift, band, mean, ci_half: f64::NAN, transient: 0 });
+    }
     let d = stationarity::mser5(&win.vals).unwrap_or(0);
     let post = if win.len() - d >= 20 { &win.vals[d..] } else { &win.vals[..] };
     let mean = stats::mean(post)?;
-    let ci_half =
-        if with_ci { stationarity::mean_ci_half(post).unwrap_or(f64::NAN) } else { f64::NAN };
+    let ci_half = stationarity::mean_ci_half(post).unwrap_or(f64::NAN);
     Some(Stats { drift, band, mean, ci_half, transient: d })
+}
+
+/// One windowed criterion of a monitor.
+struct Crit {
+    name: &'static str,
+    lim: Limit,
+    metric: fn(&Stats) -> f64,
+    needs_ci: bool,
+}
+
+fn ci_pct(s: &Stats) -> f64 {
+    stationarity::relative_pct(s.ci_half, s.mean)
+}
+
+/// `since` of every criterion in one sweep over the checkpoints (see
+/// [`criteria::since_by_checkpoints`] for the rule): each checkpoint's window statistics are
+/// computed once for all criteria still holding, and the sweep stops when none does.
+fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Option<i64>> {
+    let last = v.last_it();
+    let step = (w / 10).max(1) as i64;
+    let floor = v.seg_first_it();
+    let mut since: Vec<Option<i64>> =
+        crits.iter().zip(values).map(|(c, x)| (*x <= c.lim.value).then_some(last)).collect();
+    let mut alive: Vec<bool> = since.iter().map(Option::is_some).collect();
+    for j in 1..criteria::MAX_CHECKPOINTS as i64 {
+        let t = last - j * step;
+        if t < floor || !alive.iter().any(|a| *a) {
+            break;
+        }
+        let need_ci = crits.iter().zip(&alive).any(|(c, a)| *a && c.needs_ci);
+        let st = window_stats(&v.window_map(t, w, |x| x), w, need_ci);
+        for (i, c) in crits.iter().enumerate() {
+            if !alive[i] {
+                continue;
+            }
+            if st.as_ref().is_some_and(|s| (c.metric)(s) <= c.lim.value) {
+                since[i] = Some(t);
+            } else {
+                alive[i] = false;
+            }
+        }
+    }
+    since
 }
 
 /// Judge one monitor; pushes criteria, findings and the summary into `sink`.
@@ -72,31 +120,25 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Moni
     // The CI is always computed for the summary; it is a criterion only when configured.
     let st = window_stats(&win, w, true);
 
-    let step = (w / 10).max(1) as i64;
-    let floor = v.seg_first_it();
-    let date = |metric: fn(&Stats) -> f64, lim: f64, ci: bool| {
-        criteria::since_by_checkpoints(last_it, floor, step, |t| {
-            let win = v.window_map(t, w, |x| x);
-            window_stats(&win, w, ci).is_some_and(|s| metric(&s) <= lim)
-        })
-    };
-    let mut facts = MonitorFacts { crash_sign, drift_pct: f64::NAN, ..Default::default() };
-    let mut push =
-        |crit: &'static str, lim: Limit, value: f64, metric: fn(&Stats) -> f64, ci: bool| {
-            let since = if value <= lim.value { date(metric, lim.value, ci) } else { None };
-            let res = criteria::result(crit, name, Comparison::AtMost, lim, value, "%", since);
-            if !res.met && !value.is_nan() {
-                facts.failing.push(crit);
-            }
-            sink.criteria.push(res);
-        };
-    let nan = f64::NAN;
-    push("drift", rc.drift, st.as_ref().map_or(nan, |s| s.drift.abs()), |s| s.drift.abs(), false);
-    push("band", rc.band, st.as_ref().map_or(nan, |s| s.band), |s| s.band, false);
-    let ci_pct = |s: &Stats| stationarity::relative_pct(s.ci_half, s.mean);
+    let mut crits = vec![
+        Crit { name: "drift", lim: rc.drift, metric: |s| s.drift.abs(), needs_ci: false },
+        Crit { name: "band", lim: rc.band, metric: |s| s.band, needs_ci: false },
+    ];
     if let Some(lim) = rc.ci {
-        push("ci", lim, st.as_ref().map_or(nan, ci_pct), ci_pct, true);
+        crits.push(Crit { name: "ci", lim, metric: ci_pct, needs_ci: true });
     }
+    let values: Vec<f64> =
+        crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| (c.metric)(s))).collect();
+    let sinces = date_all(v, w, &crits, &values);
+    let mut facts = MonitorFacts { crash_sign, drift_pct: f64::NAN, ..Default::default() };
+    for ((c, value), since) in crits.iter().zip(&values).zip(sinces) {
+        let res = criteria::result(c.name, name, Comparison::AtMost, c.lim, *value, "%", since);
+        if !res.met && !value.is_nan() {
+            facts.failing.push(c.name);
+        }
+        sink.criteria.push(res);
+    }
+    let nan = f64::NAN;
 
     let mut summary = MonitorSummary {
         series: name.into(),
