@@ -170,7 +170,7 @@ fn false_convergence(
     window: usize,
     sink: &mut Sink,
 ) {
-    let first = last - window as i64;
+    let first = last.saturating_sub(window as i64);
     let describe = |crit: &[&str], drift: f64| -> String {
         if crit.contains(&"drift") && drift.is_finite() {
             format!("drifts {} over the last {window} iterations", text::signed_pct(drift))

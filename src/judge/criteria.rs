@@ -154,7 +154,7 @@ pub fn since_by_checkpoints(
     }
     let mut since = last;
     for j in 1..MAX_CHECKPOINTS as i64 {
-        let t = last - j * step;
+        let t = last.saturating_sub(j.saturating_mul(step));
         if t < floor || !held(t) {
             break;
         }

@@ -89,9 +89,9 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
     let startup_end = series::startup_end(seg_first);
     // Reference range: after the start-up, ending before the most recent part (half a window,
     // or half of what there is), at most four windows long.
-    let recent = ((window / 2) as i64).min((last_it - startup_end) / 2).max(1);
-    let ref_last = last_it - recent;
-    let ref_first = startup_end.max(ref_last - 4 * window as i64);
+    let recent = ((window / 2) as i64).min(last_it.saturating_sub(startup_end) / 2).max(1);
+    let ref_last = last_it.saturating_sub(recent);
+    let ref_first = startup_end.max(ref_last.saturating_sub(4 * window as i64));
     let a = v.seg + v.its[v.seg..].partition_point(|&i| i < ref_first);
     let b = v.seg + v.its[v.seg..].partition_point(|&i| i <= ref_last);
     let reference = if b > a + 10 { median_abs(&v.vals[a..b]) } else { None };

@@ -89,7 +89,7 @@ fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Optio
         crits.iter().zip(values).map(|(c, x)| (*x <= c.lim.value).then_some(last)).collect();
     let mut alive: Vec<bool> = since.iter().map(Option::is_some).collect();
     for j in 1..criteria::MAX_CHECKPOINTS as i64 {
-        let t = last - j * step;
+        let t = last.saturating_sub(j.saturating_mul(step));
         if t < floor || !alive.iter().any(|a| *a) {
             break;
         }
@@ -266,7 +266,7 @@ fn oscillation(
     if !o.significant(OSC_ALPHA) {
         return;
     }
-    let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;
+    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
     let period = o.period * spacing;
     let amp_pct = stationarity::relative_pct(o.amplitude, mean);
     let decisive = breaks && 2.0 * amp_pct >= OSC_MONITOR_BAND_SHARE * band_limit;

@@ -201,8 +201,8 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
     // the plateau level (bounded look-back of 20 windows).
     let band = (4.0 * t.resid_sd).max(0.3);
     let ceiling = 10f64.powf(t.fitted_last + band);
-    let start = v.end_at(t.first - 1);
-    let floor_it = t.first - 20 * rc.evidence() as i64;
+    let start = v.end_at(t.first.saturating_sub(1));
+    let floor_it = t.first.saturating_sub(20 * rc.evidence() as i64);
     let mut first = t.first;
     for i in (v.seg..start).rev() {
         if v.its[i] < floor_it || v.vals[i] > ceiling || !v.vals[i].is_finite() {
@@ -222,7 +222,7 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
     };
     f.detail = format!(
         "{name} has not fallen for {} iterations: slope {} dec/kit (95 % CI {}…{}), {shortfall}",
-        its((t.last - first) as f64),
+        its(t.last.saturating_sub(first) as f64),
         dec(t.slope_dec_per_kit),
         dec(t.ci.0),
         dec(t.ci.1),
@@ -269,7 +269,8 @@ fn divergence(
 
     // 2. A fast rise over the last fifth of the window: blow-ups take tens of iterations and
     // barely move a fit over the whole window.
-    let short = win.from_iteration(startup_end.max(last_it - (window as i64 / 5).max(50) + 1));
+    let short = win
+        .from_iteration(startup_end.max(last_it.saturating_sub((window as i64 / 5).max(50) - 1)));
     if let (false, Some(t)) = (found, trend::fit(&short.its, &short.vals)) {
         let rise = t.slope_dec_per_kit * short.span() as f64 / 1000.0;
         if t.rising() && rise >= DIVERGE_FAST_RISE_DEC {
@@ -340,7 +341,7 @@ fn oscillation(name: &str, win: &series::Window, decisive: impl Fn(f64) -> bool,
     if !o.significant(OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
         return;
     }
-    let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;
+    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
     let period = o.period * spacing;
     let mut f = finding(FindingKind::Oscillation, name, its[0], its[its.len() - 1], "fisher_g");
     f.value = o.g;
