@@ -37,7 +37,8 @@ pub const DIVERGE_MIN_RISE_DEC: f64 = 1.0;
 pub const DIVERGE_FAST_RISE_DEC: f64 = 2.0;
 
 /// Divergence when a residual stands this many decades above its running minimum after the
-/// start-up (METHODS §6: "residual > 10²–10³ × its running minimum"; we take the upper end).
+/// start-up, over the last 20 evidence windows (METHODS §6: "residual > 10²–10³ × its running
+/// minimum"; we take the upper end).
 pub const DIVERGE_ABOVE_MIN_DEC: f64 = 3.0;
 
 /// Monitor or indicator "grows by orders of magnitude": this many decades above its reference

@@ -294,8 +294,9 @@ fn divergence(
     }
 
     // 3. Many decades above the running minimum (of block medians, so one odd value does not
-    // count) since the start-up. One O(n) pass.
-    let from = v.seg + v.its[v.seg..].partition_point(|&i| i < startup_end);
+    // count) since the start-up, looking back at most 20 windows so the cost stays bounded.
+    let look_back = startup_end.max(last_it.saturating_sub(20 * window as i64));
+    let from = v.seg + v.its[v.seg..].partition_point(|&i| i < look_back);
     let n = v.len();
     let current = stats::median(
         &v.vals[n.saturating_sub(5).max(v.seg)..]
@@ -415,8 +416,9 @@ fn step_drop(
         sink.findings.push(f);
         return;
     }
-    // Largest single-step fall after the peak, between consecutive positive values. O(n).
-    let mut best = (0.0f64, 0usize);
+    // Largest single-step fall ratio after the peak, between consecutive positive values: one
+    // cheap O(n) pass (a division per value, the logarithm only for the winner).
+    let mut best = (1.0f64, 0usize);
     let mut prev: Option<f64> = None;
     for i in lv.peak_idx..n {
         let x = v.vals[i];
@@ -425,14 +427,15 @@ fn step_drop(
             continue;
         }
         if let Some(p) = prev {
-            let s = (p / x).log10();
-            if s > best.0 {
-                best = (s, i);
+            let r = p / x;
+            if r > best.0 {
+                best = (r, i);
             }
         }
         prev = Some(x);
     }
-    if best.0 < STEP_DROP_DEC {
+    let best = (best.0.log10(), best.1);
+    if !(best.0 >= STEP_DROP_DEC) {
         return;
     }
     let decides = drop_met_now && drop - best.0 < need;
