@@ -170,10 +170,16 @@ fn whittle_ar1(omega: &[f64], ord: &[f64], exclude: &[usize]) -> f64 {
         .collect();
     let objective = |phi: f64| -> f64 {
         let (mut s, mut lh) = (0.0, 0.0);
-        for &(c, v) in &kept {
-            let h = 1.0 - 2.0 * phi * c + phi * phi;
-            s += v * h;
-            lh += h.ln();
+        // Σ ln h by logarithms of products of 8: h lies in [(1−|φ|)², (1+|φ|)²] ⊂ [2.5e-5, 4],
+        // so a product of 8 stays far inside the f64 range; 8× fewer logarithms.
+        for chunk in kept.chunks(8) {
+            let mut prod = 1.0;
+            for &(c, v) in chunk {
+                let h = 1.0 - 2.0 * phi * c + phi * phi;
+                s += v * h;
+                prod *= h;
+            }
+            lh += prod.ln();
         }
         if kept.is_empty() || !(s > 0.0) {
             return f64::INFINITY;
@@ -182,7 +188,7 @@ fn whittle_ar1(omega: &[f64], ord: &[f64], exclude: &[usize]) -> f64 {
         kf * (s / kf).ln() - lh
     };
     let (lo, hi) = (-0.95, 0.995);
-    let steps = 40;
+    let steps = 24;
     let step = (hi - lo) / steps as f64;
     let mut best = (0.0, objective(0.0));
     for i in 0..=steps {
@@ -195,7 +201,7 @@ fn whittle_ar1(omega: &[f64], ord: &[f64], exclude: &[usize]) -> f64 {
     if !best.1.is_finite() {
         return 0.0;
     }
-    golden_min(objective, (best.0 - step).max(lo), (best.0 + step).min(hi), 30)
+    golden_min(objective, (best.0 - step).max(lo), (best.0 + step).min(hi), 24)
 }
 
 /// Golden-section minimisation of `f` on `[a, b]`.
