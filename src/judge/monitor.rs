@@ -78,9 +78,11 @@ fn ci_pct(s: &Stats) -> f64 {
     stationarity::relative_pct(s.ci_half, s.mean)
 }
 
-/// `since` of every criterion in one sweep over the checkpoints (see
-/// [`criteria::since_by_checkpoints`] for the rule): each checkpoint's window statistics are
-/// computed once for all criteria still holding, and the sweep stops when none does.
+/// `since` of every criterion in one sweep over checkpoints `last, last − w/10, …` (at most
+/// [`criteria::MAX_CHECKPOINTS`], not before the segment start): a criterion's `since` is the
+/// oldest checkpoint of the unbroken run of checkpoints, from the end, at which it held for
+/// the window ending there (`None` when it does not hold at the end). Each checkpoint's window
+/// statistics are computed once for all criteria still holding; the sweep stops when none does.
 fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Option<i64>> {
     let last = v.last_it();
     let step = (w / 10).max(1) as i64;
@@ -304,4 +306,45 @@ pub fn analyse_indicator(
     health::non_finite(name, v, sink);
     health::blowup(name, v, window, true, sink);
     health::end_jump(name, v, window)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::judge::types::SeriesInput;
+    use std::borrow::Cow;
+
+    #[test]
+    fn checkpoint_dating_is_bounded_and_stops_at_the_first_failure() {
+        // A monitor that steps from 2 to 1 at it 1000 and is constant after: the band over a
+        // 100-iteration window holds from the window ending at it 1099 on.
+        let its: Vec<i64> = (1..=3000).collect();
+        let vals: Vec<f64> = its.iter().map(|&i| if i < 1000 { 2.0 } else { 1.0 }).collect();
+        let s = SeriesInput {
+            name: Cow::Borrowed("m"),
+            iterations: Cow::Borrowed(&its),
+            values: Cow::Borrowed(&vals),
+            segment_starts: vec![0],
+            ..Default::default()
+        };
+        let v = View::new(&s).expect("non-empty");
+        let band = Crit {
+            name: "band",
+            lim: Limit { value: 0.5, default: true },
+            metric: |s| s.band,
+            needs_ci: false,
+        };
+        let since = date_all(&v, 100, std::slice::from_ref(&band), &[0.0]);
+        // Bounded look-back: 49 steps of 10 iterations from 3000.
+        assert_eq!(since, vec![Some(3000 - 490)]);
+        let short: Vec<f64> = vals[..1200].to_vec();
+        let s2 = SeriesInput {
+            values: Cow::Borrowed(&short),
+            iterations: Cow::Borrowed(&its[..1200]),
+            ..s.clone()
+        };
+        let v2 = View::new(&s2).expect("non-empty");
+        assert_eq!(date_all(&v2, 100, std::slice::from_ref(&band), &[0.0]), vec![Some(1100)]);
+        assert_eq!(date_all(&v2, 100, std::slice::from_ref(&band), &[1.0]), vec![None]);
+    }
 }
