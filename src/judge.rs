@@ -44,8 +44,9 @@
 //!   at the end; a one-step drop of ≥ 3 decades that the drop criterion depends on; a drop
 //!   from a start-up spike (first value ≥ 2 decades below the peak, last still above it).
 //! * **Crash.** An error or crash event at the end of a log without an end-of-run mark makes
-//!   the run diverging when there were signs (a diverging finding, or a series jumping ×2 or
-//!   collapsing in its last values); otherwise it is reported without deciding.
+//!   the run diverging when there were signs (a diverging finding, or a monitor or indicator
+//!   jumping ×2 — a residual ×10 — or collapsing in its last values); otherwise it is
+//!   reported without deciding.
 //!
 //! Every windowed test looks at a bounded window (at most [`series::MAX_WINDOW_POINTS`]
 //! values); the whole-run work is a few cheap O(n) passes (peak, non-finite values, the

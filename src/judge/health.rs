@@ -56,9 +56,10 @@ fn median_abs(vals: &[f64]) -> Option<f64> {
 }
 
 /// The jump of the last values against the window before them: `Some(description)` when the
-/// median |value| of the last 3 finite values is at least [`CRASH_JUMP`] times, or below
-/// `CRASH_JUMP⁻³` times, the median over the rest of the window.
-pub fn end_jump(name: &str, v: &View<'_>, window: usize) -> Option<String> {
+/// median |value| of the last 3 finite values is at least `factor` times, or below
+/// `factor⁻³` times, the median over the rest of the window ([`CRASH_JUMP`],
+/// [`CRASH_JUMP_RESIDUAL`]).
+pub fn end_jump(name: &str, v: &View<'_>, window: usize, factor: f64) -> Option<String> {
     let win = v.window(window);
     let k = win.len();
     if k < 13 {
@@ -70,9 +71,9 @@ pub fn end_jump(name: &str, v: &View<'_>, window: usize) -> Option<String> {
         return None;
     }
     let ratio = now / reference;
-    if ratio >= CRASH_JUMP {
+    if ratio >= factor {
         Some(format!("{name} grew ×{} in its last values", num(ratio)))
-    } else if ratio <= CRASH_JUMP.powi(-3) {
+    } else if ratio <= factor.powi(-3) {
         Some(format!("{name} collapsed to ×{} of its level in its last values", num(ratio)))
     } else {
         None

@@ -115,7 +115,7 @@ fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Optio
 pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> MonitorFacts {
     health::non_finite(name, v, sink);
     health::blowup(name, v, rc.evidence(), false, sink);
-    let crash_sign = health::end_jump(name, v, rc.evidence());
+    let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP);
     let w = rc.window;
     let last_it = v.last_it();
     let win = v.window(w);
@@ -305,7 +305,7 @@ pub fn analyse_indicator(
 ) -> Option<String> {
     health::non_finite(name, v, sink);
     health::blowup(name, v, window, true, sink);
-    health::end_jump(name, v, window)
+    health::end_jump(name, v, window, CRASH_JUMP)
 }
 
 #[cfg(test)]

@@ -55,7 +55,7 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
     let last_it = v.last_it();
     let last_raw = v.vals[n - 1];
     health::non_finite(name, v, sink);
-    let crash_sign = health::end_jump(name, v, rc.evidence());
+    let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP_RESIDUAL);
 
     let Some(lv) = levels(v) else {
         // No positive value at all (all zero, negative or non-finite): nothing to measure.
