@@ -206,12 +206,13 @@ fn plateau_is_stalled() {
 
 #[test]
 fn residual_limit_cycles_are_oscillating_with_their_period() {
-    for period in [40.0f64, 3.0, 2.0, 90.0] {
+    // (period, semi-amplitude in decades); the last one spans 3.2 decades crest to trough.
+    for (period, size) in [(40.0f64, 0.4), (3.0, 0.4), (2.0, 0.4), (90.0, 0.4), (25.0, 1.6)] {
         let mut rng = Rng(20 + period as u64);
         let n = 3000;
         let res = residual(&mut rng, n, 0.03, move |i| {
             let base = converging(2.5, -2.0)(i);
-            let amp = if i > 1000.0 { 0.4 } else { 0.0 };
+            let amp = if i > 1000.0 { size } else { 0.0 };
             base + amp * (2.0 * std::f64::consts::PI * i / period).cos()
         });
         let run = Run::new().add("res_p", Role::Residual, res).add(

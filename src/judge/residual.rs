@@ -294,7 +294,12 @@ fn divergence(
     }
 
     // 3. Many decades above the running minimum (of block medians, so one odd value does not
-    // count) since the start-up, looking back at most 20 windows so the cost stays bounded.
+    // count) since the start-up, looking back at most 20 windows so the cost stays bounded —
+    // and still 2 decades above the window's median level, so that the crest of a wide limit
+    // cycle does not count as growth.
+    if found {
+        return true;
+    }
     let look_back = startup_end.max(last_it.saturating_sub(20 * window as i64));
     let from = v.seg + v.its[v.seg..].partition_point(|&i| i < look_back);
     let n = v.len();
@@ -309,7 +314,8 @@ fn divergence(
     if let (Some(cur), Some(&(idx, lo))) = (current, meds.iter().min_by(|a, b| a.1.total_cmp(&b.1)))
     {
         let above = (cur / lo).log10();
-        if !found && above >= DIVERGE_ABOVE_MIN_DEC {
+        let over_median = stats::median(&win.vals).map_or(f64::INFINITY, |m| cur.log10() - m);
+        if above >= DIVERGE_ABOVE_MIN_DEC && over_median >= 2.0 {
             let mut f =
                 finding(FindingKind::Divergence, name, v.its[idx], last_it, "decades_above_min");
             f.value = above;
