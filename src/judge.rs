@@ -125,7 +125,7 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
         let Some(view) = series::View::new(s) else {
             continue;
         };
-        window_iterations = window_iterations.max(view.range(view.last_it(), window).len());
+        window_iterations = window_iterations.max(view.window(window).len());
         if view.segments > 1 && restarts.is_none_or(|(k, _)| view.segments > k) {
             restarts = Some((view.segments, view.seg_first_it()));
         }

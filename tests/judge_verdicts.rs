@@ -564,6 +564,9 @@ fn all_nan_and_zero_series() {
     let j = Run::new().add("res_k", Role::Residual, vec![0.0; 100]).judge();
     assert_eq!(j.verdict, Verdict::Suspect, "{}", explain(&j));
     assert!(j.residuals[0].drop_dec.is_nan());
+    // NaN and infinite numbers serialise (as null) rather than failing the JSON view.
+    let json = serde_json::to_string(&j).expect("judgement serialises");
+    assert!(json.contains("\"verdict\":\"suspect\""), "{json}");
     // A monitor that is zero throughout has zero drift and band.
     let j = Run::new().add("Cs", Role::Monitor, vec![0.0; 1000]).judge();
     assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
