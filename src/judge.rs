@@ -10,12 +10,47 @@
 //! * [`stationarity`]: MSER/MSER-5, batch means, integrated autocorrelation time, drift, band;
 //! * [`iterative`]: Aitken Δ² and the eigenvalue (ratio of successive differences) estimate;
 //! * [`criteria`]: the criteria in effect per series and `since` bookkeeping;
-//! * [`verdict`]: the precedence that turns findings into a verdict.
+//! * [`verdict`]: the precedence that turns findings into a verdict;
+//! * [`limits`]: the fixed thresholds at which a statistic becomes a finding, with reasons.
 //!
-//! Per-role analyses (`residual`, `monitor`, `health`, `events`) combine them. Every windowed
-//! test looks at the final window of the latest segment (at most
-//! [`series::MAX_WINDOW_POINTS`] values); the only whole-run work is a few cheap O(n) scans
-//! (peak, running minimum, non-finite values), so a judgement costs about the same at
+//! Per-role analyses (`residual`, `monitor`, `health`, `events`) combine them.
+//!
+//! # Decisions
+//!
+//! * **Segments.** Everything windowed looks at the latest segment (after the last restart);
+//!   the residual drop is measured from the peak of the whole run, so a restart does not
+//!   reset what was achieved; `since` dates stay inside the latest segment.
+//! * **Windows.** Monitor criteria (drift, band, CI) use the configured window `W` (default
+//!   500 iterations). The stall, divergence, oscillation and blow-up tests use an evidence
+//!   window of `max(W, 500)` ([`limits::MIN_EVIDENCE_WINDOW`]). The first 200 iterations of a
+//!   segment are its start-up ([`series::STARTUP_ITERATIONS`]): growth there is not
+//!   divergence and a plateau there is not a stall.
+//! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
+//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend covers 90 % of the evidence
+//!   window, and its 95 % upper bound is not below −0.1 dec/kit. Divergence: a significant
+//!   rise of ≥ 1 decade over the evidence window, a significant rise of ≥ 2 decades over its
+//!   last fifth, or 3 decades above the running minimum. Oscillation: Fisher's g at 1 %,
+//!   steady over both half windows, semi-amplitude ≥ 0.05 decades; it decides when the
+//!   residual is not falling and its criteria fail (also when met only at a trough).
+//! * **Monitors.** Drift = slope × `W` / |mean|, band = (max − min) / |mean|, over the whole
+//!   final window; MSER-5 only picks the part the mean and its CI describe. An oscillation
+//!   decides when drift or band fail and its peak-to-peak amplitude is at least half the band
+//!   limit; a small oscillation inside the limits never blocks convergence.
+//! * **Blow-up** (monitors and indicators): 2 decades above the reference level, sustained
+//!   exponential growth of ≥ 1 decade, or (indicators) pinned at a maximum ≥ 5× the usual
+//!   level. Non-finite values after the start-up, or as the last value, are divergence.
+//! * **False convergence.** Residual criteria met while a monitor fails; the solver's own
+//!   end or `converged` mark while a monitor fails; a residual repeating one value 20 times
+//!   at the end; a one-step drop of ≥ 3 decades that the drop criterion depends on; a drop
+//!   from a start-up spike (first value ≥ 2 decades below the peak, last still above it).
+//! * **Crash.** An error or crash event at the end of a log without an end-of-run mark makes
+//!   the run diverging when there were signs (a diverging finding, or a monitor or indicator
+//!   jumping ×2 — a residual ×10 — or collapsing in its last values); otherwise it is
+//!   reported without deciding.
+//!
+//! Every windowed test looks at a bounded window (at most [`series::MAX_WINDOW_POINTS`]
+//! values); the whole-run work is a few cheap O(n) passes (peak, non-finite values, the
+//! backward scan that dates the residual criteria), so a judgement costs about the same at
 //! iteration 1 000 and at iteration 1 000 000.
 
 // NaN must fail every threshold test here; `!(x > t)` says that directly, the
@@ -90,7 +125,7 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
         let Some(view) = series::View::new(s) else {
             continue;
         };
-        window_iterations = window_iterations.max(view.range(view.last_it(), window).len());
+        window_iterations = window_iterations.max(view.window(window).len());
         if view.segments > 1 && restarts.is_none_or(|(k, _)| view.segments > k) {
             restarts = Some((view.segments, view.seg_first_it()));
         }
@@ -170,7 +205,7 @@ fn false_convergence(
     window: usize,
     sink: &mut Sink,
 ) {
-    let first = last - window as i64;
+    let first = last.saturating_sub(window as i64);
     let describe = |crit: &[&str], drift: f64| -> String {
         if crit.contains(&"drift") && drift.is_finite() {
             format!("drifts {} over the last {window} iterations", text::signed_pct(drift))

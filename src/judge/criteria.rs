@@ -138,31 +138,6 @@ pub fn holds(comparison: Comparison, value: f64, threshold: f64) -> bool {
     }
 }
 
-/// Date a windowed criterion: `held(t)` says whether it held for the window ending at
-/// iteration `t`. Checkpoints `last, last − step, …` (at most [`MAX_CHECKPOINTS`], not before
-/// `floor`); returns the oldest checkpoint of the unbroken run of held ones from `last`, or
-/// `None` when it does not hold at `last`.
-pub fn since_by_checkpoints(
-    last: i64,
-    floor: i64,
-    step: i64,
-    mut held: impl FnMut(i64) -> bool,
-) -> Option<i64> {
-    let step = step.max(1);
-    if !held(last) {
-        return None;
-    }
-    let mut since = last;
-    for j in 1..MAX_CHECKPOINTS as i64 {
-        let t = last - j * step;
-        if t < floor || !held(t) {
-            break;
-        }
-        since = t;
-    }
-    Some(since)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -193,12 +168,17 @@ mod tests {
     }
 
     #[test]
-    fn checkpoints() {
-        // Holds for t ≥ 120.
-        assert_eq!(since_by_checkpoints(200, 0, 10, |t| t >= 120), Some(120));
-        assert_eq!(since_by_checkpoints(200, 0, 10, |t| t >= 300), None);
-        // Bounded look-back: never further than MAX_CHECKPOINTS − 1 steps.
-        assert_eq!(since_by_checkpoints(1000, 0, 1, |_| true), Some(1000 - 49));
+    fn comparisons_and_nan() {
         assert!(holds(Comparison::AtMost, 0.1, 0.1) && !holds(Comparison::AtLeast, f64::NAN, 0.0));
+        let r = result(
+            "drop",
+            "p",
+            Comparison::AtLeast,
+            Limit { value: 3.0, default: true },
+            f64::NAN,
+            "dec",
+            Some(4),
+        );
+        assert!(!r.met && r.since.is_none() && r.default);
     }
 }

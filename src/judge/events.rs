@@ -56,7 +56,7 @@ pub fn frequent_warnings(
     if iterations_in_window == 0 {
         return;
     }
-    let from = last_it - window as i64;
+    let from = last_it.saturating_sub(window as i64);
     let mut by_rule: BTreeMap<&str, (BTreeSet<i64>, usize)> = BTreeMap::new();
     for e in input.events.iter().map(|e| e.as_ref()) {
         let Some(it) = e.iteration else { continue };

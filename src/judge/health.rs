@@ -56,9 +56,10 @@ fn median_abs(vals: &[f64]) -> Option<f64> {
 }
 
 /// The jump of the last values against the window before them: `Some(description)` when the
-/// median |value| of the last 3 finite values is at least [`CRASH_JUMP`] times, or below
-/// `CRASH_JUMP⁻³` times, the median over the rest of the window.
-pub fn end_jump(name: &str, v: &View<'_>, window: usize) -> Option<String> {
+/// median |value| of the last 3 finite values is at least `factor` times, or below
+/// `factor⁻³` times, the median over the rest of the window ([`CRASH_JUMP`],
+/// [`CRASH_JUMP_RESIDUAL`]).
+pub fn end_jump(name: &str, v: &View<'_>, window: usize, factor: f64) -> Option<String> {
     let win = v.window(window);
     let k = win.len();
     if k < 13 {
@@ -70,9 +71,9 @@ pub fn end_jump(name: &str, v: &View<'_>, window: usize) -> Option<String> {
         return None;
     }
     let ratio = now / reference;
-    if ratio >= CRASH_JUMP {
+    if ratio >= factor {
         Some(format!("{name} grew ×{} in its last values", num(ratio)))
-    } else if ratio <= CRASH_JUMP.powi(-3) {
+    } else if ratio <= factor.powi(-3) {
         Some(format!("{name} collapsed to ×{} of its level in its last values", num(ratio)))
     } else {
         None
@@ -89,9 +90,9 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
     let startup_end = series::startup_end(seg_first);
     // Reference range: after the start-up, ending before the most recent part (half a window,
     // or half of what there is), at most four windows long.
-    let recent = ((window / 2) as i64).min((last_it - startup_end) / 2).max(1);
-    let ref_last = last_it - recent;
-    let ref_first = startup_end.max(ref_last - 4 * window as i64);
+    let recent = ((window / 2) as i64).min(last_it.saturating_sub(startup_end) / 2).max(1);
+    let ref_last = last_it.saturating_sub(recent);
+    let ref_first = startup_end.max(ref_last.saturating_sub(4 * window as i64));
     let a = v.seg + v.its[v.seg..].partition_point(|&i| i < ref_first);
     let b = v.seg + v.its[v.seg..].partition_point(|&i| i <= ref_last);
     let reference = if b > a + 10 { median_abs(&v.vals[a..b]) } else { None };

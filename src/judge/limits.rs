@@ -37,7 +37,8 @@ pub const DIVERGE_MIN_RISE_DEC: f64 = 1.0;
 pub const DIVERGE_FAST_RISE_DEC: f64 = 2.0;
 
 /// Divergence when a residual stands this many decades above its running minimum after the
-/// start-up (METHODS §6: "residual > 10²–10³ × its running minimum"; we take the upper end).
+/// start-up, over the last 20 evidence windows (METHODS §6: "residual > 10²–10³ × its running
+/// minimum"; we take the upper end).
 pub const DIVERGE_ABOVE_MIN_DEC: f64 = 3.0;
 
 /// Monitor or indicator "grows by orders of magnitude": this many decades above its reference
@@ -74,9 +75,13 @@ pub const LOW_START_DEC: f64 = 2.0;
 /// double precision carries about 16 digits and solvers lose a few).
 pub const ROUNDOFF_DROP_DEC: f64 = 12.0;
 
-/// Around a crash: a series whose last values jumped by at least this factor (or fell below
-/// its inverse cubed) against the window before them counts as a sign of blow-up (ours).
+/// Around a crash: a monitor or indicator whose last values jumped by at least this factor
+/// (or fell below its inverse cubed) against the window before them counts as a sign of
+/// blow-up (ours).
 pub const CRASH_JUMP: f64 = 2.0;
+
+/// The same for a residual, whose noise on a solver floor easily doubles it: one decade.
+pub const CRASH_JUMP_RESIDUAL: f64 = 10.0;
 
 /// Warnings of one rule in at least this share of the window's iterations are frequent.
 pub const FREQUENT_WARNING_SHARE: f64 = 0.5;

@@ -47,56 +47,100 @@ fn computed(win: &Window, w: usize) -> bool {
     win.span() as f64 >= 0.5 * w as f64 && win.len() >= 20
 }
 
-fn window_stats(win: &Window, w: usize, with_ci: bool) -> Option<Stats> {
+/// Drift and band of a window, and — with `full` — the MSER-5 transient, the mean after it
+/// and the CI half-width of that mean.
+fn window_stats(win: &Window, w: usize, full: bool) -> Option<Stats> {
     if !computed(win, w) {
         return None;
     }
     let drift = stationarity::drift_pct(&win.its_f64(), &win.vals, w as f64)?;
     let band = stationarity::band_pct(&win.vals)?;
+    if !full {
+        let mean = stats::mean(&win.vals)?;
+        return Some(Stats { drift, band, mean, ci_half: f64::NAN, transient: 0 });
+    }
     let d = stationarity::mser5(&win.vals).unwrap_or(0);
     let post = if win.len() - d >= 20 { &win.vals[d..] } else { &win.vals[..] };
     let mean = stats::mean(post)?;
-    let ci_half =
-        if with_ci { stationarity::mean_ci_half(post).unwrap_or(f64::NAN) } else { f64::NAN };
+    let ci_half = stationarity::mean_ci_half(post).unwrap_or(f64::NAN);
     Some(Stats { drift, band, mean, ci_half, transient: d })
+}
+
+/// One windowed criterion of a monitor.
+struct Crit {
+    name: &'static str,
+    lim: Limit,
+    metric: fn(&Stats) -> f64,
+    needs_ci: bool,
+}
+
+fn ci_pct(s: &Stats) -> f64 {
+    stationarity::relative_pct(s.ci_half, s.mean)
+}
+
+/// `since` of every criterion in one sweep over checkpoints `last, last − w/10, …` (at most
+/// [`criteria::MAX_CHECKPOINTS`], not before the segment start): a criterion's `since` is the
+/// oldest checkpoint of the unbroken run of checkpoints, from the end, at which it held for
+/// the window ending there (`None` when it does not hold at the end). Each checkpoint's window
+/// statistics are computed once for all criteria still holding; the sweep stops when none does.
+fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Option<i64>> {
+    let last = v.last_it();
+    let step = (w / 10).max(1) as i64;
+    let floor = v.seg_first_it();
+    let mut since: Vec<Option<i64>> =
+        crits.iter().zip(values).map(|(c, x)| (*x <= c.lim.value).then_some(last)).collect();
+    let mut alive: Vec<bool> = since.iter().map(Option::is_some).collect();
+    for j in 1..criteria::MAX_CHECKPOINTS as i64 {
+        let t = last.saturating_sub(j.saturating_mul(step));
+        if t < floor || !alive.iter().any(|a| *a) {
+            break;
+        }
+        let need_ci = crits.iter().zip(&alive).any(|(c, a)| *a && c.needs_ci);
+        let st = window_stats(&v.window_map(t, w, |x| x), w, need_ci);
+        for (i, c) in crits.iter().enumerate() {
+            if !alive[i] {
+                continue;
+            }
+            if st.as_ref().is_some_and(|s| (c.metric)(s) <= c.lim.value) {
+                since[i] = Some(t);
+            } else {
+                alive[i] = false;
+            }
+        }
+    }
+    since
 }
 
 /// Judge one monitor; pushes criteria, findings and the summary into `sink`.
 pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> MonitorFacts {
     health::non_finite(name, v, sink);
     health::blowup(name, v, rc.evidence(), false, sink);
-    let crash_sign = health::end_jump(name, v, rc.evidence());
+    let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP);
     let w = rc.window;
     let last_it = v.last_it();
     let win = v.window(w);
     // The CI is always computed for the summary; it is a criterion only when configured.
     let st = window_stats(&win, w, true);
 
-    let step = (w / 10).max(1) as i64;
-    let floor = v.seg_first_it();
-    let date = |metric: fn(&Stats) -> f64, lim: f64, ci: bool| {
-        criteria::since_by_checkpoints(last_it, floor, step, |t| {
-            let win = v.window_map(t, w, |x| x);
-            window_stats(&win, w, ci).is_some_and(|s| metric(&s) <= lim)
-        })
-    };
-    let mut facts = MonitorFacts { crash_sign, drift_pct: f64::NAN, ..Default::default() };
-    let mut push =
-        |crit: &'static str, lim: Limit, value: f64, metric: fn(&Stats) -> f64, ci: bool| {
-            let since = if value <= lim.value { date(metric, lim.value, ci) } else { None };
-            let res = criteria::result(crit, name, Comparison::AtMost, lim, value, "%", since);
-            if !res.met && !value.is_nan() {
-                facts.failing.push(crit);
-            }
-            sink.criteria.push(res);
-        };
-    let nan = f64::NAN;
-    push("drift", rc.drift, st.as_ref().map_or(nan, |s| s.drift.abs()), |s| s.drift.abs(), false);
-    push("band", rc.band, st.as_ref().map_or(nan, |s| s.band), |s| s.band, false);
-    let ci_pct = |s: &Stats| stationarity::relative_pct(s.ci_half, s.mean);
+    let mut crits = vec![
+        Crit { name: "drift", lim: rc.drift, metric: |s| s.drift.abs(), needs_ci: false },
+        Crit { name: "band", lim: rc.band, metric: |s| s.band, needs_ci: false },
+    ];
     if let Some(lim) = rc.ci {
-        push("ci", lim, st.as_ref().map_or(nan, ci_pct), ci_pct, true);
+        crits.push(Crit { name: "ci", lim, metric: ci_pct, needs_ci: true });
     }
+    let values: Vec<f64> =
+        crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| (c.metric)(s))).collect();
+    let sinces = date_all(v, w, &crits, &values);
+    let mut facts = MonitorFacts { crash_sign, drift_pct: f64::NAN, ..Default::default() };
+    for ((c, value), since) in crits.iter().zip(&values).zip(sinces) {
+        let res = criteria::result(c.name, name, Comparison::AtMost, c.lim, *value, "%", since);
+        if !res.met && !value.is_nan() {
+            facts.failing.push(c.name);
+        }
+        sink.criteria.push(res);
+    }
+    let nan = f64::NAN;
 
     let mut summary = MonitorSummary {
         series: name.into(),
@@ -224,7 +268,7 @@ fn oscillation(
     if !o.significant(OSC_ALPHA) {
         return;
     }
-    let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;
+    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
     let period = o.period * spacing;
     let amp_pct = stationarity::relative_pct(o.amplitude, mean);
     let decisive = breaks && 2.0 * amp_pct >= OSC_MONITOR_BAND_SHARE * band_limit;
@@ -261,5 +305,46 @@ pub fn analyse_indicator(
 ) -> Option<String> {
     health::non_finite(name, v, sink);
     health::blowup(name, v, window, true, sink);
-    health::end_jump(name, v, window)
+    health::end_jump(name, v, window, CRASH_JUMP)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::judge::types::SeriesInput;
+    use std::borrow::Cow;
+
+    #[test]
+    fn checkpoint_dating_is_bounded_and_stops_at_the_first_failure() {
+        // A monitor that steps from 2 to 1 at it 1000 and is constant after: the band over a
+        // 100-iteration window holds from the window ending at it 1099 on.
+        let its: Vec<i64> = (1..=3000).collect();
+        let vals: Vec<f64> = its.iter().map(|&i| if i < 1000 { 2.0 } else { 1.0 }).collect();
+        let s = SeriesInput {
+            name: Cow::Borrowed("m"),
+            iterations: Cow::Borrowed(&its),
+            values: Cow::Borrowed(&vals),
+            segment_starts: vec![0],
+            ..Default::default()
+        };
+        let v = View::new(&s).expect("non-empty");
+        let band = Crit {
+            name: "band",
+            lim: Limit { value: 0.5, default: true },
+            metric: |s| s.band,
+            needs_ci: false,
+        };
+        let since = date_all(&v, 100, std::slice::from_ref(&band), &[0.0]);
+        // Bounded look-back: 49 steps of 10 iterations from 3000.
+        assert_eq!(since, vec![Some(3000 - 490)]);
+        let short: Vec<f64> = vals[..1200].to_vec();
+        let s2 = SeriesInput {
+            values: Cow::Borrowed(&short),
+            iterations: Cow::Borrowed(&its[..1200]),
+            ..s.clone()
+        };
+        let v2 = View::new(&s2).expect("non-empty");
+        assert_eq!(date_all(&v2, 100, std::slice::from_ref(&band), &[0.0]), vec![Some(1100)]);
+        assert_eq!(date_all(&v2, 100, std::slice::from_ref(&band), &[1.0]), vec![None]);
+    }
 }

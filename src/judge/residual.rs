@@ -55,7 +55,7 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
     let last_it = v.last_it();
     let last_raw = v.vals[n - 1];
     health::non_finite(name, v, sink);
-    let crash_sign = health::end_jump(name, v, rc.evidence());
+    let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP_RESIDUAL);
 
     let Some(lv) = levels(v) else {
         // No positive value at all (all zero, negative or non-finite): nothing to measure.
@@ -201,8 +201,8 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
     // the plateau level (bounded look-back of 20 windows).
     let band = (4.0 * t.resid_sd).max(0.3);
     let ceiling = 10f64.powf(t.fitted_last + band);
-    let start = v.end_at(t.first - 1);
-    let floor_it = t.first - 20 * rc.evidence() as i64;
+    let start = v.end_at(t.first.saturating_sub(1));
+    let floor_it = t.first.saturating_sub(20 * rc.evidence() as i64);
     let mut first = t.first;
     for i in (v.seg..start).rev() {
         if v.its[i] < floor_it || v.vals[i] > ceiling || !v.vals[i].is_finite() {
@@ -222,7 +222,7 @@ fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &m
     };
     f.detail = format!(
         "{name} has not fallen for {} iterations: slope {} dec/kit (95 % CI {}…{}), {shortfall}",
-        its((t.last - first) as f64),
+        its(t.last.saturating_sub(first) as f64),
         dec(t.slope_dec_per_kit),
         dec(t.ci.0),
         dec(t.ci.1),
@@ -269,7 +269,8 @@ fn divergence(
 
     // 2. A fast rise over the last fifth of the window: blow-ups take tens of iterations and
     // barely move a fit over the whole window.
-    let short = win.from_iteration(startup_end.max(last_it - (window as i64 / 5).max(50) + 1));
+    let short = win
+        .from_iteration(startup_end.max(last_it.saturating_sub((window as i64 / 5).max(50) - 1)));
     if let (false, Some(t)) = (found, trend::fit(&short.its, &short.vals)) {
         let rise = t.slope_dec_per_kit * short.span() as f64 / 1000.0;
         if t.rising() && rise >= DIVERGE_FAST_RISE_DEC {
@@ -293,8 +294,14 @@ fn divergence(
     }
 
     // 3. Many decades above the running minimum (of block medians, so one odd value does not
-    // count) since the start-up. One O(n) pass.
-    let from = v.seg + v.its[v.seg..].partition_point(|&i| i < startup_end);
+    // count) since the start-up, looking back at most 20 windows so the cost stays bounded —
+    // and still 2 decades above the window's median level, so that the crest of a wide limit
+    // cycle does not count as growth.
+    if found {
+        return true;
+    }
+    let look_back = startup_end.max(last_it.saturating_sub(20 * window as i64));
+    let from = v.seg + v.its[v.seg..].partition_point(|&i| i < look_back);
     let n = v.len();
     let current = stats::median(
         &v.vals[n.saturating_sub(5).max(v.seg)..]
@@ -307,7 +314,8 @@ fn divergence(
     if let (Some(cur), Some(&(idx, lo))) = (current, meds.iter().min_by(|a, b| a.1.total_cmp(&b.1)))
     {
         let above = (cur / lo).log10();
-        if !found && above >= DIVERGE_ABOVE_MIN_DEC {
+        let over_median = stats::median(&win.vals).map_or(f64::INFINITY, |m| cur.log10() - m);
+        if above >= DIVERGE_ABOVE_MIN_DEC && over_median >= 2.0 {
             let mut f =
                 finding(FindingKind::Divergence, name, v.its[idx], last_it, "decades_above_min");
             f.value = above;
@@ -340,7 +348,7 @@ fn oscillation(name: &str, win: &series::Window, decisive: impl Fn(f64) -> bool,
     if !o.significant(OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
         return;
     }
-    let spacing = (its[its.len() - 1] - its[0]) as f64 / (its.len() - 1) as f64;
+    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
     let period = o.period * spacing;
     let mut f = finding(FindingKind::Oscillation, name, its[0], its[its.len() - 1], "fisher_g");
     f.value = o.g;
@@ -414,8 +422,9 @@ fn step_drop(
         sink.findings.push(f);
         return;
     }
-    // Largest single-step fall after the peak, between consecutive positive values. O(n).
-    let mut best = (0.0f64, 0usize);
+    // Largest single-step fall ratio after the peak, between consecutive positive values: one
+    // cheap O(n) pass (a division per value, the logarithm only for the winner).
+    let mut best = (1.0f64, 0usize);
     let mut prev: Option<f64> = None;
     for i in lv.peak_idx..n {
         let x = v.vals[i];
@@ -424,14 +433,15 @@ fn step_drop(
             continue;
         }
         if let Some(p) = prev {
-            let s = (p / x).log10();
-            if s > best.0 {
-                best = (s, i);
+            let r = p / x;
+            if r > best.0 {
+                best = (r, i);
             }
         }
         prev = Some(x);
     }
-    if best.0 < STEP_DROP_DEC {
+    let best = (best.0.log10(), best.1);
+    if !(best.0 >= STEP_DROP_DEC) {
         return;
     }
     let decides = drop_met_now && drop - best.0 < need;

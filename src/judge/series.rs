@@ -32,14 +32,14 @@ impl Window {
     /// Iterations spanned, last − first (0 when empty).
     pub fn span(&self) -> i64 {
         match (self.its.first(), self.its.last()) {
-            (Some(a), Some(b)) => b - a,
+            (Some(a), Some(b)) => b.saturating_sub(*a),
             _ => 0,
         }
     }
 
     pub fn its_f64(&self) -> Vec<f64> {
         let last = self.its.last().copied().unwrap_or(0);
-        self.its.iter().map(|i| (i - last) as f64).collect()
+        self.its.iter().map(|i| i.saturating_sub(last) as f64).collect()
     }
 
     /// Mean iteration spacing between samples (1 for a one-value-per-iteration history).
@@ -161,7 +161,7 @@ pub const STARTUP_ITERATIONS: i64 = 200;
 
 /// First iteration after the start-up of a segment that began at `seg_first`.
 pub fn startup_end(seg_first: i64) -> i64 {
-    seg_first + STARTUP_ITERATIONS
+    seg_first.saturating_add(STARTUP_ITERATIONS)
 }
 
 /// Medians of consecutive blocks of 5 values `f(x)` of `v` (a cheap outlier-proof summary for

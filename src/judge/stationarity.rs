@@ -19,7 +19,7 @@ fn mser_at(y: &[f64], d: usize) -> f64 {
 }
 
 /// MSER truncation (White 1997; White, Cobb & Spratt 2000): the `d ≤ d_max` minimising
-/// [`mser_at`], with the MSER values for `d = 0..=d_max`.
+/// `MSER(d) = Σ_{i>d}(Y_i − Ȳ_d)²/(n−d)²`, with the MSER values for `d = 0..=d_max`.
 ///
 /// `d_max` is clamped to `n/2` (the usual rule: a minimum beyond half the data means the
 /// series is too short to call stationary). `None` for fewer than 2 values.

@@ -69,7 +69,7 @@ pub fn fit(its: &[i64], log_r: &[f64]) -> Option<Trend> {
     }
     let last_it = *its.last()?;
     // Iterations relative to the last one: exact in f64 and well centred.
-    let x: Vec<f64> = its.iter().map(|i| (i - last_it) as f64).collect();
+    let x: Vec<f64> = its.iter().map(|i| i.saturating_sub(last_it) as f64).collect();
     let ols = stats::ols(&x, log_r)?;
     let noise = stats::quadratic_residuals(log_r);
     let nf = n as f64;
