@@ -236,6 +236,7 @@ pub fn run_headless(
         runs.iter().map(|_| HeadlessState::new(opts.heartbeat)).collect();
     let mut dirty = vec![true; runs.len()];
     let mut last_judged: Vec<Option<Instant>> = vec![None; runs.len()];
+    let mut costs: Vec<Duration> = vec![Duration::ZERO; runs.len()];
     let mut announced_end = vec![false; runs.len()];
     let tick = Duration::from_millis(1000).min(opts.refresh.max(Duration::from_millis(50)));
     let result = loop {
@@ -276,10 +277,14 @@ pub fn run_headless(
         }
         let now = Instant::now();
         let wall = SystemTime::now();
+        let active = runs.iter().filter(|r| r.store.last_iteration().is_some()).count();
         for (i, run) in runs.iter_mut().enumerate() {
-            let due = last_judged[i].is_none_or(|t| now.duration_since(t) >= opts.refresh);
+            let gap = tui::app::judge_gap(opts.refresh, costs[i], active);
+            let due = last_judged[i].is_none_or(|t| now.duration_since(t) >= gap);
             if dirty[i] && due && run.store.last_iteration().is_some() {
+                let started = Instant::now();
                 run.judgement = judge::judge(&run.store.judge_input(), &run.criteria);
+                costs[i] = started.elapsed();
                 dirty[i] = false;
                 last_judged[i] = Some(now);
             }

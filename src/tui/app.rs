@@ -92,6 +92,18 @@ impl RateMeter {
     }
 }
 
+/// Least time between two judgements of one run: the refresh interval, stretched so that
+/// judging all `active` runs takes at most about 5 % of one core (each judgement costing
+/// `cost`). One run is judged every refresh; 200 runs of 20 ms each about once a minute.
+pub fn judge_gap(
+    refresh: std::time::Duration,
+    cost: std::time::Duration,
+    active: usize,
+) -> std::time::Duration {
+    const SHARE: u32 = 20;
+    refresh.max(cost * SHARE * active.max(1) as u32)
+}
+
 /// One run with its app-side state.
 pub(crate) struct Slot {
     pub live: LiveRun,
@@ -100,6 +112,9 @@ pub(crate) struct Slot {
     pub ack: Option<Verdict>,
     /// New data since the last judgement.
     dirty: bool,
+    /// When this run was last judged and how long that took (see [`judge_gap`]).
+    last_judged: Option<SystemTime>,
+    judge_cost: std::time::Duration,
     rate: RateMeter,
     /// Records per source when the view was paused.
     frozen: Option<Vec<usize>>,
@@ -215,6 +230,8 @@ impl App {
                 view,
                 ack: None,
                 dirty,
+                last_judged: None,
+                judge_cost: std::time::Duration::ZERO,
                 rate: RateMeter::default(),
                 frozen: None,
                 pending: 0,
@@ -391,12 +408,19 @@ impl App {
         if judging {
             self.last_refresh = Some(now);
         }
+        let active = self.slots.iter().filter(|s| s.live.store.last_iteration().is_some()).count();
         for i in 0..self.slots.len() {
             let slot = &mut self.slots[i];
             let changed;
-            if judging && slot.dirty {
+            let gap = judge_gap(self.opts.refresh, slot.judge_cost, active);
+            let budget_ok =
+                slot.last_judged.is_none_or(|t| now.duration_since(t).map_or(true, |d| d >= gap));
+            if judging && slot.dirty && budget_ok {
                 slot.dirty = false;
+                let started = std::time::Instant::now();
                 slot.live.judgement = (self.judge)(&slot.live.store, &slot.live.criteria);
+                slot.judge_cost = started.elapsed();
+                slot.last_judged = Some(now);
                 slot.live.stale = is_stale(&slot.live, now, self.opts.stale_limit);
                 changed = true;
             } else {
@@ -768,4 +792,20 @@ fn stale_transition(live: &LiveRun, limit: Duration) -> Option<SystemTime> {
     }
     let last = live.activity.iter().filter_map(|a| a.last_growth).max()?;
     Some(last + limit + Duration::from_millis(1))
+}
+
+#[cfg(test)]
+mod budget_tests {
+    use super::judge_gap;
+    use std::time::Duration;
+
+    #[test]
+    fn judging_many_runs_is_spread_out() {
+        let refresh = Duration::from_secs(1);
+        // One run: the refresh interval decides.
+        assert_eq!(judge_gap(refresh, Duration::from_millis(20), 1), refresh);
+        // 200 runs of 20 ms: 20 × 200 × 20 ms = 80 s between judgements of one run.
+        assert_eq!(judge_gap(refresh, Duration::from_millis(20), 200), Duration::from_secs(80));
+        assert_eq!(judge_gap(refresh, Duration::ZERO, 0), refresh);
+    }
 }
