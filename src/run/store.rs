@@ -481,6 +481,24 @@ mod tests {
     }
 
     #[test]
+    fn dense_series_cost_about_eight_bytes_per_value() {
+        // DESIGN §10: at most about 10 bytes per value. 12 series × 50 000 records, dense.
+        let mut s = SourceStore::new("log", "t");
+        s.apply((0..12).map(|i| info(i, &format!("s{i}"))));
+        for it in 1..=50_000 {
+            let values: Vec<(u32, f64)> = (0..12).map(|i| (i, it as f64)).collect();
+            s.apply([rec(it, &values)]);
+        }
+        let values = 12 * 50_000;
+        let used = values * 8 + s.records() * 8;
+        assert!(used as f64 / values as f64 <= 9.0);
+        // Capacity may run ahead of length by the growth factor of `Vec` (at most 2×).
+        let held = s.heap_bytes() as f64 / values as f64;
+        assert!(held <= 18.0, "{held} bytes per value held");
+        assert!(s.series().iter().all(|x| matches!(x.placement, Placement::Dense { .. })));
+    }
+
+    #[test]
     fn records_without_iteration_are_numbered() {
         let mut s = SourceStore::new("log", "t");
         s.apply([info(0, "p")]);
