@@ -183,7 +183,7 @@ pub fn from_files(files: &[PathBuf], parser: Option<&str>) -> RunSpec {
     let dir = dir.unwrap_or_else(|| PathBuf::from("."));
     let name = match files {
         [one] => one
-            .file_stem()
+            .file_name()
             .map(|s| format!("{}/{}", dir_name(&dir), s.to_string_lossy()))
             .unwrap_or_else(|| dir_name(&dir)),
         _ => dir_name(&dir),
@@ -326,7 +326,7 @@ command = ["scancel", "{job}"]
     #[test]
     fn runs_from_files_are_named_after_their_directory() {
         let spec = from_files(&[PathBuf::from("cases/wing/run.log")], Some("tarn"));
-        assert_eq!(spec.name, "wing/run");
+        assert_eq!(spec.name, "wing/run.log");
         assert_eq!(spec.sources[0].parser.as_deref(), Some("tarn"));
         let spec =
             from_files(&[PathBuf::from("cases/wing/a.log"), "cases/wing/b.csv".into()], None);
