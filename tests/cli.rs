@@ -52,14 +52,10 @@ fn write_case(
 fn sample_records(section: &str) -> u64 {
     let readme = std::fs::read_to_string(samples().join("README.md")).unwrap();
     let part = readme.split(&format!("## `{section}")).nth(1).unwrap();
-    let line = part.lines().find(|l| l.contains("steps (records): ") || l.contains("rows: ")).unwrap();
-    let digits: String = line
-        .split(": ")
-        .nth(1)
-        .unwrap()
-        .chars()
-        .take_while(char::is_ascii_digit)
-        .collect();
+    let line =
+        part.lines().find(|l| l.contains("steps (records): ") || l.contains("rows: ")).unwrap();
+    let digits: String =
+        line.split(": ").nth(1).unwrap().chars().take_while(char::is_ascii_digit).collect();
     digits.parse().unwrap()
 }
 

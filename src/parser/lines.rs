@@ -20,9 +20,7 @@ pub mod compile;
 
 use std::sync::Arc;
 
-use regex::bytes::CaptureLocations;
-
-use super::matcher::{Matcher, leading_ws};
+use super::matcher::{Captures, Gate, Matcher, leading_ws};
 use super::number::{parse_integer, parse_number};
 use super::series::{FnvMap, LineUse, SeriesTable, Tally, clean_text, excerpt};
 use crate::record::{Event, LineStats, Output, Record, Role, SeriesId, Severity};
@@ -115,6 +113,66 @@ pub struct LinesProgram {
     pub events: Vec<usize>,
     pub ends: Vec<usize>,
     pub anchors: Vec<Matcher>,
+    pub dispatch: Dispatch,
+}
+
+/// Which rules a line can match at all, from its first bytes: one table lookup per line
+/// instead of one prefilter test per rule. Bit `r` of a mask stands for rule `r`; rules past
+/// the 64th are not indexed and always tried.
+#[derive(Debug, Clone)]
+pub struct Dispatch {
+    /// By the line's first byte (index 256: empty line).
+    col0: Box<[u64; 257]>,
+    /// By the first byte after the leading blanks (index 256: none).
+    after_blanks: Box<[u64; 257]>,
+    /// Rules with no usable gate.
+    always: u64,
+}
+
+impl Dispatch {
+    pub fn new(rules: &[Rule]) -> Dispatch {
+        let mut d =
+            Dispatch { col0: Box::new([0; 257]), after_blanks: Box::new([0; 257]), always: 0 };
+        for (r, rule) in rules.iter().enumerate().take(64) {
+            let bit = 1u64 << r;
+            match rule.matcher.gate() {
+                Gate::Any => d.always |= bit,
+                Gate::Col0(set) => {
+                    for b in 0..=255u8 {
+                        if set.contains(b) {
+                            d.col0[usize::from(b)] |= bit;
+                        }
+                    }
+                }
+                Gate::AfterBlanks { set, .. } => {
+                    for b in 0..=255u8 {
+                        if set.contains(b) {
+                            d.after_blanks[usize::from(b)] |= bit;
+                        }
+                    }
+                }
+            }
+        }
+        d
+    }
+
+    /// The rules `line` (with `ws` leading blanks) may match.
+    #[inline]
+    fn candidates(&self, line: &[u8], ws: usize) -> Candidates {
+        let at = |i: usize| line.get(i).map_or(256, |&b| usize::from(b));
+        Candidates(self.always | self.col0[at(0)] | self.after_blanks[at(ws)])
+    }
+}
+
+/// A set of rule indices from [`Dispatch::candidates`].
+#[derive(Debug, Clone, Copy)]
+struct Candidates(u64);
+
+impl Candidates {
+    #[inline]
+    fn has(self, r: usize) -> bool {
+        r >= 64 || (self.0 >> r) & 1 != 0
+    }
 }
 
 /// Values gathered for one record, with the repeat policy applied as they arrive.
@@ -185,7 +243,7 @@ impl Accum {
 /// Mutable per-rule state.
 #[derive(Debug, Clone)]
 struct RuleState {
-    locs: CaptureLocations,
+    locs: Captures,
     /// Series id of each value capture with a fixed name, once created.
     fixed: Vec<Option<SeriesId>>,
     /// Series ids by captured name bytes, per value capture using `{name}`.
@@ -232,6 +290,9 @@ struct State {
     /// Incremented whenever a record opens; anchors and `first` events are per scope.
     scope: u64,
     anchor_seen: Vec<u64>,
+    /// Capture storage for each anchor, and for the `start_after` marker.
+    anchor_caps: Vec<Captures>,
+    start_caps: Option<Captures>,
     rules: Vec<RuleState>,
     series: SeriesTable,
     failure: Option<Failure>,
@@ -243,7 +304,7 @@ impl LinesParser {
             .rules
             .iter()
             .map(|r| RuleState {
-                locs: r.matcher.regex.capture_locations(),
+                locs: r.matcher.captures_storage(),
                 fixed: vec![None; r.values.len()],
                 named: r.values.iter().map(|_| FnvMap::default()).collect(),
                 fired_scope: 0,
@@ -258,6 +319,8 @@ impl LinesParser {
             pending: Accum::new(),
             scope: 1,
             anchor_seen: vec![0; prog.anchors.len()],
+            anchor_caps: prog.anchors.iter().map(Matcher::captures_storage).collect(),
+            start_caps: prog.start_after.as_ref().map(Matcher::captures_storage),
             rules,
             series: SeriesTable::default(),
             failure: None,
@@ -291,12 +354,17 @@ impl State {
         let steps_apply = self.started;
         if !self.started
             && let Some(marker) = &prog.start_after
-            && marker.is_match(line, ws)
+            && let Some(caps) = &mut self.start_caps
+            && marker.find(line, ws, caps)
         {
             self.started = true;
         }
+        let cand = prog.dispatch.candidates(line, ws);
         if steps_apply {
             for &r in &prog.steps {
+                if !cand.has(r) {
+                    continue;
+                }
                 let u = self.step_rule(prog, r, line, ws, out);
                 if u != LineUse::Ignored {
                     used = used.and(u);
@@ -304,20 +372,25 @@ impl State {
                 }
             }
             for &r in &prog.values {
-                used = used.and(self.value_rule(prog, r, line, ws, out));
+                if cand.has(r) {
+                    used = used.and(self.value_rule(prog, r, line, ws, out));
+                }
             }
         }
         for &r in &prog.events {
-            used = used.and(self.event_rule(prog, r, line, ws, out));
+            if cand.has(r) {
+                used = used.and(self.event_rule(prog, r, line, ws, out));
+            }
         }
         for &r in &prog.ends {
-            if self.end_rule(prog, r, line, ws, out) {
+            if cand.has(r) && self.end_rule(prog, r, line, ws, out) {
                 used = used.and(LineUse::Used);
                 break;
             }
         }
         for (i, anchor) in prog.anchors.iter().enumerate() {
-            if self.anchor_seen[i] != self.scope && anchor.is_match(line, ws) {
+            if self.anchor_seen[i] != self.scope && anchor.find(line, ws, &mut self.anchor_caps[i])
+            {
                 self.anchor_seen[i] = self.scope;
                 used = used.and(LineUse::Used);
             }
@@ -360,10 +433,7 @@ impl State {
         out: &mut Vec<Output>,
     ) -> LineUse {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return LineUse::Ignored;
-        }
-        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
             return LineUse::Ignored;
         }
         let mut result = LineUse::Used;
@@ -402,15 +472,12 @@ impl State {
         out: &mut Vec<Output>,
     ) -> LineUse {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return LineUse::Ignored;
-        }
         if let Some(a) = rule.after
             && self.anchor_seen[a] != self.scope
         {
             return LineUse::Ignored;
         }
-        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
             return LineUse::Ignored;
         }
         let next = rule.attach == Attach::Next;
@@ -499,16 +566,13 @@ impl State {
         out: &mut Vec<Output>,
     ) -> LineUse {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return LineUse::Ignored;
-        }
         if let Some(a) = rule.after
             && self.anchor_seen[a] != self.scope
         {
             return LineUse::Ignored;
         }
         let rs = &mut self.rules[r];
-        if rule.matcher.regex.captures_read(&mut rs.locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut rs.locs) {
             return LineUse::Ignored;
         }
         if rule.repeat == Repeat::First {
@@ -540,10 +604,7 @@ impl State {
         out: &mut Vec<Output>,
     ) -> bool {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return false;
-        }
-        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
             return false;
         }
         let text = match rule.message_group.and_then(|g| self.rules[r].locs.get(g)) {
