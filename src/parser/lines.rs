@@ -246,8 +246,12 @@ struct RuleState {
     locs: Captures,
     /// Series id of each value capture with a fixed name, once created.
     fixed: Vec<Option<SeriesId>>,
-    /// Series ids by captured name bytes, per value capture using `{name}`.
-    named: Vec<FnvMap<Box<[u8]>, SeriesId>>,
+    /// Captured name bytes → row of `named_ids`: one lookup per line, however many value
+    /// captures use `{name}`.
+    names: FnvMap<Box<[u8]>, usize>,
+    /// Row-major, one row per known name and one column per value capture: the series id of
+    /// that capture for that name, once created.
+    named_ids: Vec<Option<SeriesId>>,
     /// Scope in which this (event) rule last fired, for `repeat = "first"`.
     fired_scope: u64,
 }
@@ -306,7 +310,8 @@ impl LinesParser {
             .map(|r| RuleState {
                 locs: r.matcher.captures_storage(),
                 fixed: vec![None; r.values.len()],
-                named: r.values.iter().map(|_| FnvMap::default()).collect(),
+                names: FnvMap::default(),
+                named_ids: Vec::new(),
                 fired_scope: 0,
             })
             .collect();
@@ -502,6 +507,9 @@ impl State {
         let rs = &mut rules[r];
         let target = if next { pending } else { cur };
         let name = rule.name_group.and_then(|g| rs.locs.get(g)).map(|(s, e)| &line[s..e]);
+        let width = rule.values.len();
+        // The row of `name` in `named_ids`, found on first need (`None`: not cached).
+        let mut row: Option<Option<usize>> = None;
         for (ci, vc) in rule.values.iter().enumerate() {
             let Some((s, e)) = rs.locs.get(vc.group) else { continue };
             let Some(v) = parse_number(&line[s..e]) else {
@@ -515,8 +523,22 @@ impl State {
                     result = LineUse::Skipped;
                     continue;
                 };
-                match rs.named[ci].get(key) {
-                    Some(&id) => Some(id),
+                let at = *row.get_or_insert_with(|| {
+                    if let Some(&at) = rs.names.get(key) {
+                        return Some(at);
+                    }
+                    // Junk names could otherwise grow the cache without bound.
+                    if rs.names.len() >= 4 * super::series::MAX_SERIES {
+                        return None;
+                    }
+                    let at = rs.names.len();
+                    rs.names.insert(key.into(), at);
+                    rs.named_ids.resize(rs.named_ids.len() + width, None);
+                    Some(at)
+                });
+                let cell = at.map(|at| at * width + ci);
+                match cell.and_then(|c| rs.named_ids.get(c).copied().flatten()) {
+                    Some(id) => Some(id),
                     None => {
                         let cleaned = clean_text(key);
                         if cleaned.is_empty() {
@@ -526,10 +548,8 @@ impl State {
                         }
                         let id =
                             series.intern(&vc.series.replace("{name}", &cleaned), vc.role, out);
-                        if let Some(id) = id
-                            && rs.named[ci].len() < 4 * super::series::MAX_SERIES
-                        {
-                            rs.named[ci].insert(key.into(), id);
+                        if let Some(c) = cell.and_then(|c| rs.named_ids.get_mut(c)) {
+                            *c = id;
                         }
                         id
                     }

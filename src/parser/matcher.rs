@@ -55,9 +55,6 @@ pub enum Lead {
 pub struct Matcher {
     pub regex: Regex,
     pub prefilter: Prefilter,
-    /// The prefilter literal was declared (`literal = "..."`), not read off the pattern: the
-    /// pattern need not contain it, so it is checked even when the pattern matches.
-    declared: bool,
     fast: Option<Pattern>,
 }
 
@@ -133,7 +130,7 @@ impl Matcher {
         // The backtracker must number groups as the regex does; anything else is a bug in
         // its parser, and the regex alone is then used.
         let fast = Pattern::compile(pattern).filter(|p| p.groups() == regex.captures_len());
-        Ok(Matcher { regex, prefilter, declared: literal.is_some(), fast })
+        Ok(Matcher { regex, prefilter, fast })
     }
 
     /// Fresh capture storage sized for this matcher.
@@ -170,19 +167,10 @@ impl Matcher {
         true
     }
 
-    /// Does `line` match (prefilter included)? The groups are left in `caps`.
-    ///
-    /// The cheaper test runs first: a prefix test before any search, but a declared literal
-    /// (a `memmem` over the whole line) only after the backtracker found a match, since the
-    /// backtracker rejects most lines sooner than the literal search would.
+    /// Does `line` match (prefilter first)? The groups are left in `caps`.
     #[inline]
     pub fn find(&self, line: &[u8], lead_ws: usize, caps: &mut Captures) -> bool {
-        match &self.prefilter {
-            Prefilter::Contains(f) if self.declared && self.fast.is_some() => {
-                self.captures(line, caps) && f.find(line).is_some()
-            }
-            _ => self.may_match(line, lead_ws) && self.captures(line, caps),
-        }
+        self.may_match(line, lead_ws) && self.captures(line, caps)
     }
 
     /// A necessary condition on a matching line's first bytes, for dispatching lines to rules:

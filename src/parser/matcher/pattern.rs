@@ -461,28 +461,39 @@ enum Inst {
     Match,
 }
 
-/// Index of a byte table in [`Pattern::tables`].
-type Table = u16;
-/// "No table": the continuation after a run can start without consuming a byte.
-const NO_TABLE: Table = Table::MAX;
+/// A byte set as a lookup table: one load per byte test, no bounds check for a `u8` index.
+type Table = Box<[bool; 256]>;
 
-/// One instruction as run: sets are indices of 256-entry tables (one load per byte test).
+fn table(s: &ByteSet) -> Table {
+    Box::new(std::array::from_fn(|b| s.contains(b as u8)))
+}
+
+/// One instruction as run: sets are 256-entry tables.
 #[derive(Debug, Clone)]
 enum Op {
     Byte(u8),
     Lit(Box<[u8]>),
-    Set(Table),
+    /// One byte from the set. `before`/`after`: capture slots written at the start and end
+    /// of the item ([`NO_SLOT`] for none), the `Save`s around it fused in.
+    Set {
+        set: Table,
+        before: u32,
+        after: u32,
+    },
     /// A single-byte item repeated `min..=max` times. `follow`: the bytes the rest of the
-    /// program can start with ([`NO_TABLE`] when it can start without consuming one), so
-    /// positions where the rest must fail are skipped. `possessive`: the rest can never start
-    /// with a byte of the set, so a greedy run never gives bytes back.
+    /// program can start with (`None` when it can start without consuming one), so positions
+    /// where the rest must fail are skipped. `possessive`: giving bytes back can never help
+    /// (the rest cannot start with a byte of the set, or surely matches), so a greedy run
+    /// leaves no choice behind. `before`/`after` as for `Set`.
     Run {
         set: Table,
-        follow: Table,
+        follow: Option<Table>,
         min: u32,
         max: u32,
         greedy: bool,
         possessive: bool,
+        before: u32,
+        after: u32,
     },
     Split(u32, u32),
     Jmp(u32),
@@ -537,7 +548,6 @@ pub enum Gate {
 #[derive(Debug, Clone)]
 pub struct Pattern {
     ops: Vec<Op>,
-    tables: Vec<[bool; 256]>,
     /// Capture groups including group 0 (the whole match).
     groups: usize,
     /// Every match starts at position 0.
@@ -546,6 +556,10 @@ pub struct Pattern {
     start_set: ByteSet,
     start_nullable: bool,
     gate: Gate,
+    /// The program never needs to backtrack beyond "fall back to the last optional part":
+    /// every run is possessive, there are no loops, and the skip branch of every choice surely
+    /// matches. [`Pattern::forward`] runs it without a backtracking stack.
+    forward: bool,
 }
 
 impl Pattern {
@@ -561,54 +575,26 @@ impl Pattern {
         c.push(Inst::Save(1))?;
         c.push(Inst::Match)?;
         let insts = c.insts;
-        let mut tables: Vec<ByteSet> = Vec::new();
-        let mut table = |s: ByteSet| -> Option<Table> {
-            let i = match tables.iter().position(|t| *t == s) {
-                Some(i) => i,
-                None => {
-                    tables.push(s);
-                    tables.len() - 1
-                }
-            };
-            Table::try_from(i).ok().filter(|&t| t != NO_TABLE)
-        };
-        let mut ops = Vec::with_capacity(insts.len());
-        for (pc, inst) in insts.iter().enumerate() {
-            ops.push(match inst {
-                Inst::Byte(b) => Op::Byte(*b),
-                Inst::Lit(l) => Op::Lit(l.clone()),
-                Inst::Set(s) => Op::Set(table(*s)?),
-                Inst::Run { set, min, max, greedy } => {
-                    let (follow, nullable) = first_bytes(&insts, pc + 1);
-                    Op::Run {
-                        set: table(*set)?,
-                        follow: if nullable { NO_TABLE } else { table(follow)? },
-                        min: *min,
-                        max: *max,
-                        greedy: *greedy,
-                        possessive: *greedy
-                            && ((!nullable && set.is_disjoint(&follow))
-                                || surely_matches(&insts, pc + 1)),
-                    }
-                }
-                Inst::Split(x, y) => Op::Split(*x, *y),
-                Inst::Jmp(x) => Op::Jmp(*x),
-                Inst::Save(s) => Op::Save(*s),
-                Inst::Look(l) => Op::Look(*l),
-                Inst::Match => Op::Match,
-            });
-        }
+        let ops = lower(&insts)?;
         let anchored = matches!(insts.get(1), Some(Inst::Look(Look::Start)));
         let (start_set, start_nullable) = first_bytes(&insts, 1);
         let gate = gate(&insts, anchored);
+        let forward = ops.iter().all(|op| match op {
+            Op::Run { possessive, .. } => *possessive,
+            Op::Jmp(_) => false,
+            _ => true,
+        }) && insts.iter().all(|i| match i {
+            Inst::Split(_, y) => surely_matches(&insts, *y as usize),
+            _ => true,
+        });
         Some(Pattern {
             ops,
-            tables: tables.iter().map(|s| std::array::from_fn(|b| s.contains(b as u8))).collect(),
             groups: sp.groups as usize + 1,
             anchored,
             start_set,
             start_nullable,
             gate,
+            forward,
         })
     }
 
@@ -633,13 +619,113 @@ impl Pattern {
             if !self.start_nullable && hay.get(start).is_none_or(|&b| !self.start_set.contains(b)) {
                 continue;
             }
-            slots.fill(NONE);
-            match self.run(hay, start, slots, stack, &mut budget) {
-                Outcome::NoMatch => {}
-                done => return done,
+            for s in slots.iter_mut() {
+                *s = NONE;
+            }
+            let outcome = if self.forward {
+                self.forward(hay, start, slots, stack)
+            } else {
+                self.run(hay, start, slots, stack, &mut budget)
+            };
+            if outcome != Outcome::NoMatch {
+                return outcome;
             }
         }
         Outcome::NoMatch
+    }
+
+    /// Run a [`Pattern::forward`] program from `start`: one pass, no choice stack. A choice
+    /// `Split(x, y)` remembers `y` as the fallback and journals the slot writes made after it;
+    /// a failure undoes them and resumes at `y`. An older fallback is never needed again: `y`
+    /// surely matches, so the backtracker would never return past it either. `journal` is the
+    /// backtracker's stack, borrowed as scratch.
+    fn forward(
+        &self,
+        hay: &[u8],
+        start: usize,
+        slots: &mut [usize],
+        journal: &mut Vec<Frame>,
+    ) -> Outcome {
+        let ops = &self.ops[..];
+        let mut pc = 0usize;
+        let mut pos = start;
+        // Fallback: resume at `fb_pc` (when not `usize::MAX`) from `fb_pos`.
+        let mut fb_pc = usize::MAX;
+        let mut fb_pos = 0;
+        let mut fallbacks = 0usize;
+        journal.clear();
+        loop {
+            let fb = fb_pc != usize::MAX;
+            let ok = match ops.get(pc) {
+                Some(Op::Byte(b)) => {
+                    let ok = hay.get(pos) == Some(b);
+                    pos += usize::from(ok);
+                    ok
+                }
+                Some(Op::Lit(lit)) => {
+                    let ok = hay.len() - pos >= lit.len()
+                        && hay[pos..].iter().zip(lit.iter()).all(|(a, b)| a == b);
+                    if ok {
+                        pos += lit.len();
+                    }
+                    ok
+                }
+                Some(Op::Set { set, before, after }) => {
+                    let ok = hay.get(pos).is_some_and(|&b| set[usize::from(b)]);
+                    if ok {
+                        write(slots, journal, fb, *before, pos);
+                        pos += 1;
+                        write(slots, journal, fb, *after, pos);
+                    }
+                    ok
+                }
+                Some(Op::Run { set, min, max, before, after, .. }) => {
+                    let rest = &hay[pos..];
+                    let avail = &rest[..rest.len().min(*max as usize)];
+                    let n = avail.iter().position(|&b| !set[usize::from(b)]).unwrap_or(avail.len());
+                    let ok = n >= *min as usize;
+                    if ok {
+                        write(slots, journal, fb, *before, pos);
+                        pos += n;
+                        write(slots, journal, fb, *after, pos);
+                    }
+                    ok
+                }
+                Some(Op::Split(x, y)) => {
+                    fb_pc = *y as usize;
+                    fb_pos = pos;
+                    journal.clear();
+                    pc = *x as usize;
+                    continue;
+                }
+                Some(Op::Save(s)) => {
+                    write(slots, journal, fb, *s, pos);
+                    true
+                }
+                Some(Op::Look(look)) => look.holds(hay, pos),
+                Some(Op::Match) => return Outcome::Matched,
+                Some(Op::Jmp(_)) | None => return Outcome::GaveUp,
+            };
+            if ok {
+                pc += 1;
+                continue;
+            }
+            if !fb {
+                return Outcome::NoMatch;
+            }
+            fallbacks += 1;
+            if fallbacks > ops.len() {
+                return Outcome::GaveUp;
+            }
+            while let Some(f) = journal.pop() {
+                if let Some(cell) = slots.get_mut(f.pc as usize) {
+                    *cell = f.a;
+                }
+            }
+            pc = fb_pc;
+            pos = fb_pos;
+            fb_pc = usize::MAX;
+        }
     }
 
     fn run(
@@ -652,7 +738,6 @@ impl Pattern {
     ) -> Outcome {
         stack.clear();
         let ops = &self.ops[..];
-        let tables = &self.tables[..];
         let len = hay.len();
         let mut pc = 0usize;
         let mut pos = start;
@@ -665,19 +750,26 @@ impl Pattern {
                     ok
                 }
                 Op::Lit(lit) => {
-                    let ok = hay.get(pos..pos + lit.len()) == Some(&lit[..]);
+                    // Literals are short: a byte loop beats a `memcmp` call.
+                    let ok = hay.len() - pos >= lit.len()
+                        && hay[pos..].iter().zip(lit.iter()).all(|(a, b)| a == b);
                     if ok {
                         pos += lit.len();
                     }
                     ok
                 }
-                Op::Set(t) => {
-                    let ok = hay.get(pos).is_some_and(|&b| tables[usize::from(*t)][usize::from(b)]);
-                    pos += usize::from(ok);
+                Op::Set { set, before, after } => {
+                    save(stack, slots, *before, pos);
+                    let ok = hay.get(pos).is_some_and(|&b| set[usize::from(b)]);
+                    if ok {
+                        pos += 1;
+                        save(stack, slots, *after, pos);
+                    }
                     ok
                 }
-                Op::Run { set, min, max, greedy, possessive, .. } => {
-                    let t = &tables[usize::from(*set)];
+                Op::Run { set, min, max, greedy, possessive, before, after, .. } => {
+                    save(stack, slots, *before, pos);
+                    let t = &**set;
                     let (min, max) = (*min as usize, *max as usize);
                     let rest = &hay[pos..];
                     if *greedy {
@@ -696,6 +788,7 @@ impl Pattern {
                                 });
                             }
                             pos += n;
+                            save(stack, slots, *after, pos);
                             true
                         }
                     } else {
@@ -711,6 +804,7 @@ impl Pattern {
                                     b: min,
                                 });
                             }
+                            save(stack, slots, *after, pos);
                         }
                         ok
                     }
@@ -729,16 +823,7 @@ impl Pattern {
                     continue;
                 }
                 Op::Save(s) => {
-                    let s = *s as usize;
-                    if !stack.is_empty() {
-                        stack.push(Frame {
-                            kind: FrameKind::Restore,
-                            pc: s as u32,
-                            a: slots[s],
-                            b: 0,
-                        });
-                    }
-                    slots[s] = pos;
+                    save(stack, slots, *s, pos);
                     true
                 }
                 Op::Look(look) => look.holds(hay, pos),
@@ -752,7 +837,9 @@ impl Pattern {
             loop {
                 let Some(f) = stack.pop() else { return Outcome::NoMatch };
                 if f.kind == FrameKind::Restore {
-                    slots[f.pc as usize] = f.a;
+                    if let Some(cell) = slots.get_mut(f.pc as usize) {
+                        *cell = f.a;
+                    }
                     continue;
                 }
                 if *budget == 0 {
@@ -764,10 +851,10 @@ impl Pattern {
                     pos = f.a;
                     break;
                 }
-                let Some(Op::Run { set, follow, max, .. }) = ops.get(f.pc as usize) else {
+                let Some(Op::Run { set, follow, max, after, .. }) = ops.get(f.pc as usize) else {
                     return Outcome::GaveUp;
                 };
-                let follow = tables.get(usize::from(*follow));
+                let follow = follow.as_deref();
                 let fails_at = |at: usize| {
                     follow.is_some_and(|t| hay.get(at).is_none_or(|&b| !t[usize::from(b)]))
                 };
@@ -785,10 +872,11 @@ impl Pattern {
                     }
                     pc = f.pc as usize + 1;
                     pos = at;
+                    save(stack, slots, *after, pos);
                     break;
                 }
                 // Lazy: take one more byte, and more while the rest must fail.
-                let t = &tables[usize::from(*set)];
+                let t = &**set;
                 let (max, mut at, mut count) = (*max as usize, f.a, f.b);
                 let mut resumed = false;
                 while count < max && at < len && t[usize::from(hay[at])] {
@@ -805,11 +893,122 @@ impl Pattern {
                     }
                     pc = f.pc as usize + 1;
                     pos = at;
+                    save(stack, slots, *after, pos);
                     break;
                 }
             }
         }
     }
+}
+
+/// Write `pos` into capture slot `slot` (unless [`NO_SLOT`]) for [`Pattern::forward`],
+/// journalling the old value while a fallback is active.
+#[inline(always)]
+fn write(slots: &mut [usize], journal: &mut Vec<Frame>, fb: bool, slot: u32, pos: usize) {
+    if slot == NO_SLOT {
+        return;
+    }
+    if let Some(cell) = slots.get_mut(slot as usize) {
+        if fb {
+            journal.push(Frame { kind: FrameKind::Restore, pc: slot, a: *cell, b: 0 });
+        }
+        *cell = pos;
+    }
+}
+
+/// "No capture slot" in a fused `Set` or `Run`.
+const NO_SLOT: u32 = u32::MAX;
+
+/// Write `pos` into capture slot `slot` (unless [`NO_SLOT`]), recording the old value when a
+/// choice below could make the backtracker return here.
+#[inline(always)]
+fn save(stack: &mut Vec<Frame>, slots: &mut [usize], slot: u32, pos: usize) {
+    if slot == NO_SLOT {
+        return;
+    }
+    let Some(cell) = slots.get_mut(slot as usize) else { return };
+    if !stack.is_empty() {
+        stack.push(Frame { kind: FrameKind::Restore, pc: slot, a: *cell, b: 0 });
+    }
+    *cell = pos;
+}
+
+/// Turn the analysed program into runnable ops: sets become tables, runs learn what may
+/// follow them, and a `Save` right before or after a `Set` or `Run` is fused into it (one
+/// dispatch instead of two) unless a jump lands between them.
+fn lower(insts: &[Inst]) -> Option<Vec<Op>> {
+    let mut target = vec![false; insts.len() + 1];
+    for i in insts {
+        match i {
+            Inst::Split(x, y) => {
+                target[*x as usize] = true;
+                target[*y as usize] = true;
+            }
+            Inst::Jmp(x) => target[*x as usize] = true,
+            _ => {}
+        }
+    }
+    let fusable = |pc: usize| matches!(insts.get(pc), Some(Inst::Set(_) | Inst::Run { .. }));
+    let mut new_pc = vec![0u32; insts.len() + 1];
+    let mut ops = Vec::with_capacity(insts.len());
+    let mut pc = 0;
+    while pc < insts.len() {
+        new_pc[pc] = u32::try_from(ops.len()).ok()?;
+        let mut before = NO_SLOT;
+        if let Inst::Save(s) = insts[pc]
+            && fusable(pc + 1)
+            && !target[pc + 1]
+        {
+            before = s;
+            pc += 1;
+            new_pc[pc] = u32::try_from(ops.len()).ok()?;
+        }
+        let mut after = NO_SLOT;
+        if fusable(pc)
+            && let Some(Inst::Save(s)) = insts.get(pc + 1)
+            && !target[pc + 1]
+        {
+            after = *s;
+            new_pc[pc + 1] = u32::try_from(ops.len()).ok()?;
+        }
+        ops.push(match &insts[pc] {
+            Inst::Byte(b) => Op::Byte(*b),
+            Inst::Lit(l) => Op::Lit(l.clone()),
+            Inst::Set(s) => Op::Set { set: table(s), before, after },
+            Inst::Run { set, min, max, greedy } => {
+                let (follow, nullable) = first_bytes(insts, pc + 1);
+                Op::Run {
+                    set: table(set),
+                    follow: (!nullable).then(|| table(&follow)),
+                    min: *min,
+                    max: *max,
+                    greedy: *greedy,
+                    possessive: *greedy
+                        && ((!nullable && set.is_disjoint(&follow))
+                            || surely_matches(insts, pc + 1)),
+                    before,
+                    after,
+                }
+            }
+            Inst::Split(x, y) => Op::Split(*x, *y),
+            Inst::Jmp(x) => Op::Jmp(*x),
+            Inst::Save(s) => Op::Save(*s),
+            Inst::Look(l) => Op::Look(*l),
+            Inst::Match => Op::Match,
+        });
+        pc += if after == NO_SLOT { 1 } else { 2 };
+    }
+    for op in &mut ops {
+        match op {
+            Op::Split(x, y) => {
+                *x = new_pc[*x as usize];
+                *y = new_pc[*y as usize];
+            }
+            Op::Jmp(x) => *x = new_pc[*x as usize],
+            _ => {}
+        }
+    }
+    Some(ops)
 }
 
 /// The [`Gate`] of an anchored program: either `^` then a byte from a set, or `^\s+` / `^\s*`
@@ -1140,6 +1339,11 @@ mod tests {
             b"abcabcabc",
             b"a1b22c333",
             b"(1 2 3) [4]",
+            b"aaab a1a12ab x12 x1y3",
+            b"b12c a123b 12b",
+            b"a1y2",
+            b"abd",
+            b"abc",
         ];
         for pat in [
             "a|ab",
@@ -1180,6 +1384,21 @@ mod tests {
             r"\w+\B",
             r"a.*\b",
             r"(?:a|b)\s+$",
+            // Captures fused into runs, runs that give back, jumps onto fused positions.
+            r"(a+)ab",
+            r"(\d+)\d",
+            r"(\w+)(\d)",
+            r"x(.*?)(\d)",
+            r"(a|\d+)b",
+            r"(a)?(\d+)",
+            r"(?:(a)|b)(\d*)c",
+            r"(a*?)(a)",
+            r"(a{1,3}?)(ab)",
+            r"(?:(?:y|(a))\d+)+",
+            // A later choice fails on every branch: an earlier one must be revisited.
+            r"(?:ab|a)(?:c|bd)",
+            r"(a|ab)(c|bd)?$",
+            r"(?:a)?(?:ab)?c",
         ] {
             if Pattern::compile(pat).is_none() {
                 // `\1` and `\x20` are not in the subset; make sure that is why.
@@ -1224,6 +1443,23 @@ mod tests {
         assert_eq!(by_pattern(&p, &hay), Err(()));
         // The same pattern on a short line is answered directly.
         assert_eq!(by_pattern(&p, b"aab"), Ok(Some(vec![Some((0, 3))])));
+    }
+
+    #[test]
+    fn common_shapes_run_forward() {
+        let forward = |pat: &str| Pattern::compile(pat).expect("compiles").forward;
+        assert!(forward(r"^\[step\s+(?P<iteration>[-+]?\d+)\](?:\s+time\s+(?P<time>\S+))?"));
+        assert!(forward(
+            r"^\s+(?P<name>[A-Za-z_][\w.:-]*)\s+res\s+(?P<value>\S+)(?:\s+lin\s+(?P<sweeps>\S+)\s+sweeps?)?"
+        ));
+        assert!(forward(r"^\s+wall\s+(?P<value>\S+)\s+s\b"));
+        assert!(forward(r"^\s*notice:\s*(?P<message>.*)"));
+        // Lazy runs, loops, runs that may give back, choices whose other branch may fail.
+        assert!(!forward(r"^\[step\b.*?\scfl\s+(?P<value>\S+)"));
+        assert!(!forward(r"(?:ab)+"));
+        assert!(!forward(r"\w+\d"));
+        assert!(!forward(r"ab|a"));
+        assert!(!forward(r"(?:a)?(?:ab)?c"));
     }
 
     #[test]
