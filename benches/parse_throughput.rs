@@ -11,7 +11,10 @@
 //!   the table file to `/dev/null`.
 //!
 //! Run with `cargo bench --bench parse_throughput` (registered with `harness = false`).
-//! Sizes can be changed with `SETTLE_BENCH_MB` (default 64 MB per file).
+//! Sizes can be changed with `SETTLE_BENCH_MB` (default 64 MB per file). For instruction
+//! counts under `valgrind --tool=callgrind --toggle-collect='*parse_all*'`,
+//! `SETTLE_BENCH_ONLY=lines` (or `table`) runs one engine only and `SETTLE_BENCH_RUNS=1`
+//! times a single pass; the byte counts printed turn the totals into instructions per byte.
 
 use std::fs;
 use std::io::Write;
@@ -123,6 +126,7 @@ fn count(out: &mut Vec<Output>, records: &mut usize, values: &mut usize) {
 }
 
 fn best_of<T>(n: usize, mut f: impl FnMut() -> T) -> (Duration, T) {
+    let n = n.max(1);
     let mut best = Duration::MAX;
     let mut last = None;
     for _ in 0..n {
@@ -171,22 +175,32 @@ fn main() {
     let mb: usize =
         std::env::var("SETTLE_BENCH_MB").ok().and_then(|v| v.parse().ok()).unwrap_or(64);
     let target = mb << 20;
+    let runs: usize =
+        std::env::var("SETTLE_BENCH_RUNS").ok().and_then(|v| v.parse().ok()).unwrap_or(3);
+    let only = std::env::var("SETTLE_BENCH_ONLY").unwrap_or_default();
     let dir = std::env::temp_dir().join(format!("settle-bench-{}", std::process::id()));
     fs::create_dir_all(&dir).expect("temp dir is writable");
     let reg = Registry::builtin();
-    let tarn = reg.get("tarn").expect("shipped tarn definition");
-    let table = reg.get("table").expect("shipped table definition");
+    if only.is_empty() || only == "lines" {
+        bench_lines(reg.get("tarn").expect("shipped tarn definition"), target, runs, &dir);
+    }
+    if only.is_empty() || only == "table" {
+        bench_table(reg.get("table").expect("shipped table definition"), target, runs, &dir);
+    }
+    fs::remove_dir_all(&dir).ok();
+}
 
+fn bench_lines(tarn: &Definition, target: usize, runs: usize, dir: &Path) {
     let log = tarn_log(target);
     let log_path = dir.join("bench.log");
     fs::write(&log_path, &log).expect("write synthetic log");
     // Read it back the way a follower's first bulk read would (from page cache).
     let log = fs::read(&log_path).expect("read synthetic log");
-    let (d, (records, values)) = best_of(3, || parse_all(tarn, &log));
+    let (d, (records, values)) = best_of(runs, || parse_all(tarn, &log));
     let lines_rate = mb_per_s(log.len(), d);
     println!(
-        "lines engine (tarn): {:.1} MB in {:.3} s = {lines_rate:.0} MB/s ({records} records, {values} values)",
-        log.len() as f64 / 1e6,
+        "lines engine (tarn): {} bytes in {:.3} s = {lines_rate:.0} MB/s ({records} records, {values} values)",
+        log.len(),
         d.as_secs_f64()
     );
     match grep_count(&log_path) {
@@ -200,18 +214,20 @@ fn main() {
         }
         None => println!("grep -c: not available"),
     }
+}
 
+fn bench_table(table: &Definition, target: usize, runs: usize, dir: &Path) {
     let tab = table_file(target);
     let tab_path = dir.join("bench.dat");
     fs::write(&tab_path, &tab).expect("write synthetic table");
     let tab = fs::read(&tab_path).expect("read synthetic table");
-    let (d, (records, values)) = best_of(3, || parse_all(table, &tab));
+    let (d, (records, values)) = best_of(runs, || parse_all(table, &tab));
     let table_rate = mb_per_s(tab.len(), d);
-    let (cd, n) = best_of(3, || memchr::memchr_iter(b'\n', &tab).count());
+    let (cd, n) = best_of(runs, || memchr::memchr_iter(b'\n', &tab).count());
     let scan_rate = mb_per_s(tab.len(), cd);
     println!(
-        "table engine: {:.1} MB in {:.3} s = {table_rate:.0} MB/s ({records} records, {values} values)",
-        tab.len() as f64 / 1e6,
+        "table engine: {} bytes in {:.3} s = {table_rate:.0} MB/s ({records} records, {values} values)",
+        tab.len(),
         d.as_secs_f64()
     );
     println!(
@@ -225,5 +241,4 @@ fn main() {
             table_rate / cat_rate
         );
     }
-    fs::remove_dir_all(&dir).ok();
 }

@@ -20,9 +20,7 @@ pub mod compile;
 
 use std::sync::Arc;
 
-use regex::bytes::CaptureLocations;
-
-use super::matcher::{Matcher, leading_ws};
+use super::matcher::{Captures, Gate, Matcher, leading_ws};
 use super::number::{parse_integer, parse_number};
 use super::series::{FnvMap, LineUse, SeriesTable, Tally, clean_text, excerpt};
 use crate::record::{Event, LineStats, Output, Record, Role, SeriesId, Severity};
@@ -115,6 +113,66 @@ pub struct LinesProgram {
     pub events: Vec<usize>,
     pub ends: Vec<usize>,
     pub anchors: Vec<Matcher>,
+    pub dispatch: Dispatch,
+}
+
+/// Which rules a line can match at all, from its first bytes: one table lookup per line
+/// instead of one prefilter test per rule. Bit `r` of a mask stands for rule `r`; rules past
+/// the 64th are not indexed and always tried.
+#[derive(Debug, Clone)]
+pub struct Dispatch {
+    /// By the line's first byte (index 256: empty line).
+    col0: Box<[u64; 257]>,
+    /// By the first byte after the leading blanks (index 256: none).
+    after_blanks: Box<[u64; 257]>,
+    /// Rules with no usable gate.
+    always: u64,
+}
+
+impl Dispatch {
+    pub fn new(rules: &[Rule]) -> Dispatch {
+        let mut d =
+            Dispatch { col0: Box::new([0; 257]), after_blanks: Box::new([0; 257]), always: 0 };
+        for (r, rule) in rules.iter().enumerate().take(64) {
+            let bit = 1u64 << r;
+            match rule.matcher.gate() {
+                Gate::Any => d.always |= bit,
+                Gate::Col0(set) => {
+                    for b in 0..=255u8 {
+                        if set.contains(b) {
+                            d.col0[usize::from(b)] |= bit;
+                        }
+                    }
+                }
+                Gate::AfterBlanks { set, .. } => {
+                    for b in 0..=255u8 {
+                        if set.contains(b) {
+                            d.after_blanks[usize::from(b)] |= bit;
+                        }
+                    }
+                }
+            }
+        }
+        d
+    }
+
+    /// The rules `line` (with `ws` leading blanks) may match.
+    #[inline]
+    fn candidates(&self, line: &[u8], ws: usize) -> Candidates {
+        let at = |i: usize| line.get(i).map_or(256, |&b| usize::from(b));
+        Candidates(self.always | self.col0[at(0)] | self.after_blanks[at(ws)])
+    }
+}
+
+/// A set of rule indices from [`Dispatch::candidates`].
+#[derive(Debug, Clone, Copy)]
+struct Candidates(u64);
+
+impl Candidates {
+    #[inline]
+    fn has(self, r: usize) -> bool {
+        r >= 64 || (self.0 >> r) & 1 != 0
+    }
 }
 
 /// Values gathered for one record, with the repeat policy applied as they arrive.
@@ -185,11 +243,15 @@ impl Accum {
 /// Mutable per-rule state.
 #[derive(Debug, Clone)]
 struct RuleState {
-    locs: CaptureLocations,
+    locs: Captures,
     /// Series id of each value capture with a fixed name, once created.
     fixed: Vec<Option<SeriesId>>,
-    /// Series ids by captured name bytes, per value capture using `{name}`.
-    named: Vec<FnvMap<Box<[u8]>, SeriesId>>,
+    /// Captured name bytes → row of `named_ids`: one lookup per line, however many value
+    /// captures use `{name}`.
+    names: FnvMap<Box<[u8]>, usize>,
+    /// Row-major, one row per known name and one column per value capture: the series id of
+    /// that capture for that name, once created.
+    named_ids: Vec<Option<SeriesId>>,
     /// Scope in which this (event) rule last fired, for `repeat = "first"`.
     fired_scope: u64,
 }
@@ -232,6 +294,9 @@ struct State {
     /// Incremented whenever a record opens; anchors and `first` events are per scope.
     scope: u64,
     anchor_seen: Vec<u64>,
+    /// Capture storage for each anchor, and for the `start_after` marker.
+    anchor_caps: Vec<Captures>,
+    start_caps: Option<Captures>,
     rules: Vec<RuleState>,
     series: SeriesTable,
     failure: Option<Failure>,
@@ -243,9 +308,10 @@ impl LinesParser {
             .rules
             .iter()
             .map(|r| RuleState {
-                locs: r.matcher.regex.capture_locations(),
+                locs: r.matcher.captures_storage(),
                 fixed: vec![None; r.values.len()],
-                named: r.values.iter().map(|_| FnvMap::default()).collect(),
+                names: FnvMap::default(),
+                named_ids: Vec::new(),
                 fired_scope: 0,
             })
             .collect();
@@ -258,6 +324,8 @@ impl LinesParser {
             pending: Accum::new(),
             scope: 1,
             anchor_seen: vec![0; prog.anchors.len()],
+            anchor_caps: prog.anchors.iter().map(Matcher::captures_storage).collect(),
+            start_caps: prog.start_after.as_ref().map(Matcher::captures_storage),
             rules,
             series: SeriesTable::default(),
             failure: None,
@@ -291,12 +359,17 @@ impl State {
         let steps_apply = self.started;
         if !self.started
             && let Some(marker) = &prog.start_after
-            && marker.is_match(line, ws)
+            && let Some(caps) = &mut self.start_caps
+            && marker.find(line, ws, caps)
         {
             self.started = true;
         }
+        let cand = prog.dispatch.candidates(line, ws);
         if steps_apply {
             for &r in &prog.steps {
+                if !cand.has(r) {
+                    continue;
+                }
                 let u = self.step_rule(prog, r, line, ws, out);
                 if u != LineUse::Ignored {
                     used = used.and(u);
@@ -304,20 +377,25 @@ impl State {
                 }
             }
             for &r in &prog.values {
-                used = used.and(self.value_rule(prog, r, line, ws, out));
+                if cand.has(r) {
+                    used = used.and(self.value_rule(prog, r, line, ws, out));
+                }
             }
         }
         for &r in &prog.events {
-            used = used.and(self.event_rule(prog, r, line, ws, out));
+            if cand.has(r) {
+                used = used.and(self.event_rule(prog, r, line, ws, out));
+            }
         }
         for &r in &prog.ends {
-            if self.end_rule(prog, r, line, ws, out) {
+            if cand.has(r) && self.end_rule(prog, r, line, ws, out) {
                 used = used.and(LineUse::Used);
                 break;
             }
         }
         for (i, anchor) in prog.anchors.iter().enumerate() {
-            if self.anchor_seen[i] != self.scope && anchor.is_match(line, ws) {
+            if self.anchor_seen[i] != self.scope && anchor.find(line, ws, &mut self.anchor_caps[i])
+            {
                 self.anchor_seen[i] = self.scope;
                 used = used.and(LineUse::Used);
             }
@@ -360,10 +438,7 @@ impl State {
         out: &mut Vec<Output>,
     ) -> LineUse {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return LineUse::Ignored;
-        }
-        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
             return LineUse::Ignored;
         }
         let mut result = LineUse::Used;
@@ -402,15 +477,12 @@ impl State {
         out: &mut Vec<Output>,
     ) -> LineUse {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return LineUse::Ignored;
-        }
         if let Some(a) = rule.after
             && self.anchor_seen[a] != self.scope
         {
             return LineUse::Ignored;
         }
-        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
             return LineUse::Ignored;
         }
         let next = rule.attach == Attach::Next;
@@ -435,6 +507,9 @@ impl State {
         let rs = &mut rules[r];
         let target = if next { pending } else { cur };
         let name = rule.name_group.and_then(|g| rs.locs.get(g)).map(|(s, e)| &line[s..e]);
+        let width = rule.values.len();
+        // The row of `name` in `named_ids`, found on first need (`None`: not cached).
+        let mut row: Option<Option<usize>> = None;
         for (ci, vc) in rule.values.iter().enumerate() {
             let Some((s, e)) = rs.locs.get(vc.group) else { continue };
             let Some(v) = parse_number(&line[s..e]) else {
@@ -448,8 +523,22 @@ impl State {
                     result = LineUse::Skipped;
                     continue;
                 };
-                match rs.named[ci].get(key) {
-                    Some(&id) => Some(id),
+                let at = *row.get_or_insert_with(|| {
+                    if let Some(&at) = rs.names.get(key) {
+                        return Some(at);
+                    }
+                    // Junk names could otherwise grow the cache without bound.
+                    if rs.names.len() >= 4 * super::series::MAX_SERIES {
+                        return None;
+                    }
+                    let at = rs.names.len();
+                    rs.names.insert(key.into(), at);
+                    rs.named_ids.resize(rs.named_ids.len() + width, None);
+                    Some(at)
+                });
+                let cell = at.map(|at| at * width + ci);
+                match cell.and_then(|c| rs.named_ids.get(c).copied().flatten()) {
+                    Some(id) => Some(id),
                     None => {
                         let cleaned = clean_text(key);
                         if cleaned.is_empty() {
@@ -459,10 +548,8 @@ impl State {
                         }
                         let id =
                             series.intern(&vc.series.replace("{name}", &cleaned), vc.role, out);
-                        if let Some(id) = id
-                            && rs.named[ci].len() < 4 * super::series::MAX_SERIES
-                        {
-                            rs.named[ci].insert(key.into(), id);
+                        if let Some(c) = cell.and_then(|c| rs.named_ids.get_mut(c)) {
+                            *c = id;
                         }
                         id
                     }
@@ -499,16 +586,13 @@ impl State {
         out: &mut Vec<Output>,
     ) -> LineUse {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return LineUse::Ignored;
-        }
         if let Some(a) = rule.after
             && self.anchor_seen[a] != self.scope
         {
             return LineUse::Ignored;
         }
         let rs = &mut self.rules[r];
-        if rule.matcher.regex.captures_read(&mut rs.locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut rs.locs) {
             return LineUse::Ignored;
         }
         if rule.repeat == Repeat::First {
@@ -540,10 +624,7 @@ impl State {
         out: &mut Vec<Output>,
     ) -> bool {
         let rule = &prog.rules[r];
-        if !rule.matcher.may_match(line, ws) {
-            return false;
-        }
-        if rule.matcher.regex.captures_read(&mut self.rules[r].locs, line).is_none() {
+        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
             return false;
         }
         let text = match rule.message_group.and_then(|g| self.rules[r].locs.get(g)) {

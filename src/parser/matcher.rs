@@ -10,9 +10,20 @@
 //! Patterns are compiled as byte regexes with Unicode classes off (`\d`, `\w`, `\s` are
 //! ASCII, `.` is any byte but newline): logs are bytes, not always valid UTF-8, and ASCII
 //! classes keep the automata small. `(?u)` in a pattern switches Unicode back on.
+//!
+//! Lines that pass the prefilter are matched by [`pattern::Pattern`], a small backtracker for
+//! the pattern subset definitions use, which gives the same groups as the regex without the
+//! regex's fixed cost per search; patterns outside that subset, and searches that exhaust the
+//! backtracker's step budget, go to the `regex` crate. Captures land in a caller-owned
+//! [`Captures`], reused line after line.
+
+mod pattern;
 
 use memchr::memmem;
-use regex::bytes::{Regex, RegexBuilder};
+use regex::bytes::{CaptureLocations, Regex, RegexBuilder};
+
+pub use pattern::{ByteSet, Gate};
+use pattern::{Frame, Outcome, Pattern};
 
 /// Largest compiled regex we accept; protects against patterns that explode in size.
 const SIZE_LIMIT: usize = 4 << 20;
@@ -39,11 +50,37 @@ pub enum Lead {
     Some,
 }
 
-/// A regex plus its prefilter.
+/// A regex plus its prefilter and, when the pattern allows, its backtracking twin.
 #[derive(Debug, Clone)]
 pub struct Matcher {
     pub regex: Regex,
     pub prefilter: Prefilter,
+    fast: Option<Pattern>,
+}
+
+/// After this many searches that exhausted the step budget, a [`Captures`] stops trying the
+/// backtracker for its pattern: the pattern is one it handles badly.
+const MAX_GIVE_UPS: u32 = 16;
+
+/// Reusable capture storage for one [`Matcher`]: group spans of the last match plus the
+/// scratch both engines need, so a search allocates nothing once warmed up.
+#[derive(Debug, Clone)]
+pub struct Captures {
+    /// `2 * g` and `2 * g + 1`: start and end of group `g`, `pattern::NONE` when unset.
+    slots: Vec<usize>,
+    stack: Vec<Frame>,
+    locs: CaptureLocations,
+    give_ups: u32,
+}
+
+impl Captures {
+    /// Span of group `g` in the last successful search.
+    #[inline]
+    pub fn get(&self, g: usize) -> Option<(usize, usize)> {
+        let s = *self.slots.get(2 * g)?;
+        let e = *self.slots.get(2 * g + 1)?;
+        (s != pattern::NONE && e != pattern::NONE).then_some((s, e))
+    }
 }
 
 /// Compile a pattern the way every definition pattern is compiled.
@@ -90,7 +127,73 @@ impl Matcher {
             Some(_) => return Err("`literal` must not be empty".to_string()),
             None => extract_prefilter(pattern),
         };
-        Ok(Matcher { regex, prefilter })
+        // The backtracker must number groups as the regex does; anything else is a bug in
+        // its parser, and the regex alone is then used.
+        let fast = Pattern::compile(pattern).filter(|p| p.groups() == regex.captures_len());
+        Ok(Matcher { regex, prefilter, fast })
+    }
+
+    /// Fresh capture storage sized for this matcher.
+    pub fn captures_storage(&self) -> Captures {
+        Captures {
+            slots: vec![pattern::NONE; 2 * self.regex.captures_len()],
+            stack: Vec::new(),
+            locs: self.regex.capture_locations(),
+            give_ups: 0,
+        }
+    }
+
+    /// Search `line` (no prefilter), leaving the groups of the leftmost-first match in
+    /// `caps`. `caps` must come from this matcher's [`Matcher::captures_storage`].
+    #[inline]
+    pub fn captures(&self, line: &[u8], caps: &mut Captures) -> bool {
+        if let Some(p) = &self.fast
+            && caps.give_ups < MAX_GIVE_UPS
+        {
+            match p.search(line, &mut caps.slots, &mut caps.stack) {
+                Outcome::Matched => return true,
+                Outcome::NoMatch => return false,
+                Outcome::GaveUp => caps.give_ups += 1,
+            }
+        }
+        if self.regex.captures_read(&mut caps.locs, line).is_none() {
+            return false;
+        }
+        for (g, pair) in caps.slots.chunks_exact_mut(2).enumerate() {
+            let (s, e) = caps.locs.get(g).unwrap_or((pattern::NONE, pattern::NONE));
+            pair[0] = s;
+            pair[1] = e;
+        }
+        true
+    }
+
+    /// Does `line` match (prefilter first)? The groups are left in `caps`.
+    #[inline]
+    pub fn find(&self, line: &[u8], lead_ws: usize, caps: &mut Captures) -> bool {
+        self.may_match(line, lead_ws) && self.captures(line, caps)
+    }
+
+    /// A necessary condition on a matching line's first bytes, for dispatching lines to rules:
+    /// from the pattern when the backtracker runs it, else from a prefix prefilter.
+    pub fn gate(&self) -> Gate {
+        if let Some(p) = &self.fast
+            && p.gate() != Gate::Any
+        {
+            return p.gate();
+        }
+        match &self.prefilter {
+            Prefilter::Prefix { lead, literal } => match (lead, literal.first()) {
+                (_, None) => Gate::Any,
+                (Lead::None, Some(&b)) => Gate::Col0(ByteSet::single_byte(b)),
+                (Lead::Any, Some(&b)) => {
+                    Gate::AfterBlanks { set: ByteSet::single_byte(b), min_blanks: 0 }
+                }
+                (Lead::Some, Some(&b)) => {
+                    Gate::AfterBlanks { set: ByteSet::single_byte(b), min_blanks: 1 }
+                }
+            },
+            _ => Gate::Any,
+        }
     }
 
     /// Can this line match at all? `lead_ws` is the number of leading ASCII blanks of the

@@ -24,6 +24,11 @@ const STACK_LEN: usize = 96;
 
 /// Parse one number as solvers print it; `None` when the bytes are not a number.
 pub fn parse_number(b: &[u8]) -> Option<f64> {
+    parse_plain(b).or_else(|| parse_full(b))
+}
+
+/// The whole grammar of the module header.
+fn parse_full(b: &[u8]) -> Option<f64> {
     let b = b.trim_ascii();
     if b.is_empty() {
         return None;
@@ -116,6 +121,84 @@ pub fn parse_number(b: &[u8]) -> Option<f64> {
         let len = normalise(&mut buf, negative, &body[..mantissa_end], exp_sign, exp_digits);
         parse_ascii(&buf[..len])
     }
+}
+
+/// The common case in one pass: `[-+]digits[.digits][(e|E)[-+]digits]` with no blanks, at
+/// most 15 mantissa digits and a decimal exponent within Clinger's fast-path range. Anything
+/// else gives `None` and the full grammar above decides. Where this accepts, the full reader
+/// computes the same mantissa and exponent and takes the same fast path, so the value is
+/// identical (the tests compare both).
+#[inline]
+fn parse_plain(b: &[u8]) -> Option<f64> {
+    let (negative, mut i) = match b.first()? {
+        b'-' => (true, 1),
+        b'+' => (false, 1),
+        _ => (false, 0),
+    };
+    let mut m: u64 = 0;
+    let int_start = i;
+    while let Some(d) = b.get(i).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
+        m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+        i += 1;
+    }
+    let mut digits = i - int_start;
+    let mut frac = 0usize;
+    if b.get(i) == Some(&b'.') {
+        i += 1;
+        let frac_start = i;
+        while let Some(d) = b.get(i).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
+            i += 1;
+        }
+        frac = i - frac_start;
+        digits += frac;
+    }
+    if digits == 0 || digits > 15 {
+        return None;
+    }
+    let mut e: i64 = 0;
+    if let Some(&c) = b.get(i) {
+        if c != b'e' && c != b'E' {
+            return None;
+        }
+        i += 1;
+        let exp_negative = match b.get(i) {
+            Some(b'-') => {
+                i += 1;
+                true
+            }
+            Some(b'+') => {
+                i += 1;
+                false
+            }
+            _ => false,
+        };
+        let exp_start = i;
+        while let Some(d) = b.get(i).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
+            if i - exp_start == 4 {
+                return None;
+            }
+            e = e * 10 + i64::from(d);
+            i += 1;
+        }
+        if i == exp_start || i != b.len() {
+            return None;
+        }
+        if exp_negative {
+            e = -e;
+        }
+    }
+    let v = if m == 0 {
+        0.0
+    } else {
+        let e = e - frac as i64;
+        match e {
+            0..=22 => m as f64 * POW10[e as usize],
+            -22..=-1 => m as f64 / POW10[(-e) as usize],
+            _ => return None,
+        }
+    };
+    Some(if negative { -v } else { v })
 }
 
 /// Exact powers of ten representable in f64.
@@ -358,6 +441,75 @@ mod tests {
         }
         assert_eq!(n("0.0000e+00"), Some(0.0));
         assert!(n("-0.0").is_some_and(|v| v == 0.0 && v.is_sign_negative()));
+    }
+
+    #[test]
+    fn plain_path_agrees_with_the_full_grammar() {
+        let same = |s: &str| {
+            if let Some(v) = parse_plain(s.as_bytes()) {
+                let full = parse_full(s.as_bytes()).map(f64::to_bits);
+                assert_eq!(Some(v.to_bits()), full, "{s}");
+            }
+        };
+        for s in [
+            "0",
+            "-0",
+            "-0.0",
+            "+0.000",
+            "0e5",
+            "1",
+            "12",
+            "-3",
+            "1.5e-3",
+            "1.5E-03",
+            "+.5",
+            "3.",
+            ".5",
+            "4.2110e-02",
+            "1.2345e-01",
+            "123456789012345",
+            "1234567890123456",
+            "7.0e-22",
+            "7.0e-23",
+            "3.0e22",
+            "3.0e23",
+            "1e22",
+            "1e23",
+            "9.99e-22",
+            "1.0e+0000",
+            "1e10000",
+            "0.000000000000001",
+            "00000000000000001",
+            "1.5D-03",
+            "1.5-103",
+            " 1",
+            "1 ",
+            "1e",
+            "1e+",
+            "--1",
+            "1..2",
+            "nan",
+            "*",
+            "1.#INF",
+        ] {
+            same(s);
+        }
+        // Where it declines, the full reader still answers.
+        assert_eq!(parse_plain(b"1.5D-03"), None);
+        assert_eq!(parse_number(b"1.5D-03"), Some(1.5e-3));
+        assert_eq!(parse_plain(b"1234567890123456"), None);
+        assert!(parse_plain(b"-0.0").is_some_and(|v| v == 0.0 && v.is_sign_negative()));
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig { cases: 2000, failure_persistence: None, ..Default::default() })]
+
+        #[test]
+        fn plain_path_agrees_on_random_numbers(s in "[-+]?[0-9]{0,17}(\\.[0-9]{0,17})?([eEdD][-+]?[0-9]{1,5})?") {
+            if let Some(v) = parse_plain(s.as_bytes()) {
+                proptest::prop_assert_eq!(Some(v.to_bits()), parse_full(s.as_bytes()).map(f64::to_bits), "{}", s);
+            }
+        }
     }
 
     #[test]

@@ -7,7 +7,7 @@
 
 use crate::parser::compile::{parse_role, parse_severity};
 use crate::parser::error::Problem;
-use crate::parser::lines::{Attach, Kind, LinesProgram, Repeat, Rule, ValueCapture};
+use crate::parser::lines::{Attach, Dispatch, Kind, LinesProgram, Repeat, Rule, ValueCapture};
 use crate::parser::matcher::Matcher;
 use crate::parser::raw::{RawDefinition, RawRule};
 use crate::record::{Role, Severity};
@@ -30,6 +30,7 @@ pub fn compile(raw: RawDefinition) -> Result<LinesProgram, Problem> {
         events: Vec::new(),
         ends: Vec::new(),
         anchors: Vec::new(),
+        dispatch: Dispatch::new(&[]),
     };
     let mut anchor_patterns: Vec<String> = Vec::new();
     for (i, r) in raw.rules.iter().enumerate() {
@@ -43,6 +44,7 @@ pub fn compile(raw: RawDefinition) -> Result<LinesProgram, Problem> {
         list.push(i);
         prog.rules.push(rule);
     }
+    prog.dispatch = Dispatch::new(&prog.rules);
     if prog.steps.is_empty() {
         return Err(Problem::new(
             "rules",
