@@ -19,12 +19,14 @@
 
 pub mod app;
 pub mod format;
+pub mod geometry;
 pub mod live;
 pub mod overview;
 pub mod render;
 pub mod run_page;
 pub mod sanitize;
 pub mod terminal;
+pub mod text;
 pub mod theme;
 pub mod view;
 

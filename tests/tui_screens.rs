@@ -425,3 +425,42 @@ fn monochrome_theme_draws_no_colour() {
         }
     }
 }
+
+// ---------------------------------------------------------------------------------------
+// The samples of the repository (synthetic tarn runs), read and judged as `watch` would.
+
+fn sample(dir: &str) -> LiveRun {
+    use std::sync::Arc;
+    let spec =
+        settle::run::config::load(&std::path::Path::new("samples").join(dir).join("settle.toml"))
+            .expect("sample config");
+    let (store, _) =
+        settle::run::pipeline::read_run(&spec, Arc::new(settle::parser::Registry::builtin()))
+            .expect("sample reads");
+    let judgement = settle::judge::judge(&store.judge_input(), &spec.criteria);
+    let mut l = LiveRun::new(store, spec.criteria.clone());
+    l.judgement = judgement;
+    l.activity = vec![SourceActivity { last_growth: Some(t0()), progress: None }; 2];
+    l
+}
+
+#[test]
+fn dump_sample_screens() {
+    let Some(dir) = std::env::var_os("SETTLE_SCREEN_DUMP") else { return };
+    for name in ["mixer-22", "duct-bend-07"] {
+        for (w, h) in [(80u16, 24u16), (100, 30), (200, 50)] {
+            for (mode, theme) in
+                [("color", color_theme()), ("ascii", Theme::new(false, true, true))]
+            {
+                let mut app = app_with(vec![sample(name)], theme);
+                app.handle_key(&KeyEvent::from(KeyCode::Tab));
+                let screen = text(&draw(&mut app, w, h));
+                std::fs::write(
+                    std::path::Path::new(&dir).join(format!("{name}-{w}x{h}-{mode}.txt")),
+                    screen,
+                )
+                .unwrap();
+            }
+        }
+    }
+}
