@@ -467,8 +467,8 @@ fn html_is_well_formed_self_contained_and_complete() {
         assert!(row.contains(if c.met { "✓ met" } else { "✗ not met" }), "{row}");
         assert!(row.contains(if c.default { "default (common practice)" } else { "set by user" }));
     }
-    assert!(rows[0].contains("≥ 3 dec") && rows[0].contains("2.31 dec"));
-    assert!(rows[5].contains("≤ 1e-4") && rows[5].contains("0.0025"));
+    assert!(rows[0].contains("≥\u{a0}3\u{a0}dec") && rows[0].contains("2.31\u{a0}dec"));
+    assert!(rows[5].contains("≤\u{a0}1e-4") && rows[5].contains("0.0025"));
     assert!(rows[8].contains("n/a"), "a NaN value shows as n/a");
     assert!(rows[1].contains("it 2\u{202f}100"), "held since");
 
@@ -476,8 +476,11 @@ fn html_is_well_formed_self_contained_and_complete() {
     let res = section(&html, "residuals");
     assert_eq!(res.matches("<path").count(), RESIDUALS.len());
     assert!(res.contains("stroke-dasharray=\"5 4\""), "threshold lines dashed");
-    assert!(res.contains("p ≤ 1e-4"), "below target labelled");
-    assert!(res.contains(">p, Ux, Uy, k, omega ≥ 3 dec<"), "equal drop targets share a label");
+    assert!(res.contains("p ≤\u{a0}1e-4"), "below target labelled");
+    assert!(
+        res.contains(">p, Ux, Uy, k, omega ≥\u{a0}3\u{a0}dec<"),
+        "equal drop targets share a label"
+    );
     assert!(res.contains(">restart<"));
 
     // Monitors: a plot each with window, mean and CI; numbers in the table.
@@ -485,8 +488,14 @@ fn html_is_well_formed_self_contained_and_complete() {
     assert_eq!(mon.matches("<svg class=\"plot\"").count(), 2);
     assert!(mon.contains("fill-opacity=\"0.25\""), "final window shaded");
     assert!(mon.contains("95 % CI of the mean"));
-    assert!(mon.contains("0.0312055 ± 6.1e-6"));
-    assert!(mon.contains("it 1\u{202f}850"), "transient end");
+    // The mean to the precision its CI supports: ±6.1e-6 keeps one digit (PDG rule).
+    assert!(mon.contains("0.031206\u{a0}±\u{a0}6e-6"), "mean ± CI");
+    // One rule for every monitor plot: the whole history and the window zoomed, each with
+    // mean, tolerance band and CI.
+    assert_eq!(mon.matches(">whole history<").count(), 2);
+    assert_eq!(mon.matches(">final window, zoomed (it 4\u{202f}371–4\u{202f}870)<").count(), 2);
+    assert!(mon.contains("tolerance band ± 0.25 % (band criterion)"));
+    assert!(mon.contains("start-up to it\u{a0}1\u{202f}850"), "transient end");
     assert!(mon.contains("2.1e-6") && mon.contains("0.0312003"), "iterative error, extrapolated");
 
     // Findings with evidence.
@@ -494,15 +503,18 @@ fn html_is_well_formed_self_contained_and_complete() {
     assert!(fnd.contains("stall (deciding)"));
     assert!(fnd.contains("&lt; 1e-12"), "tiny p-value");
     assert!(
-        fnd.contains("232.5 it") && fnd.contains("0.49 %"),
+        fnd.contains("232 it") && fnd.contains("0.49\u{a0}%"),
         "period, amplitude in % for a monitor"
     );
 
     // Grid convergence (Celik et al. 2008 case 3 values, oscillatory).
     let gci = section(&html, "grid-convergence");
-    assert!(gci.contains("1.50769"), "apparent order");
+    // Printed as Celik et al. (2008) print case 3: p = 1.5(1), φ_ext = 6.0269.
+    assert!(gci.contains("p = 1.51 "), "apparent order, three significant digits");
+    assert!(gci.contains("<td class=\"num\">6.0269</td>"), "extrapolated value");
+    assert!(gci.contains("6.004\u{a0}±\u{a0}0.028"), "fine value with its GCI uncertainty");
     assert!(gci.contains("oscillatory"));
-    assert!(gci.contains("18000 cells"));
+    assert!(gci.contains("18\u{202f}000 cells"));
 
     // Log text escaped, control characters gone.
     let src = section(&html, "sources");
@@ -756,4 +768,45 @@ fn hostile_values_and_names_stay_well_formed() {
     let v = render_json(&input);
     assert_eq!(v["series"][0]["last_value"], 0.25);
     assert_eq!(v["monitors"][0]["ci_half"], serde_json::Value::Null);
+}
+
+/// A diverging run that ends in a crash, with one finding: the crash sentence of the judge
+/// names an event rule as `code`. No view shows the backticks; counts are singular.
+#[test]
+fn crash_text_plurals_and_the_monitor_table_shape() {
+    let mut fx = Fixture::new(600);
+    fx.judgement.verdict = Verdict::Diverging;
+    fx.judgement.causes = vec![0];
+    fx.judgement.findings = vec![Finding {
+        kind: FindingKind::Crash,
+        first: 600,
+        last: 600,
+        statistic: "error_at_end".into(),
+        value: 1.0,
+        supports: Some(Verdict::Diverging),
+        detail: "the log ends in an error at it 600 (`stack_trace`: tarn::limiter) with no \
+                 end-of-run mark"
+            .into(),
+        ..Default::default()
+    }];
+    let html = render_html(&fx.input());
+    check_markup(&html).unwrap_or_else(|e| panic!("markup: {e}"));
+    let why = section(&html, "why");
+    assert!(why.contains("(<code>stack_trace</code>: tarn::limiter)"), "{why}");
+    let fnd = section(&html, "findings");
+    assert!(fnd.contains("<code>stack_trace</code>"));
+    assert!(fnd.contains("1 finding (none informational); 1 decided the verdict."), "{fnd}");
+    assert!(!html.contains('`'), "no literal backticks in the HTML");
+
+    let (md, _) = render_markdown(&fx.input(), "r-");
+    assert!(md.contains("(` stack_trace `: tarn::limiter)"), "a Markdown code span");
+    assert!(md.contains("1 finding (none informational)"));
+
+    // The monitor table: eight columns (the transient joins the window cell), so it fits
+    // the page column; numbers keep their unit on the same line.
+    let mon = section(&html, "monitors");
+    let head = &mon[mon.find("<thead>").expect("head")..mon.find("</thead>").expect("end")];
+    assert_eq!(head.matches("<th>").count(), 8, "{head}");
+    assert!(mon.contains("<table class=\"monitors\">"));
+    assert!(html.contains("table.monitors td.num { white-space: normal; }"));
 }

@@ -3,8 +3,9 @@
 //! No I/O, no statistics, no mutation: everything drawn was computed by the app layer when
 //! data or settings changed (see [`crate::tui::view`]). Every rectangle is clamped to the
 //! frame; below 20×5 only a "too small" note is drawn, since widgets misbehave in tiny areas.
-//! The page layouts live in [`super::run_page`] and [`super::overview`]; this module holds
-//! the dispatch, the help overlay and the small text helpers they share.
+//! The page layouts live in [`super::run_page`] and [`super::overview`], their geometry in
+//! [`super::geometry`]; this module holds the dispatch, the help overlay and the panel and
+//! key-bar helpers the pages share.
 
 use ratatui::Frame;
 use ratatui::layout::Rect;
@@ -14,10 +15,9 @@ use ratatui::widgets::{Block, Clear, Paragraph};
 
 use super::app::{App, Screen};
 use super::geometry::{MIN_HEIGHT, MIN_WIDTH};
+use super::text::{fit, width};
 use super::theme::Theme;
 use super::{overview, run_page};
-
-pub use super::text::{fit, pad, pad_left, width};
 
 /// Draw `app` into `frame`.
 pub fn render(app: &App, frame: &mut Frame) {
@@ -47,19 +47,25 @@ fn too_small(frame: &mut Frame, area: Rect) {
 fn help(app: &App, frame: &mut Frame, area: Rect) {
     let g = &app.theme.glyphs;
     let (lr, ud) = if g.ascii { ("<- ->", "up/down") } else { ("← →", "↑ ↓") };
+    let mouse = if app.mouse {
+        "mouse capture: now on (Shift+drag still selects)"
+    } else {
+        "mouse capture: now off (terminal selection works)"
+    };
     let rows: Vec<(String, &str)> = vec![
         ("q".into(), "quit (Ctrl-C too)"),
         ("?".into(), "show or hide this help"),
         ("Enter".into(), "open the selected run (overview)"),
         ("Esc b Bksp".into(), "back to the overview"),
-        (format!("Tab {lr}"), "focus the next/previous series"),
+        (format!("Tab {lr}"), "focus the next/previous series: residuals, then monitors"),
+        ("y".into(), "the whole why, when it did not fit"),
         (ud.into(), "select a run / scroll findings"),
         ("PgUp PgDn g".into(), "page up / down, top"),
         ("w".into(), "chart window: all, 4x criteria window, window"),
         ("l".into(), "monitor chart linear / log10"),
         ("p".into(), "pause the view (data is still read and judged)"),
         ("a".into(), "acknowledge the current verdict (again: undo)"),
-        ("m".into(), "mouse capture on/off (off keeps terminal selection)"),
+        ("m".into(), mouse),
         ("Ctrl-L".into(), "repaint the screen"),
         ("Ctrl-Z".into(), "suspend to the shell"),
     ];
@@ -75,7 +81,7 @@ fn help(app: &App, frame: &mut Frame, area: Rect) {
         .collect();
     lines.push(Line::raw(""));
     lines.push(Line::raw(format!(" {legend}")));
-    let w = (area.width.saturating_sub(4)).min(66);
+    let w = (area.width.saturating_sub(4)).min(72);
     let h = (lines.len() as u16 + 2).min(area.height);
     let x = area.x + (area.width - w) / 2;
     let y = area.y + (area.height - h) / 2;
