@@ -38,7 +38,7 @@ fn columns(total: usize, longest_name: usize) -> Columns {
     let verdict = 11;
     let iteration = 9;
     let grew = 5;
-    let mut name = longest_name.clamp(6, 28);
+    let mut name = longest_name.clamp(6, (total / 4).max(28));
     // mark + gaps between the always-shown columns; the worst criterion keeps 14 cells.
     let fixed = |name: usize| 2 + name + 1 + verdict + 1 + iteration + 1 + grew;
     while fixed(name) + 1 + 14 > total && name > 6 {
@@ -113,8 +113,10 @@ pub fn render(app: &App, frame: &mut Frame, area: Rect) {
     let longest = names.iter().map(|n| width(n)).max().unwrap_or(6);
     let c = columns(total, longest);
     let (shown_names, prefix) = display_names(&names, c.name, g.ascii);
+    // Without the shared prefix the names may need less room: give it to the other columns.
+    let c = columns(total, shown_names.iter().map(|n| width(n)).max().unwrap_or(6));
     frame.render_widget(
-        Paragraph::new(title(app, prefix.as_deref())),
+        Paragraph::new(title(app, prefix.as_deref(), total)),
         clamp(Rect::new(area.x, area.y, area.width, 1), area),
     );
     let mut head = vec![
@@ -176,7 +178,7 @@ pub fn render(app: &App, frame: &mut Frame, area: Rect) {
 
 /// `settle · 24 runs · 2 diverging · … · 1 waiting`, counting exactly the words the rows
 /// show, then the shared name prefix when the rows leave it out.
-fn title<'a>(app: &'a App, prefix: Option<&str>) -> Line<'a> {
+fn title<'a>(app: &'a App, prefix: Option<&str>, cells: usize) -> Line<'a> {
     let theme = &app.theme;
     let g = &theme.glyphs;
     let mut spans = vec![
@@ -207,9 +209,14 @@ fn title<'a>(app: &'a App, prefix: Option<&str>) -> Line<'a> {
         spans.push(span(format!("PAUSED +{pending} rec"), theme.selected()));
     }
     if let Some(p) = prefix {
+        // The shared prefix in what is left of the line, cut in its middle if need be.
         let ell = if g.ascii { "~" } else { "…" };
-        spans.push(Span::raw(g.sep));
-        spans.push(span(format!("names: {p}{ell}"), theme.dim()));
+        let used: usize = spans.iter().map(Span::width).sum::<usize>() + width(g.sep) + 7 + 1;
+        let room = cells.saturating_sub(used);
+        if room >= 6 {
+            spans.push(Span::raw(g.sep));
+            spans.push(span(format!("names: {}{ell}", fit_middle(p, room)), theme.dim()));
+        }
     }
     Line::from(spans)
 }

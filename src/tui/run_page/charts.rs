@@ -275,11 +275,10 @@ pub fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
             frame.render_widget(Paragraph::new(Span::styled(sep, theme.border())), cell);
         }
         let area = Rect::new(strip.x + 1, strip.y, strip.width - 1, strip.height);
-        let label = format!(
-            "{} {}",
-            if z.judged { "window" } else { "last" },
-            range_text(z.iterations, g.ascii)
-        );
+        let range = range_text(z.iterations, g.ascii);
+        let word = if z.judged { "window" } else { "last" };
+        let full = format!("{word} {range}");
+        let label = if width(&full) < strip.width as usize { full } else { range };
         let zoom = Plot { points: &z.points, non_finite: &[], x: z.x, y: z.y, clip: None };
         plot_with_labels(theme, &zoom, ch, &mg, frame, area);
         let label_r = Rect::new(strip.x + 1, inner.bottom() - 1, strip.width - 1, 1);

@@ -80,7 +80,9 @@ pub fn items(live: &LiveRun, inp: &ViewInputs<'_>) -> Vec<Item> {
         }
         for (rule, count, first, ev) in groups {
             let text = if count > 1 {
-                let since = first.map(|f| format!(", first at it {f}")).unwrap_or_default();
+                let since = first
+                    .map(|f| format!(", first at it {}", format::iteration(f)))
+                    .unwrap_or_default();
                 let times = if ascii { "x" } else { "×" };
                 format!("{} ({times}{count}{since})", ev.message)
             } else {
