@@ -9,7 +9,9 @@
 //! * [`app`]: the state ([`App`]), keys as intents, and the snapshots that rendering reads;
 //! * [`view`]: building those snapshots (chart points, criteria rows, findings) from a run;
 //! * [`mod@render`]: pure drawing of an [`App`] into a frame (no I/O, no statistics), with the
-//!   pages in [`run_page`] (one run) and [`overview`] (many runs);
+//!   pages in [`run_page`] (one run) and [`overview`] (many runs), laid out by [`geometry`]
+//!   (which the state uses too, so neither imports the other) with the cell-width helpers of
+//!   [`text`];
 //! * [`live`]: the blocking main loop, generic over a [`live::Surface`] so it runs against
 //!   ratatui's `TestBackend` in tests;
 //! * [`terminal`]: raw mode, alternate screen, panic hook, signal and input threads, and
@@ -19,12 +21,14 @@
 
 pub mod app;
 pub mod format;
+pub mod geometry;
 pub mod live;
 pub mod overview;
 pub mod render;
 pub mod run_page;
 pub mod sanitize;
 pub mod terminal;
+pub mod text;
 pub mod theme;
 pub mod view;
 
@@ -168,5 +172,47 @@ pub fn run(
     let (color, ascii) = theme::from_env(opts.color, opts.ascii);
     let theme = theme::Theme::new(color, ascii, !opts.no_braille);
     let mut app = App::new(runs, opts, theme);
-    terminal::run_in_terminal(&mut app, rx, tx, hooks)
+    let code = terminal::run_in_terminal(&mut app, rx, tx, hooks)?;
+    if code == EXIT_QUIT || code == EXIT_CTRL_C {
+        // Once the terminal is back: the verdict stays in the scroll-back after the panels
+        // are gone. A closed stdout is not an error here.
+        use std::io::Write;
+        let _ = writeln!(io::stdout(), "{}", farewell(&app));
+    }
+    Ok(code)
+}
+
+/// The line printed after the user quits: the open run's verdict and its first reason, or
+/// the counts of an overview (`6 runs: 1 diverging, 5 converged`).
+pub fn farewell(app: &App) -> String {
+    let views: Vec<&view::RunView> =
+        (0..app.runs().count()).filter_map(|i| app.run_view(i)).collect();
+    match views.as_slice() {
+        [v] => {
+            let mut line = format!("{}: {}", v.name, v.state_word().to_uppercase());
+            if let Some(it) = v.iteration {
+                line.push_str(&format!(" at it {}", format::iteration(it)));
+            }
+            if let Some(first) = v.why.first() {
+                let dash = if app.theme.glyphs.ascii { "-" } else { "—" };
+                line.push_str(&format!(" {dash} {first}"));
+            }
+            if v.why.len() > 1 {
+                line.push_str(&format!(" (+{} more)", v.why.len() - 1));
+            }
+            line
+        }
+        _ => {
+            let mut counts: Vec<(&str, usize)> = Vec::new();
+            for v in &views {
+                match counts.iter_mut().find(|(w, _)| *w == v.state_word()) {
+                    Some(c) => c.1 += 1,
+                    None => counts.push((v.state_word(), 1)),
+                }
+            }
+            counts.sort_by_key(|(w, _)| Verdict::parse(w).map_or(u8::MAX, app::attention_rank));
+            let parts: Vec<String> = counts.iter().map(|(w, n)| format!("{n} {w}")).collect();
+            format!("{} runs: {}", views.len(), parts.join(", "))
+        }
+    }
 }

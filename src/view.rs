@@ -1,5 +1,15 @@
-//! Plain-text and JSON views for the one-shot commands (`parse`, `check`). Pure functions of
-//! the store and the judgement; the live panels live in `tui`, the documents in `report`.
+//! Views of a run for people and programs: the plain-text and JSON views of the one-shot
+//! commands (`parse`, `check`) and the formatting every view shares.
+//!
+//! * [`number`]: one rule for numbers (precision from the uncertainty, three significant
+//!   digits otherwise), used by the live panels, the report and these text views;
+//! * [`words`]: plurals and inline code in judge texts;
+//! * [`parse`], [`check`]: what those commands print.
+//!
+//! The live panels live in `tui`, the documents in `report`; both format through this module
+//! so a number reads the same everywhere.
 
 pub mod check;
+pub mod number;
 pub mod parse;
+pub mod words;

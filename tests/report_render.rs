@@ -6,412 +6,25 @@
 //! `SETTLE_REPORT_SAMPLE_DIR` to a folder to also keep the rendered sample there (used by
 //! `scripts/render-report.sh` to look at it).
 
-use std::io::Write as _;
 use std::path::{Path, PathBuf};
-use std::time::{Duration, UNIX_EPOCH};
 
-use settle::judge::{
-    Comparison, Criteria, CriterionResult, Finding, FindingKind, Judgement, MonitorSummary,
-    ResidualSummary, Verdict,
-};
-use settle::record::{Event, LineStats, Output, Record, Role, SeriesInfo, Severity};
+use settle::judge::{Criteria, Finding, FindingKind, Judgement, MonitorSummary, Verdict};
+use settle::record::{Output, Record, Role};
 use settle::report::{
-    GridPoint, GridSize, MeshStudy, ParserProvenance, Provenance, ReportError, ReportInput,
-    json::TOP_LEVEL_KEYS, render_html, render_json, render_markdown, write_report,
+    Provenance, ReportError, ReportInput, json::TOP_LEVEL_KEYS, render_html, render_json,
+    render_markdown, write_report,
 };
 use settle::run::{RunStore, SegmentReason, SourceStore};
 use sha2::{Digest, Sha256};
 
-const RESIDUALS: [&str; 5] = ["p", "Ux", "Uy", "k", "omega"];
+#[path = "report_render/fixture.rs"]
+mod fixture;
+#[path = "report_render/markup.rs"]
+mod markup;
 
-/// Deterministic noise in [-1, 1) (a 64-bit LCG; no statistical claim).
-struct Noise(u64);
-impl Noise {
-    fn next(&mut self) -> f64 {
-        self.0 = self.0.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
-        ((self.0 >> 11) as f64 / (1u64 << 53) as f64) * 2.0 - 1.0
-    }
-}
+use fixture::{Fixture, RESIDUALS, series};
+use markup::check_markup;
 
-fn series(id: u32, name: &str, role: Role) -> Output {
-    Output::Series(SeriesInfo { id, name: name.into(), role })
-}
-
-/// A stalled steady run: five residuals, two monitors, one restart going back 100 iterations.
-fn build_run(iterations: i64) -> RunStore {
-    let mut src = SourceStore::new("cases/wing-a4/tarn.log", "tarn-lines");
-    let mut out = Vec::new();
-    for (i, r) in RESIDUALS.iter().enumerate() {
-        out.push(series(i as u32, r, Role::Residual));
-    }
-    out.push(series(5, "Cd", Role::Monitor));
-    out.push(series(6, "Cl", Role::Monitor));
-    out.push(series(7, "continuity", Role::Indicator));
-    let mut noise = Noise(7);
-    let restart_at = iterations * 3 / 10;
-    let push = |out: &mut Vec<Output>, it: i64, noise: &mut Noise| {
-        let x = it as f64;
-        let mut values = Vec::new();
-        for (i, _) in RESIDUALS.iter().enumerate() {
-            let rate = 1.0 + 0.3 * i as f64;
-            // Falls, then flattens on a plateau (a stall for p).
-            let floor = if i == 0 { -2.6 } else { -4.5 - 0.2 * i as f64 };
-            let l =
-                (-(x / 900.0) * rate).max(floor) + 0.05 * noise.next() + 0.3 * (-x / 40.0).exp();
-            values.push((i as u32, 10f64.powf(l)));
-        }
-        let cd = 0.0312 + 0.004 * (-x / 700.0).exp() + 0.00002 * noise.next();
-        let cl = 0.41 + 0.05 * (-x / 500.0).exp() + 0.002 * (x / 37.0).sin();
-        values.push((5, cd));
-        values.push((6, cl));
-        values.push((7, 1e-6 * (1.0 + 0.1 * noise.next())));
-        out.push(Output::Record(Record {
-            iteration: Some(it),
-            time: None,
-            values,
-            line: it as u64 * 12,
-        }));
-    };
-    for it in 1..=restart_at {
-        push(&mut out, it, &mut noise);
-    }
-    out.push(Output::Event(Event {
-        severity: Severity::Warning,
-        rule: "bounding".into(),
-        message: "bounding k, min: -1.2e-9 <max> & \u{1b}[31mclipped\u{7}".into(),
-        line: 4000,
-        iteration: None,
-    }));
-    src.apply(out);
-    src.set_stats(LineStats { lines: 40_000, used: 36_000, skipped: 3, ignored: 3997 });
-    let mut out = Vec::new();
-    for it in (restart_at - 100)..=iterations {
-        push(&mut out, it, &mut noise);
-    }
-    out.push(Output::Event(Event {
-        severity: Severity::Error,
-        rule: "crash".into(),
-        message: "<script>alert(1)</script> floating point exception".into(),
-        line: 90_000,
-        iteration: Some(iterations),
-    }));
-    src.apply(out);
-    let mut run = RunStore::new("wing-a4 <aoa=4°> & \"flaps\"");
-    run.sources.push(src);
-    run
-}
-
-fn criterion(
-    name: &str,
-    series: &str,
-    cmp: Comparison,
-    thr: f64,
-    val: f64,
-    unit: &str,
-    met: bool,
-) -> CriterionResult {
-    CriterionResult {
-        name: name.into(),
-        series: series.into(),
-        comparison: cmp,
-        threshold: thr,
-        value: val,
-        unit: unit.into(),
-        met,
-        since: met.then_some(2100),
-        default: name != "below",
-    }
-}
-
-fn build_judgement(iterations: i64) -> Judgement {
-    let mut criteria: Vec<CriterionResult> = RESIDUALS
-        .iter()
-        .map(|r| {
-            let drop = if *r == "p" { 2.31 } else { 4.2 };
-            criterion("drop", r, Comparison::AtLeast, 3.0, drop, "dec", drop >= 3.0)
-        })
-        .collect();
-    criteria.push(criterion("below", "p", Comparison::AtMost, 1e-4, 2.5e-3, "", false));
-    criteria.push(criterion("drift", "Cd", Comparison::AtMost, 0.1, 0.04, "%", true));
-    criteria.push(criterion("band", "Cd", Comparison::AtMost, 0.5, 0.21, "%", true));
-    criteria.push(criterion("drift", "Cl", Comparison::AtMost, 0.1, f64::NAN, "%", false));
-    criteria.push(criterion("band", "Cl", Comparison::AtMost, 0.5, 0.98, "%", false));
-    let findings = vec![
-        Finding {
-            kind: FindingKind::Stall,
-            series: Some("p".into()),
-            first: 3140,
-            last: iterations,
-            statistic: "slope_dec_per_kit".into(),
-            value: -0.02,
-            threshold: Some(-0.1),
-            p_value: Some(0.41),
-            supports: Some(Verdict::Stalled),
-            detail:
-                "p has not fallen significantly for 1 730 iterations, 1.1 decades above its target"
-                    .into(),
-            ..Default::default()
-        },
-        Finding {
-            kind: FindingKind::Oscillation,
-            series: Some("Cl".into()),
-            first: iterations - 500,
-            last: iterations,
-            statistic: "fisher_g".into(),
-            value: 0.62,
-            threshold: Some(0.13),
-            p_value: Some(1e-30),
-            period: Some(232.5),
-            amplitude: Some(0.49),
-            supports: Some(Verdict::Oscillating),
-            detail: "Cl swings with a period of about 232 iterations".into(),
-        },
-        Finding {
-            kind: FindingKind::Restart,
-            first: 1400,
-            last: 1400,
-            statistic: "iteration_back".into(),
-            value: 100.0,
-            detail: "the solver restarted at iteration 1 400".into(),
-            ..Default::default()
-        },
-    ];
-    Judgement {
-        verdict: Verdict::Stalled,
-        since: Some(3140),
-        causes: vec![0],
-        findings,
-        criteria,
-        residuals: RESIDUALS
-            .iter()
-            .map(|r| ResidualSummary {
-                series: (*r).into(),
-                last: if *r == "p" { 2.5e-3 } else { 3e-5 },
-                peak: 1.9,
-                drop_dec: if *r == "p" { 2.31 } else { 4.2 },
-                slope_dec_per_kit: -0.02,
-                slope_ci: (-0.05, 0.01),
-                eta_iterations: None,
-            })
-            .collect(),
-        monitors: vec![
-            MonitorSummary {
-                series: "Cd".into(),
-                last: 0.031204,
-                mean: 0.0312055,
-                ci_half: 0.0000061,
-                window_first: iterations - 499,
-                window_last: iterations,
-                transient_end: Some(1850),
-                drift_pct: 0.04,
-                band_pct: 0.21,
-                iterative_error: Some(2.1e-6),
-                extrapolated: Some(0.0312003),
-            },
-            MonitorSummary {
-                series: "Cl".into(),
-                last: 0.4113,
-                mean: 0.41002,
-                ci_half: 0.0011,
-                window_first: iterations - 499,
-                window_last: iterations,
-                transient_end: Some(1200),
-                drift_pct: f64::NAN,
-                band_pct: 0.98,
-                iterative_error: None,
-                extrapolated: None,
-            },
-        ],
-        iterations,
-    }
-}
-
-struct Fixture {
-    run: RunStore,
-    judgement: Judgement,
-    criteria: Criteria,
-    provenance: Provenance,
-    mesh: MeshStudy,
-    log_sha: String,
-    log_len: u64,
-    _dir: tempfile::TempDir,
-}
-
-impl Fixture {
-    fn new(iterations: i64) -> Fixture {
-        let dir = tempfile::tempdir().expect("tempdir");
-        let log = dir.path().join("tarn.log");
-        let mut f = std::fs::File::create(&log).expect("create log");
-        for i in 0..20_000 {
-            writeln!(f, "tarn it {i} p 1.0e-3 Ux 2.0e-4").expect("write log");
-        }
-        drop(f);
-        let bytes = std::fs::read(&log).expect("read back");
-        let log_sha: String = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect();
-        let criteria = Criteria { residual_below: Some(1e-4), ..Default::default() };
-        let mut provenance = Provenance::collect(
-            vec!["settle".into(), "report".into(), "wing a4/settle.toml".into()],
-            vec![ParserProvenance::new(
-                "tarn-lines",
-                "built-in",
-                "[parser]\nname = \"tarn-lines\"\n",
-            )],
-            std::slice::from_ref(&log),
-            &criteria,
-        )
-        .expect("collect provenance");
-        provenance.analysed_at = UNIX_EPOCH + Duration::from_secs(1_767_225_600);
-        let g = |name: &str, n: u64, v: f64| GridPoint {
-            name: name.into(),
-            size: GridSize::Cells(n),
-            value: v,
-            iterative_error: Some(2e-6),
-        };
-        let mesh = MeshStudy {
-            monitor: "Cd".into(),
-            grids: [g("coarse", 980, 6.0909), g("fine", 18000, 6.0042), g("medium", 4500, 5.9624)],
-            dim: 2,
-        };
-        Fixture {
-            run: build_run(iterations),
-            judgement: build_judgement(iterations),
-            criteria,
-            provenance,
-            mesh,
-            log_sha,
-            log_len: bytes.len() as u64,
-            _dir: dir,
-        }
-    }
-
-    fn input(&self) -> ReportInput<'_> {
-        ReportInput {
-            run: &self.run,
-            judgement: &self.judgement,
-            criteria: &self.criteria,
-            provenance: &self.provenance,
-            mesh: Some(&self.mesh),
-        }
-    }
-}
-
-const VOID: [&str; 14] = [
-    "area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "param", "source",
-    "track", "wbr",
-];
-
-/// A small markup checker: every element closed in order (void elements and `/>` allowed),
-/// every attribute value quoted, every `&` an entity, no stray `<`. Returns the element names
-/// in document order.
-fn check_markup(doc: &str) -> Result<Vec<String>, String> {
-    let b = doc.as_bytes();
-    let mut stack: Vec<String> = Vec::new();
-    let mut seen = Vec::new();
-    let mut i = 0;
-    let at =
-        |i: usize| format!("byte {i}: …{}…", &doc[i.saturating_sub(40)..(i + 40).min(doc.len())]);
-    while i < b.len() {
-        match b[i] {
-            b'<' => {
-                if doc[i..].starts_with("<!--") {
-                    i += doc[i..].find("-->").ok_or_else(|| at(i))? + 3;
-                    continue;
-                }
-                if doc[i..].starts_with("<!DOCTYPE") || doc[i..].starts_with("<?xml") {
-                    i += doc[i..].find('>').ok_or_else(|| at(i))? + 1;
-                    continue;
-                }
-                let end = i + doc[i..].find('>').ok_or_else(|| at(i))?;
-                let tag = &doc[i + 1..end];
-                if let Some(name) = tag.strip_prefix('/') {
-                    let open = stack
-                        .pop()
-                        .ok_or_else(|| format!("close {name} with nothing open, {}", at(i)))?;
-                    if open != name.trim() {
-                        return Err(format!("</{name}> closes <{open}>, {}", at(i)));
-                    }
-                } else {
-                    let self_closing = tag.ends_with('/');
-                    let tag = tag.trim_end_matches('/');
-                    let (name, mut rest) = tag.split_once(char::is_whitespace).unwrap_or((tag, ""));
-                    if name.is_empty() || !name.chars().all(|c| c.is_ascii_alphanumeric()) {
-                        return Err(format!("bad element name {name:?}, {}", at(i)));
-                    }
-                    // Attributes: name="value" only.
-                    loop {
-                        rest = rest.trim_start();
-                        if rest.is_empty() {
-                            break;
-                        }
-                        let eq = rest.find('=').ok_or_else(|| {
-                            format!("attribute without value in <{name}>, {}", at(i))
-                        })?;
-                        let an = &rest[..eq];
-                        if an.is_empty()
-                            || !an
-                                .chars()
-                                .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == ':')
-                        {
-                            return Err(format!("bad attribute name {an:?}, {}", at(i)));
-                        }
-                        let v = &rest[eq + 1..];
-                        if !v.starts_with('"') {
-                            return Err(format!("unquoted attribute {an} in <{name}>, {}", at(i)));
-                        }
-                        let close = v[1..].find('"').ok_or_else(|| at(i))?;
-                        if v[1..1 + close].contains('<') {
-                            return Err(format!("'<' inside attribute {an}, {}", at(i)));
-                        }
-                        rest = &v[close + 2..];
-                    }
-                    seen.push(name.to_string());
-                    if name == "style" || name == "script" {
-                        let close = format!("</{name}>");
-                        let body_end = end + doc[end..].find(&close).ok_or_else(|| at(i))?;
-                        i = body_end + close.len();
-                        continue;
-                    }
-                    if !self_closing && !VOID.contains(&name) {
-                        stack.push(name.to_string());
-                    }
-                }
-                i = end + 1;
-            }
-            b'&' => {
-                let semi = doc[i..].find(';').ok_or_else(|| format!("bare &, {}", at(i)))?;
-                let ent = &doc[i + 1..i + semi];
-                let ok = (ent.starts_with('#')
-                    && ent[1..].chars().all(|c| c.is_ascii_digit())
-                    && ent.len() > 1)
-                    || (!ent.is_empty()
-                        && ent.len() < 8
-                        && ent.chars().all(|c| c.is_ascii_alphabetic()));
-                if !ok {
-                    return Err(format!("bad entity &{ent};, {}", at(i)));
-                }
-                i += semi + 1;
-            }
-            b'>' => return Err(format!("stray '>', {}", at(i))),
-            _ => i += 1,
-        }
-    }
-    if let Some(open) = stack.pop() {
-        return Err(format!("<{open}> never closed"));
-    }
-    Ok(seen)
-}
-
-#[test]
-fn markup_checker_catches_mistakes() {
-    assert!(check_markup("<p><b>x</b></p>").is_ok());
-    assert!(check_markup("<p><b>x</p></b>").is_err());
-    assert!(check_markup("<p class=x>y</p>").is_err());
-    assert!(check_markup("<p>a & b</p>").is_err());
-    assert!(check_markup("<p>unclosed").is_err());
-    assert!(check_markup("<br><svg><line x1=\"0\"/></svg>").is_ok());
-}
-
-/// The part of `doc` from the element with `id="section"` to its closing tag.
 fn section<'a>(doc: &'a str, id: &str) -> &'a str {
     let start =
         doc.find(&format!("<section id=\"{id}\">")).unwrap_or_else(|| panic!("section {id}"));
@@ -467,8 +80,8 @@ fn html_is_well_formed_self_contained_and_complete() {
         assert!(row.contains(if c.met { "✓ met" } else { "✗ not met" }), "{row}");
         assert!(row.contains(if c.default { "default (common practice)" } else { "set by user" }));
     }
-    assert!(rows[0].contains("≥ 3 dec") && rows[0].contains("2.31 dec"));
-    assert!(rows[5].contains("≤ 1e-4") && rows[5].contains("0.0025"));
+    assert!(rows[0].contains("≥\u{a0}3\u{a0}dec") && rows[0].contains("2.31\u{a0}dec"));
+    assert!(rows[5].contains("≤\u{a0}1e-4") && rows[5].contains("0.0025"));
     assert!(rows[8].contains("n/a"), "a NaN value shows as n/a");
     assert!(rows[1].contains("it 2\u{202f}100"), "held since");
 
@@ -476,8 +89,11 @@ fn html_is_well_formed_self_contained_and_complete() {
     let res = section(&html, "residuals");
     assert_eq!(res.matches("<path").count(), RESIDUALS.len());
     assert!(res.contains("stroke-dasharray=\"5 4\""), "threshold lines dashed");
-    assert!(res.contains("p ≤ 1e-4"), "below target labelled");
-    assert!(res.contains(">p, Ux, Uy, k, omega ≥ 3 dec<"), "equal drop targets share a label");
+    assert!(res.contains("p ≤\u{a0}1e-4"), "below target labelled");
+    assert!(
+        res.contains(">p, Ux, Uy, k, omega ≥\u{a0}3\u{a0}dec<"),
+        "equal drop targets share a label"
+    );
     assert!(res.contains(">restart<"));
 
     // Monitors: a plot each with window, mean and CI; numbers in the table.
@@ -485,8 +101,14 @@ fn html_is_well_formed_self_contained_and_complete() {
     assert_eq!(mon.matches("<svg class=\"plot\"").count(), 2);
     assert!(mon.contains("fill-opacity=\"0.25\""), "final window shaded");
     assert!(mon.contains("95 % CI of the mean"));
-    assert!(mon.contains("0.0312055 ± 6.1e-6"));
-    assert!(mon.contains("it 1\u{202f}850"), "transient end");
+    // The mean to the precision its CI supports: ±6.1e-6 keeps one digit (PDG rule).
+    assert!(mon.contains("0.031206\u{a0}±\u{a0}6e-6"), "mean ± CI");
+    // One rule for every monitor plot: the whole history and the window zoomed, each with
+    // mean, tolerance band and CI.
+    assert_eq!(mon.matches(">whole history<").count(), 2);
+    assert_eq!(mon.matches(">final window, zoomed (it 4\u{202f}371–4\u{202f}870)<").count(), 2);
+    assert!(mon.contains("tolerance band ± 0.25 % (band criterion)"));
+    assert!(mon.contains("start-up to it\u{a0}1\u{202f}850"), "transient end");
     assert!(mon.contains("2.1e-6") && mon.contains("0.0312003"), "iterative error, extrapolated");
 
     // Findings with evidence.
@@ -494,15 +116,18 @@ fn html_is_well_formed_self_contained_and_complete() {
     assert!(fnd.contains("stall (deciding)"));
     assert!(fnd.contains("&lt; 1e-12"), "tiny p-value");
     assert!(
-        fnd.contains("232.5 it") && fnd.contains("0.49 %"),
+        fnd.contains("232 it") && fnd.contains("0.49\u{a0}%"),
         "period, amplitude in % for a monitor"
     );
 
     // Grid convergence (Celik et al. 2008 case 3 values, oscillatory).
     let gci = section(&html, "grid-convergence");
-    assert!(gci.contains("1.50769"), "apparent order");
+    // Printed as Celik et al. (2008) print case 3: p = 1.5(1), φ_ext = 6.0269.
+    assert!(gci.contains("p = 1.51 "), "apparent order, three significant digits");
+    assert!(gci.contains("<td class=\"num\">6.0269</td>"), "extrapolated value");
+    assert!(gci.contains("6.004\u{a0}±\u{a0}0.028"), "fine value with its GCI uncertainty");
     assert!(gci.contains("oscillatory"));
-    assert!(gci.contains("18000 cells"));
+    assert!(gci.contains("18\u{202f}000 cells"));
 
     // Log text escaped, control characters gone.
     let src = section(&html, "sources");
@@ -756,4 +381,45 @@ fn hostile_values_and_names_stay_well_formed() {
     let v = render_json(&input);
     assert_eq!(v["series"][0]["last_value"], 0.25);
     assert_eq!(v["monitors"][0]["ci_half"], serde_json::Value::Null);
+}
+
+/// A diverging run that ends in a crash, with one finding: the crash sentence of the judge
+/// names an event rule as `code`. No view shows the backticks; counts are singular.
+#[test]
+fn crash_text_plurals_and_the_monitor_table_shape() {
+    let mut fx = Fixture::new(600);
+    fx.judgement.verdict = Verdict::Diverging;
+    fx.judgement.causes = vec![0];
+    fx.judgement.findings = vec![Finding {
+        kind: FindingKind::Crash,
+        first: 600,
+        last: 600,
+        statistic: "error_at_end".into(),
+        value: 1.0,
+        supports: Some(Verdict::Diverging),
+        detail: "the log ends in an error at it 600 (`stack_trace`: tarn::limiter) with no \
+                 end-of-run mark"
+            .into(),
+        ..Default::default()
+    }];
+    let html = render_html(&fx.input());
+    check_markup(&html).unwrap_or_else(|e| panic!("markup: {e}"));
+    let why = section(&html, "why");
+    assert!(why.contains("(<code>stack_trace</code>: tarn::limiter)"), "{why}");
+    let fnd = section(&html, "findings");
+    assert!(fnd.contains("<code>stack_trace</code>"));
+    assert!(fnd.contains("1 finding (none informational); 1 decided the verdict."), "{fnd}");
+    assert!(!html.contains('`'), "no literal backticks in the HTML");
+
+    let (md, _) = render_markdown(&fx.input(), "r-");
+    assert!(md.contains("(` stack_trace `: tarn::limiter)"), "a Markdown code span");
+    assert!(md.contains("1 finding (none informational)"));
+
+    // The monitor table: eight columns (the transient joins the window cell), so it fits
+    // the page column; numbers keep their unit on the same line.
+    let mon = section(&html, "monitors");
+    let head = &mon[mon.find("<thead>").expect("head")..mon.find("</thead>").expect("end")];
+    assert_eq!(head.matches("<th>").count(), 8, "{head}");
+    assert!(mon.contains("<table class=\"monitors\">"));
+    assert!(html.contains("table.monitors td.num { white-space: normal; }"));
 }

@@ -96,7 +96,7 @@ fn a_run_turns_stale_after_the_limit_without_an_end_mark() {
     assert_eq!(hooks.calls.last(), Some(&(0, Verdict::Stale)), "hooks see the stale change");
     assert_eq!(app.run(0).unwrap().extra_findings.len(), 2);
     assert!(app.run_view(0).unwrap().items.iter().any(|i| i.text == "action for stale"));
-    assert!(app.run_view(0).unwrap().why.contains("has not grown for over 5m"));
+    assert!(app.run_view(0).unwrap().why.join("; ").contains("has not grown for over 5m"));
     // Growth again: not stale any more.
     app.apply_batch(batch(0, 11, 1, t0() + Duration::from_secs(400)));
     app.tick(t0() + Duration::from_secs(402), &mut hooks);

@@ -425,3 +425,89 @@ fn monochrome_theme_draws_no_colour() {
         }
     }
 }
+
+#[test]
+fn focus_cycles_residuals_then_monitors_and_shows_where_it_is() {
+    let mut app = app_with(vec![live("wing-a4", Verdict::Stalled, 600)], color_theme());
+    let tab = KeyEvent::from(KeyCode::Tab);
+    app.handle_key(&tab);
+    let screen = text(&draw(&mut app, 100, 30));
+    assert!(screen.contains("residuals · log10 · all · focus p "), "{screen}");
+    for _ in 0..3 {
+        app.handle_key(&tab);
+    }
+    assert!(text(&draw(&mut app, 100, 30)).contains("focus k "));
+    app.handle_key(&tab);
+    let screen = text(&draw(&mut app, 100, 30));
+    assert!(
+        screen.contains("╭ Cd [1/2] · last"),
+        "the first monitor after the residuals\n{screen}"
+    );
+    assert!(!screen.contains("· focus "), "no residual focused now");
+    app.handle_key(&tab);
+    assert!(text(&draw(&mut app, 100, 30)).contains("╭ Cl [2/2] · last"));
+}
+
+#[test]
+fn the_mouse_key_shows_its_state() {
+    let mut app = app_with(vec![live("wing-a4", Verdict::Stalled, 600)], color_theme());
+    let bar = |app: &mut App| text(&draw(app, 100, 30)).lines().last().unwrap_or("").to_string();
+    assert!(bar(&mut app).contains("m mouse off"), "{}", bar(&mut app));
+    app.handle_key(&key('m'));
+    assert!(app.mouse_capture());
+    assert!(bar(&mut app).contains("m mouse on"), "{}", bar(&mut app));
+    app.handle_key(&key('?'));
+    assert!(text(&draw(&mut app, 100, 30)).contains("mouse capture: now on"));
+}
+
+#[test]
+fn overview_names_by_their_distinguishing_part_and_counts_what_it_shows() {
+    let mut runs: Vec<LiveRun> = [4, 6, 8, 10, 12]
+        .iter()
+        .map(|a| live(&format!("real/case3c_step_rebound_fine_a{a:02}"), Verdict::Stalled, 100))
+        .collect();
+    // A run that has not printed a record yet: `waiting`, in the rows and in the title.
+    let waiting = RunStore::new("real/case3c_step_rebound_fine_a14");
+    runs.push(LiveRun::new(waiting, Criteria::default()));
+    let mut app = app_with(runs, color_theme());
+    let screen = text(&draw(&mut app, 80, 24));
+    let title = screen.lines().next().unwrap_or("");
+    assert!(title.contains("6 runs · 5 stalled · 1 waiting"), "{title}");
+    // The shared prefix, cut in its middle to fit the title line.
+    assert!(title.contains("names: real/") && title.trim_end().ends_with("fine_…"), "{title}");
+    let wide_title = text(&draw(&mut app, 120, 24));
+    assert!(wide_title.contains("names: real/case3c_step_rebound_fine_…"), "{wide_title}");
+    assert!(!title.contains("converging"), "the waiting run is not counted as converging");
+    for a in ["a04", "a06", "a08", "a10", "a12", "a14"] {
+        assert!(screen.contains(&format!("…{a} ")), "{a} missing\n{screen}");
+    }
+    let rows: Vec<&str> = screen.lines().skip(2).collect();
+    assert_eq!(rows.iter().filter(|r| r.contains(" waiting ")).count(), 1, "{screen}");
+    assert_eq!(rows.iter().filter(|r| r.contains(" stalled ")).count(), 5, "{screen}");
+    // Wide enough for whole names: no prefix is taken away.
+    let wide = text(&draw(&mut app, 200, 24));
+    assert!(wide.contains("real/case3c_step_rebound_fine_a04 ") && !wide.contains("names:"));
+    // The worst criterion keeps its numbers whole at every width.
+    for w in [60u16, 80, 100, 200] {
+        let screen = text(&draw(&mut app, w, 24));
+        assert!(screen.contains("0.35/0.2 %"), "{w} columns:\n{screen}");
+    }
+}
+
+#[test]
+fn quitting_leaves_one_line_with_the_verdict() {
+    let app = app_with(vec![live("wing-a4", Verdict::Stalled, 600)], color_theme());
+    assert_eq!(
+        settle::tui::farewell(&app),
+        "wing-a4: STALLED at it 600 — p slope -0.02 dec/kit, 1.1 dec above target"
+    );
+    let app = app_with(
+        vec![
+            live("a", Verdict::Converged, 100),
+            live("b", Verdict::Diverging, 100),
+            live("c", Verdict::Converged, 100),
+        ],
+        Theme::new(false, true, true),
+    );
+    assert_eq!(settle::tui::farewell(&app), "3 runs: 1 diverging, 2 converged");
+}

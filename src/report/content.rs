@@ -2,20 +2,30 @@
 //! text tables (not yet escaped) and the plots.
 //!
 //! Keeping the rows here means both formats show the same numbers with the same words; the
-//! writers only decide markup and escaping.
+//! writers only decide markup and escaping. The result tables are in [`tables`], the mesh
+//! study in [`mesh`]; this module holds the cell model, the series and monitors of a run, the
+//! plots, the why and the provenance tables.
+
+mod mesh;
+mod tables;
+
+pub use mesh::{GCI_NOTE, gci_grids_table, gci_results_table, gci_summary};
+pub use tables::{
+    criteria_table, findings_summary, findings_table, messages_table, monitor_table,
+    residual_table, sources_table,
+};
 
 use crate::judge::{Judgement, MonitorSummary, RunInput};
-use crate::record::{Role, Severity};
+use crate::record::Role;
 use crate::report::ReportInput;
-use crate::report::gci::{GciResult, GridSize};
 use crate::report::provenance::{criteria_in_effect, format_utc};
 use crate::report::svg::{self, Line, MonitorMarks, Target};
 use crate::report::text::{
-    bytes, criterion_words, evidence, iteration, kind_words, num, p_value, range, threshold_text,
-    with_unit,
+    bytes, evidence, exact, iteration, kind_words, plus_minus, range, threshold_text,
 };
 
-/// How a cell is shown: plain, a right-aligned number, a criterion state, or a hash.
+/// How a cell is shown: plain, a right-aligned number, a criterion state, a hash, or a
+/// sentence of the judge that may hold `` `code` `` spans (shown as code, without backticks).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Class {
     Text,
@@ -23,6 +33,7 @@ pub enum Class {
     Met,
     Unmet,
     Mono,
+    Prose,
 }
 
 impl Class {
@@ -33,6 +44,7 @@ impl Class {
             Class::Met => Some("met"),
             Class::Unmet => Some("unmet"),
             Class::Mono => Some("hash"),
+            Class::Prose => None,
         }
     }
 }
@@ -43,11 +55,11 @@ pub struct Cell {
     pub class: Class,
 }
 
-fn t(s: impl Into<String>) -> Cell {
+pub(crate) fn t(s: impl Into<String>) -> Cell {
     Cell { text: s.into(), class: Class::Text }
 }
 
-fn n(s: impl Into<String>) -> Cell {
+pub(crate) fn n(s: impl Into<String>) -> Cell {
     Cell { text: s.into(), class: Class::Num }
 }
 
@@ -117,19 +129,28 @@ pub fn residual_svg(input: &ReportInput<'_>, views: &[SeriesView<'_>], standalon
 pub struct MonitorView<'a> {
     pub view: &'a SeriesView<'a>,
     pub summary: Option<&'a MonitorSummary>,
+    /// The `band` criterion of this monitor (full width, percent of |mean|), when one applies.
+    pub band_pct: Option<f64>,
 }
 
 /// Monitors in the judge's order, then any other monitor series.
 pub fn monitors<'a>(judgement: &'a Judgement, views: &'a [SeriesView<'a>]) -> Vec<MonitorView<'a>> {
+    let band = |name: &str| {
+        judgement
+            .criteria
+            .iter()
+            .find(|c| c.series == name && c.name == "band")
+            .map(|c| c.threshold)
+    };
     let mut out: Vec<MonitorView<'a>> = Vec::new();
     for m in &judgement.monitors {
         if let Some(v) = views.iter().find(|v| v.input.name == m.series) {
-            out.push(MonitorView { view: v, summary: Some(m) });
+            out.push(MonitorView { view: v, summary: Some(m), band_pct: band(&m.series) });
         }
     }
     for v in views.iter().filter(|v| v.input.role == Role::Monitor) {
         if !out.iter().any(|m| m.view.input.name == v.input.name) {
-            out.push(MonitorView { view: v, summary: None });
+            out.push(MonitorView { view: v, summary: None, band_pct: band(&v.input.name) });
         }
     }
     out
@@ -141,6 +162,7 @@ pub fn monitor_svg(m: &MonitorView<'_>, index: usize, standalone: bool) -> Strin
             window: Some((s.window_first, s.window_last)),
             mean: Some(s.mean),
             ci_half: Some(s.ci_half),
+            band_pct: m.band_pct,
             transient_end: s.transient_end,
             extrapolated: s.extrapolated,
         },
@@ -151,136 +173,33 @@ pub fn monitor_svg(m: &MonitorView<'_>, index: usize, standalone: bool) -> Strin
 
 /// A short caption for a monitor plot.
 pub fn monitor_caption(m: &MonitorView<'_>) -> String {
+    let name = &m.view.input.name;
     match m.summary {
-        Some(s) => format!(
-            "{}: final window iterations {}, mean {} ± {} (95 % CI){}.",
-            m.view.input.name,
-            range(s.window_first, s.window_last),
-            num(s.mean),
-            num(s.ci_half),
-            match s.transient_end {
-                Some(e) =>
-                    format!("; start-up transient up to iteration {} excluded", iteration(e)),
-                None => String::new(),
+        Some(s) => {
+            let mut c = format!(
+                "{name}: left, the whole history; right, the final window (iterations {}) \
+                 zoomed. Mean {} (95 % CI)",
+                range(s.window_first, s.window_last),
+                plus_minus(s.mean, s.ci_half),
+            );
+            if let Some(b) = m.band_pct {
+                c.push_str(&format!("; tolerance band ± {} % of the mean", exact(b / 2.0)));
             }
-        ),
-        None => format!("{}: no window summary from the judge.", m.view.input.name),
-    }
-}
-
-/// Criterion | series | threshold | final value | met | held since | threshold from.
-pub fn criteria_table(j: &Judgement) -> Table {
-    let mut t = Table {
-        class: None,
-        head: vec![
-            "criterion",
-            "series",
-            "threshold",
-            "final value",
-            "met",
-            "held since",
-            "threshold from",
-        ],
-        rows: Vec::new(),
-    };
-    for c in &j.criteria {
-        t.rows.push(vec![
-            self::t(criterion_words(&c.name)),
-            self::t(&c.series),
-            n(threshold_text(c)),
-            n(with_unit(c.value, &c.unit)),
-            if c.met {
-                Cell { text: "✓ met".into(), class: Class::Met }
-            } else {
-                Cell { text: "✗ not met".into(), class: Class::Unmet }
-            },
-            n(c.since.map_or("—".into(), |s| format!("it {}", iteration(s)))),
-            self::t(if c.default { "default (common practice)" } else { "set by user" }),
-        ]);
-    }
-    t
-}
-
-/// Residual | last | peak | drop | trend | iterations to target.
-pub fn residual_table(j: &Judgement) -> Table {
-    let mut t = Table {
-        class: None,
-        head: vec![
-            "residual",
-            "last value",
-            "peak",
-            "drop from peak",
-            "trend, dec per 1000 it (95 % CI)",
-            "est. iterations to target",
-        ],
-        rows: Vec::new(),
-    };
-    for r in &j.residuals {
-        t.rows.push(vec![
-            self::t(&r.series),
-            n(num(r.last)),
-            n(num(r.peak)),
-            n(with_unit(r.drop_dec, "dec")),
-            n(format!(
-                "{} ({} … {})",
-                num(r.slope_dec_per_kit),
-                num(r.slope_ci.0),
-                num(r.slope_ci.1)
-            )),
-            n(r.eta_iterations.map_or("—".into(), |e| iteration(e.round() as i64))),
-        ]);
-    }
-    t
-}
-
-/// Per monitor: final value, mean ± CI, window, transient, drift, band, iterative error,
-/// extrapolated value.
-pub fn monitor_table(ms: &[MonitorView<'_>]) -> Table {
-    let mut t = Table {
-        class: None,
-        head: vec![
-            "monitor",
-            "final value",
-            "mean ± 95 % CI",
-            "final window",
-            "transient excluded up to",
-            "drift",
-            "band",
-            "iterative error (est.)",
-            "extrapolated value",
-        ],
-        rows: Vec::new(),
-    };
-    for m in ms {
-        let last = m.view.input.values.last().copied().unwrap_or(f64::NAN);
-        let row = match m.summary {
-            Some(s) => {
-                let rel = if s.mean != 0.0 { 100.0 * s.ci_half / s.mean.abs() } else { f64::NAN };
-                vec![
-                    self::t(&s.series),
-                    n(num(s.last)),
-                    n(format!("{} ± {} ({} %)", num(s.mean), num(s.ci_half), num(rel))),
-                    n(format!("it {}", range(s.window_first, s.window_last))),
-                    n(s.transient_end.map_or("—".into(), |e| format!("it {}", iteration(e)))),
-                    n(with_unit(s.drift_pct, "%")),
-                    n(with_unit(s.band_pct, "%")),
-                    n(s.iterative_error.map_or("—".into(), num)),
-                    n(s.extrapolated.map_or("—".into(), num)),
-                ]
+            if let Some(e) = s.transient_end {
+                c.push_str(&format!(
+                    "; start-up transient up to iteration {} excluded",
+                    iteration(e)
+                ));
             }
-            None => {
-                let mut row = vec![self::t(&*m.view.input.name), n(num(last))];
-                row.extend((0..7).map(|_| n("—")));
-                row
-            }
-        };
-        t.rows.push(row);
+            c.push('.');
+            c
+        }
+        None => format!("{name}: the whole history; the judge reported no final window."),
     }
-    t
 }
 
 /// The unit of a finding's amplitude: decades for residuals, percent for monitors.
-fn amplitude_unit(views: &[SeriesView<'_>], series: Option<&str>) -> &'static str {
+pub(crate) fn amplitude_unit(views: &[SeriesView<'_>], series: Option<&str>) -> &'static str {
     match series.and_then(|s| views.iter().find(|v| v.input.name == s)).map(|v| v.input.role) {
         Some(Role::Residual) => "dec",
         Some(Role::Monitor) => "%",
@@ -312,197 +231,6 @@ pub fn why_empty(j: &Judgement) -> &'static str {
         _ => "The judge recorded no single deciding finding for this verdict.",
     }
 }
-
-/// Every finding with its evidence.
-pub fn findings_table(j: &Judgement, views: &[SeriesView<'_>]) -> Table {
-    let mut t = Table {
-        class: Some("findings"),
-        head: vec![
-            "iterations",
-            "finding",
-            "series",
-            "statistic = value (threshold)",
-            "p\u{2011}value",
-            "period",
-            "amplitude",
-            "argues for",
-            "detail",
-        ],
-        rows: Vec::new(),
-    };
-    for (i, f) in j.findings.iter().enumerate() {
-        let unit = amplitude_unit(views, f.series.as_deref());
-        let cause = j.causes.contains(&i);
-        let kind = if cause {
-            format!("{} (deciding)", kind_words(f.kind))
-        } else {
-            kind_words(f.kind).to_string()
-        };
-        t.rows.push(vec![
-            n(range(f.first, f.last)),
-            Cell { text: kind, class: if cause { Class::Unmet } else { Class::Text } },
-            self::t(f.series.clone().unwrap_or_else(|| "—".into())),
-            self::t(match f.threshold {
-                Some(th) => format!("{} = {} ({})", f.statistic, num(f.value), num(th)),
-                None => format!("{} = {}", f.statistic, num(f.value)),
-            }),
-            n(f.p_value.map_or("—".into(), p_value)),
-            n(f.period.map_or("—".into(), |p| format!("{} it", num(p)))),
-            n(f.amplitude.map_or("—".into(), |a| with_unit(a, unit))),
-            self::t(f.supports.map_or("— (information)", |v| v.as_str())),
-            self::t(&f.detail),
-        ]);
-    }
-    t
-}
-
-/// Informational findings are counted, so a reader sees what the judge looked at.
-pub fn findings_summary(j: &Judgement) -> String {
-    let info = j.findings.iter().filter(|f| f.supports.is_none()).count();
-    format!(
-        "{} findings, {} of them informational; {} decided the verdict.",
-        j.findings.len(),
-        info,
-        j.causes.len()
-    )
-}
-
-/// Per source: what was read.
-pub fn sources_table(input: &ReportInput<'_>) -> Table {
-    let mut t = Table {
-        class: None,
-        head: vec![
-            "source",
-            "parser",
-            "records",
-            "lines read",
-            "used",
-            "skipped",
-            "restarts",
-            "warnings",
-            "errors",
-            "end of run",
-        ],
-        rows: Vec::new(),
-    };
-    for s in &input.run.sources {
-        let count = |sev: Severity| s.events.iter().filter(|e| e.severity == sev).count();
-        t.rows.push(vec![
-            self::t(&s.label),
-            self::t(&s.parser),
-            n(count_text(s.records() as u64)),
-            n(count_text(s.stats.lines)),
-            n(count_text(s.stats.used)),
-            n(count_text(s.stats.skipped)),
-            n(s.segments.len().saturating_sub(1).to_string()),
-            n(count(Severity::Warning).to_string()),
-            n(count(Severity::Error).to_string()),
-            self::t(match &s.ended {
-                Some((it, msg)) => format!("at it {}: {msg}", iteration(*it)),
-                None => "no end-of-run mark".into(),
-            }),
-        ]);
-    }
-    t
-}
-
-/// The last warnings and errors the parsers recognised.
-pub fn messages_table(input: &ReportInput<'_>, max: usize) -> Table {
-    let mut t = Table {
-        class: None,
-        head: vec!["source", "line", "iteration", "severity", "rule", "message"],
-        rows: Vec::new(),
-    };
-    let mut all: Vec<(&str, &crate::record::Event)> = input
-        .run
-        .sources
-        .iter()
-        .flat_map(|s| s.events.iter().map(move |e| (s.label.as_str(), e)))
-        .filter(|(_, e)| e.severity >= Severity::Warning)
-        .collect();
-    let skip = all.len().saturating_sub(max);
-    for (src, e) in all.drain(skip..) {
-        let msg: String = if e.message.chars().count() > 240 {
-            e.message.chars().take(239).chain(['…']).collect()
-        } else {
-            e.message.clone()
-        };
-        t.rows.push(vec![
-            self::t(src),
-            n(e.line.to_string()),
-            n(e.iteration.map_or("—".into(), iteration)),
-            self::t(e.severity.as_str()),
-            self::t(&e.rule),
-            self::t(msg),
-        ]);
-    }
-    t
-}
-
-/// Grid inputs: grid | rank | size | h | value | iterative error.
-pub fn gci_grids_table(r: &GciResult) -> Table {
-    let mut t = Table {
-        class: None,
-        head: vec!["grid", "rank", "given size", "cell size h", "value", "iterative error (est.)"],
-        rows: Vec::new(),
-    };
-    for (k, g) in r.grids.iter().enumerate() {
-        t.rows.push(vec![
-            self::t(&g.name),
-            self::t(["1 (finest)", "2", "3 (coarsest)"][k]),
-            n(match g.size {
-                GridSize::Cells(c) => format!("{c} cells"),
-                GridSize::Spacing(h) => format!("spacing {}", num(h)),
-            }),
-            n(num(g.h)),
-            n(num(g.value)),
-            n(g.iterative_error.map_or("—".into(), num)),
-        ]);
-    }
-    t
-}
-
-/// GCI results: quantity | fine pair (1–2) | coarse pair (2–3).
-pub fn gci_results_table(r: &GciResult) -> Table {
-    let pct = |v: f64| format!("{} %", num(100.0 * v));
-    let rows: [(&str, String, String); 7] = [
-        ("refinement ratio r", num(r.fine.ratio), num(r.coarse.ratio)),
-        ("difference ε", num(r.eps21), num(r.eps32)),
-        ("extrapolated value φ_ext", num(r.fine.extrapolated), num(r.coarse.extrapolated)),
-        ("approximate relative error e_a", pct(r.fine.e_a), pct(r.coarse.e_a)),
-        ("extrapolated relative error e_ext", pct(r.fine.e_ext), pct(r.coarse.e_ext)),
-        ("GCI of the finer grid (Fs = 1.25)", pct(r.fine.gci_fine), pct(r.coarse.gci_fine)),
-        ("GCI of the coarser grid (Roache)", pct(r.fine.gci_coarse), pct(r.coarse.gci_coarse)),
-    ];
-    Table {
-        class: None,
-        head: vec!["quantity", "pair 2–1 (fine)", "pair 3–2 (coarse)"],
-        rows: rows.into_iter().map(|(a, b, c)| vec![t(a), n(b), n(c)]).collect(),
-    }
-}
-
-/// The summary sentence of a mesh study.
-pub fn gci_summary(r: &GciResult) -> String {
-    format!(
-        "Apparent order p = {} ({}, {} fixed-point iterations); {} convergence. Fine-grid value \
-         {} with a discretisation uncertainty of ± {} (GCI {} %), extrapolated value {}. \
-         Asymptotic-range ratio GCI32 / (r21^p · GCI21) = {} (near 1 in the asymptotic range).",
-        num(r.order),
-        if r.order_iterations == 0 { "explicit, equal ratios" } else { "iterated" },
-        r.order_iterations,
-        if r.oscillatory() { "oscillatory" } else { "monotonic" },
-        num(r.grids[0].value),
-        num(r.fine_uncertainty()),
-        num(100.0 * r.fine.gci_fine),
-        num(r.fine.extrapolated),
-        num(r.asymptotic_ratio),
-    )
-}
-
-/// Note on what the GCI covers.
-pub const GCI_NOTE: &str = "Method: Celik et al. (2008), J. Fluids Eng. 130(7) 078001, with \
-    safety factor 1.25. The GCI estimates discretisation uncertainty only; it assumes the three \
-    grids are in the asymptotic range and says nothing about modelling error.";
 
 /// Key-value rows of the provenance header.
 pub fn provenance_facts(input: &ReportInput<'_>) -> Vec<(&'static str, String)> {
@@ -571,7 +299,7 @@ pub fn criteria_settings_table(input: &ReportInput<'_>) -> Table {
 }
 
 /// A count with grouped digits.
-fn count_text(c: u64) -> String {
+pub(crate) fn count_text(c: u64) -> String {
     iteration(i64::try_from(c).unwrap_or(i64::MAX))
 }
 

@@ -11,6 +11,7 @@ use crate::report::ReportInput;
 use crate::report::content::{self, Table};
 use crate::report::gci;
 use crate::report::text::{self, SAFETY, SAFETY_TITLE, xml};
+use crate::view::words::{self, Piece};
 
 const CSS: &str = r#"
 :root { color-scheme: light; }
@@ -48,6 +49,10 @@ table.findings td:last-child { min-width: 13em; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 td.met { color: #0d6a50; white-space: nowrap; }
 td.unmet { color: #a3122f; font-weight: 700; white-space: nowrap; }
+code { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 0.9em;
+  background: #f0f0f0; padding: 0 3px; border-radius: 2px; }
+table.monitors td.num { white-space: normal; }
+table.monitors td:first-child { word-break: break-word; }
 td.hash { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 0.85em;
   word-break: break-all; }
 dl.facts { display: grid; grid-template-columns: max-content 1fr; gap: 2px 14px; margin: 0.4em 0 1em; }
@@ -125,7 +130,7 @@ pub fn render_html(input: &ReportInput<'_>) -> String {
                 h,
                 "<li><b>{}</b>: {}<br><span class=\"evidence\">{}</span></li>",
                 xml(head),
-                xml(detail),
+                prose(detail),
                 xml(ev)
             );
         }
@@ -235,6 +240,17 @@ pub fn render_html(input: &ReportInput<'_>) -> String {
     h
 }
 
+/// A sentence of the judge, escaped, with its `` `code` `` spans as `<code>`.
+fn prose(s: &str) -> String {
+    words::code_spans(s)
+        .into_iter()
+        .map(|p| match p {
+            Piece::Text(t) => xml(t),
+            Piece::Code(c) => format!("<code>{}</code>", xml(c)),
+        })
+        .collect()
+}
+
 /// A table, or a sentence when it has no rows.
 fn table(h: &mut String, t: &Table, empty: &str) {
     if t.rows.is_empty() {
@@ -257,6 +273,9 @@ fn table(h: &mut String, t: &Table, empty: &str) {
         h.push_str("<tr>");
         for cell in row {
             match cell.class.css() {
+                _ if cell.class == content::Class::Prose => {
+                    let _ = write!(h, "<td>{}</td>", prose(&cell.text));
+                }
                 Some(class) => {
                     let _ = write!(h, "<td class=\"{class}\">{}</td>", xml(&cell.text));
                 }

@@ -7,9 +7,10 @@
 use std::fmt::Write;
 
 use crate::report::ReportInput;
-use crate::report::content::{self, Table};
+use crate::report::content::{self, Class, Table};
 use crate::report::gci;
 use crate::report::text::{self, SAFETY, SAFETY_TITLE, md, slug};
+use crate::view::words::{self, Piece};
 
 /// Render the report; returns the Markdown and the SVG files it links to, as
 /// (file name, content). File names start with `svg_prefix` (for example `wing-a4-`) so
@@ -45,7 +46,7 @@ pub fn render_markdown(
         let _ = writeln!(m, "{}\n", md(content::why_empty(j)));
     } else {
         for (head, detail, ev) in &why {
-            let _ = writeln!(m, "- **{}**: {}  \n  {}", md(head), md(detail), md(ev));
+            let _ = writeln!(m, "- **{}**: {}  \n  {}", md(head), prose(detail), md(ev));
         }
         m.push('\n');
     }
@@ -161,6 +162,19 @@ fn code(s: &str) -> String {
     if cleaned.is_empty() { "(none)".into() } else { format!("{fence} {cleaned} {fence}") }
 }
 
+/// A sentence of the judge: text escaped, `` `code` `` spans kept as Markdown code spans.
+fn prose(s: &str) -> String {
+    words::code_spans(s)
+        .into_iter()
+        .map(|p| match p {
+            Piece::Text(t) => md(t),
+            // A `|` would end a table cell even inside a code span.
+            Piece::Code(c) if !c.contains('|') => code(c),
+            Piece::Code(c) => md(c),
+        })
+        .collect()
+}
+
 fn table(m: &mut String, t: &Table, empty: &str) {
     if t.rows.is_empty() {
         if !empty.is_empty() {
@@ -179,7 +193,10 @@ fn table(m: &mut String, t: &Table, empty: &str) {
         .unwrap_or_default();
     let _ = writeln!(m, "|{}|", rule.join("|"));
     for row in &t.rows {
-        let cells: Vec<String> = row.iter().map(|c| md(&c.text)).collect();
+        let cells: Vec<String> = row
+            .iter()
+            .map(|c| if c.class == Class::Prose { prose(&c.text) } else { md(&c.text) })
+            .collect();
         let _ = writeln!(m, "| {} |", cells.join(" | "));
     }
     m.push('\n');

@@ -16,6 +16,12 @@ use std::fmt::Write;
 use crate::report::text::{iteration, num, xml};
 use crate::run::downsample::min_max;
 
+mod monitor;
+mod residual;
+
+pub use monitor::{MonitorMarks, monitor_plot};
+pub use residual::{Target, residual_plot};
+
 /// Number of min/max buckets a whole series is reduced to.
 pub const BUCKETS: usize = 600;
 
@@ -51,27 +57,6 @@ pub struct Line<'a> {
     pub segment_starts: &'a [usize],
     /// Index into the palette.
     pub style: usize,
-}
-
-/// A horizontal threshold on the residual plot, in data units.
-#[derive(Debug, Clone)]
-pub struct Target {
-    /// The series the threshold belongs to.
-    pub series: String,
-    /// The rule, e.g. `≥ 3 dec` or `≤ 1e-5`.
-    pub rule: String,
-    pub value: f64,
-    pub style: usize,
-}
-
-/// Marks on a monitor plot, all optional.
-#[derive(Debug, Clone, Copy, Default)]
-pub struct MonitorMarks {
-    pub window: Option<(i64, i64)>,
-    pub mean: Option<f64>,
-    pub ci_half: Option<f64>,
-    pub transient_end: Option<i64>,
-    pub extrapolated: Option<f64>,
 }
 
 /// Min/max envelope of a series in data coordinates, split at restarts and gaps.
@@ -124,9 +109,11 @@ fn envelope(line: &Line<'_>, log: bool) -> Envelope {
     Envelope { runs, non_finite }
 }
 
-/// Plot area and data bounds.
+/// A plot area on the page (its top-left corner and size in pixels) and its data bounds.
 struct Frame {
-    right: f64,
+    left: f64,
+    top: f64,
+    width: f64,
     height: f64,
     x0: f64,
     x1: f64,
@@ -135,8 +122,12 @@ struct Frame {
 }
 
 impl Frame {
+    /// A plot area across the page, leaving `right` pixels for labels at its right.
+    fn full(right: f64, height: f64, (x0, x1): (f64, f64), (y0, y1): (f64, f64)) -> Frame {
+        Frame { left: LEFT, top: TOP, width: WIDTH - LEFT - right, height, x0, x1, y0, y1 }
+    }
     fn pw(&self) -> f64 {
-        WIDTH - LEFT - self.right
+        self.width
     }
     fn ph(&self) -> f64 {
         self.height
@@ -150,6 +141,17 @@ impl Frame {
         let p = (self.y1 - y) / (self.y1 - self.y0) * self.ph();
         if p.is_nan() { self.ph() + 4.0 } else { p.clamp(-4.0, self.ph() + 4.0) }
     }
+}
+
+/// Open the clipping viewport of a plot area: inside it, coordinates are [`Frame::px`] and
+/// [`Frame::py`]. Close it with `</svg>`.
+fn viewport(out: &mut String, f: &Frame) {
+    let (pw, ph) = (f.pw(), f.ph());
+    let _ = write!(
+        out,
+        r#"<svg x="{:.1}" y="{:.1}" width="{pw:.1}" height="{ph:.1}" viewBox="0 0 {pw:.1} {ph:.1}" overflow="hidden">"#,
+        f.left, f.top
+    );
 }
 
 /// "Nice" tick step near `span / target`: 1, 2 or 5 times a power of ten.
@@ -279,17 +281,18 @@ fn open(out: &mut String, height: f64, title: &str, standalone: bool) {
 /// Axes, grid, ticks and axis labels around the plot area.
 fn axes(out: &mut String, f: &Frame, x_label: &str, y_label: &str, log: bool) {
     let (pw, ph) = (f.pw(), f.ph());
-    // x ticks (iterations).
-    let step = nice_step(f.x1 - f.x0, 8.0).max(1.0);
+    let (left, top) = (f.left, f.top);
+    // x ticks (iterations), fewer on a narrow panel.
+    let step = nice_step(f.x1 - f.x0, (pw / 110.0).clamp(3.0, 8.0)).max(1.0);
     for t in ticks(f.x0, f.x1, step) {
-        let x = LEFT + f.px(t);
+        let x = left + f.px(t);
         let _ = write!(
             out,
-            r##"<line x1="{x:.1}" y1="{TOP}" x2="{x:.1}" y2="{:.1}" stroke="#e3e3e3" stroke-width="1"/><line x1="{x:.1}" y1="{:.1}" x2="{x:.1}" y2="{:.1}" stroke="#444"/><text x="{x:.1}" y="{:.1}" text-anchor="middle" font-size="11">{}</text>"##,
-            TOP + ph,
-            TOP + ph,
-            TOP + ph + 5.0,
-            TOP + ph + 18.0,
+            r##"<line x1="{x:.1}" y1="{top:.1}" x2="{x:.1}" y2="{:.1}" stroke="#e3e3e3" stroke-width="1"/><line x1="{x:.1}" y1="{:.1}" x2="{x:.1}" y2="{:.1}" stroke="#444"/><text x="{x:.1}" y="{:.1}" text-anchor="middle" font-size="11">{}</text>"##,
+            top + ph,
+            top + ph,
+            top + ph + 5.0,
+            top + ph + 18.0,
             iteration(t.round() as i64)
         );
     }
@@ -298,7 +301,7 @@ fn axes(out: &mut String, f: &Frame, x_label: &str, y_label: &str, log: bool) {
     let (step, decades) =
         if log { ((span / 8.0).ceil().max(1.0), true) } else { (nice_step(span, 6.0), false) };
     for t in ticks(f.y0, f.y1, step) {
-        let y = TOP + f.py(t);
+        let y = top + f.py(t);
         let label = if decades {
             format!(r#"10<tspan dy="-6" font-size="9">{}</tspan>"#, t.round() as i64)
         } else {
@@ -306,30 +309,39 @@ fn axes(out: &mut String, f: &Frame, x_label: &str, y_label: &str, log: bool) {
         };
         let _ = write!(
             out,
-            r##"<line x1="{LEFT}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#e3e3e3" stroke-width="1"/><line x1="{:.1}" y1="{y:.1}" x2="{LEFT}" y2="{y:.1}" stroke="#444"/><text x="{:.1}" y="{:.1}" text-anchor="end" font-size="11">{label}</text>"##,
-            LEFT + pw,
-            LEFT - 5.0,
-            LEFT - 8.0,
+            r##"<line x1="{left:.1}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#e3e3e3" stroke-width="1"/><line x1="{:.1}" y1="{y:.1}" x2="{left:.1}" y2="{y:.1}" stroke="#444"/><text x="{:.1}" y="{:.1}" text-anchor="end" font-size="11">{label}</text>"##,
+            left + pw,
+            left - 5.0,
+            left - 8.0,
             y + 4.0
         );
     }
-    let _ = write!(
-        out,
-        r#"<text x="{:.1}" y="{:.1}" text-anchor="middle" font-size="12">{}</text><text x="16" y="{:.1}" text-anchor="middle" font-size="12" transform="rotate(-90 16 {:.1})">{}</text>"#,
-        LEFT + pw / 2.0,
-        TOP + ph + 36.0,
-        xml(x_label),
-        TOP + ph / 2.0,
-        TOP + ph / 2.0,
-        xml(y_label)
-    );
+    if !x_label.is_empty() {
+        let _ = write!(
+            out,
+            r#"<text x="{:.1}" y="{:.1}" text-anchor="middle" font-size="12">{}</text>"#,
+            left + pw / 2.0,
+            top + ph + 36.0,
+            xml(x_label)
+        );
+    }
+    if !y_label.is_empty() {
+        let (yx, yy) = (left - 62.0, top + ph / 2.0);
+        let _ = write!(
+            out,
+            r#"<text x="{yx:.1}" y="{yy:.1}" text-anchor="middle" font-size="12" transform="rotate(-90 {yx:.1} {yy:.1})">{}</text>"#,
+            xml(y_label)
+        );
+    }
 }
 
 /// The border of the plot area, drawn after everything inside so grid lines cannot cover it.
 fn border(out: &mut String, f: &Frame) {
     let _ = write!(
         out,
-        r##"<rect x="{LEFT}" y="{TOP}" width="{:.1}" height="{:.1}" fill="none" stroke="#444" stroke-width="1"/>"##,
+        r##"<rect x="{:.1}" y="{:.1}" width="{:.1}" height="{:.1}" fill="none" stroke="#444" stroke-width="1"/>"##,
+        f.left,
+        f.top,
         f.pw(),
         f.ph()
     );
@@ -366,249 +378,10 @@ fn empty_note(out: &mut String, f: &Frame, text: &str) {
     let _ = write!(
         out,
         r##"<text x="{:.1}" y="{:.1}" text-anchor="middle" font-size="13" fill="#444">{}</text>"##,
-        LEFT + f.pw() / 2.0,
-        TOP + f.ph() / 2.0,
+        f.left + f.pw() / 2.0,
+        f.top + f.ph() / 2.0,
         xml(text)
     );
-}
-
-/// Iterations at which a restart (segment after the first) begins, over all lines.
-fn restarts(lines: &[Line<'_>]) -> Vec<i64> {
-    let mut out: Vec<i64> = lines
-        .iter()
-        .flat_map(|l| {
-            l.segment_starts
-                .iter()
-                .filter(|&&s| s > 0 && s < l.iterations.len())
-                .map(|&s| l.iterations[s])
-        })
-        .collect();
-    out.sort_unstable();
-    out.dedup();
-    out
-}
-
-/// The residual history: log10 scale, one path per series, targets dashed, restarts marked.
-pub fn residual_plot(lines: &[Line<'_>], targets: &[Target], standalone: bool) -> String {
-    let envs: Vec<Envelope> = lines.iter().map(|l| envelope(l, true)).collect();
-    let mut legend = Legend { items: Vec::new() };
-    for l in lines {
-        let (colour, dash) = style(l.style);
-        legend.items.push((Key::Line { colour, dash, width: 1.8 }, l.name.to_string()));
-    }
-    let targets: Vec<&Target> =
-        targets.iter().filter(|t| t.value.is_finite() && t.value > 0.0).collect();
-    if !targets.is_empty() {
-        legend.items.push((
-            Key::Line { colour: "#555555", dash: "5 4", width: 1.0 },
-            "criterion threshold (dashed, labelled)".into(),
-        ));
-    }
-    let restart_its = restarts(lines);
-    if !restart_its.is_empty() {
-        legend.items.push((
-            Key::Line { colour: "#666666", dash: "1 3", width: 1.2 },
-            "restart (vertical)".into(),
-        ));
-    }
-    let ph = 300.0;
-    let height = TOP + ph + AXIS_SPACE + legend.rows() * LEGEND_ROW + 8.0;
-    let mut out = String::with_capacity(64 * 1024);
-    open(&mut out, height, "Residual history, log scale", standalone);
-
-    let mut lo = f64::INFINITY;
-    let mut hi = f64::NEG_INFINITY;
-    for e in &envs {
-        for run in &e.runs {
-            for &(_, l, h) in run {
-                for v in [l, h] {
-                    if v.is_finite() {
-                        lo = lo.min(v);
-                        hi = hi.max(v);
-                    }
-                }
-            }
-        }
-    }
-    for t in &targets {
-        lo = lo.min(t.value.log10());
-        hi = hi.max(t.value.log10());
-    }
-    let xb = x_bounds(lines.iter());
-    let (y0, y1) = if lo <= hi {
-        let (a, b) = (lo.floor(), hi.ceil());
-        if b > a { (a, b) } else { (a - 1.0, a + 1.0) }
-    } else {
-        (-6.0, 0.0)
-    };
-    let (x0, x1) = xb.unwrap_or((0.0, 1.0));
-    let f = Frame { right: RIGHT_NAMED, height: ph, x0, x1, y0, y1 };
-    axes(&mut out, &f, "iteration", "residual (log scale)", true);
-    let _ = write!(
-        out,
-        r#"<svg x="{LEFT}" y="{TOP}" width="{:.1}" height="{ph:.1}" viewBox="0 0 {:.1} {ph:.1}" overflow="hidden">"#,
-        f.pw(),
-        f.pw()
-    );
-    for &it in &restart_its {
-        let x = f.px(it as f64);
-        let _ = write!(
-            out,
-            r##"<line x1="{x:.1}" y1="0" x2="{x:.1}" y2="{ph:.1}" stroke="#666666" stroke-width="1.2" stroke-dasharray="1 3"/><text x="{:.1}" y="12" font-size="10" fill="#444">restart</text>"##,
-            x + 3.0
-        );
-    }
-    let targets = group_targets(&targets, &f);
-    for t in &targets {
-        let y = f.py(t.value.log10());
-        let _ = write!(
-            out,
-            r#"<line x1="0" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="{}" stroke-width="1" stroke-dasharray="5 4"/>"#,
-            f.pw(),
-            t.colour
-        );
-    }
-    for (l, e) in lines.iter().zip(&envs) {
-        let (colour, dash) = style(l.style);
-        let _ = write!(
-            out,
-            r#"<path d="{}" fill="none" stroke="{colour}" stroke-width="1.8" stroke-linejoin="round"{}><title>{}</title></path>"#,
-            path_data(e, &f),
-            dash_attr(dash),
-            xml(l.name)
-        );
-        non_finite_marks(&mut out, &f, e, colour);
-    }
-    target_labels(&mut out, &f, &targets, &envs);
-    out.push_str("</svg>");
-    border(&mut out, &f);
-    end_labels(&mut out, &f, lines, &envs);
-    if lines.iter().all(|l| l.values.is_empty()) {
-        empty_note(&mut out, &f, "no residual values were read");
-    } else if envs.iter().all(|e| e.runs.is_empty()) {
-        empty_note(&mut out, &f, "no finite residual values to plot");
-    }
-    legend.draw(&mut out, TOP + ph + AXIS_SPACE + 6.0);
-    out.push_str("</svg>");
-    out
-}
-
-/// Thresholds that would draw on top of each other (within a few pixels) share one line and
-/// one label.
-struct TargetLine {
-    value: f64,
-    colour: &'static str,
-    label: String,
-}
-
-fn group_targets(targets: &[&Target], f: &Frame) -> Vec<TargetLine> {
-    let mut sorted: Vec<&Target> = targets.to_vec();
-    sorted.sort_by(|a, b| b.value.total_cmp(&a.value));
-    let mut out: Vec<(TargetLine, Vec<&Target>)> = Vec::new();
-    for t in sorted {
-        let y = f.py(t.value.log10());
-        match out.last_mut() {
-            Some((line, members)) if (f.py(line.value.log10()) - y).abs() < 6.0 => {
-                members.push(t);
-                line.colour = "#555555";
-            }
-            _ => out.push((
-                TargetLine { value: t.value, colour: style(t.style).0, label: String::new() },
-                vec![t],
-            )),
-        }
-    }
-    out.into_iter()
-        .map(|(mut line, members)| {
-            // "p ≥ 3 dec" + "Ux ≥ 3 dec" → "p, Ux ≥ 3 dec" when the rule is the same.
-            line.label = if members.iter().all(|m| m.rule == members[0].rule) {
-                let names: Vec<&str> = members.iter().map(|m| m.series.as_str()).collect();
-                format!("{} {}", names.join(", "), members[0].rule)
-            } else {
-                let parts: Vec<String> =
-                    members.iter().map(|m| format!("{} {}", m.series, m.rule)).collect();
-                parts.join("; ")
-            };
-            line
-        })
-        .collect()
-}
-
-/// Labels of the threshold lines, on top of the series with a white halo, on whichever side
-/// of the line (above or below) fewer series pass through.
-fn target_labels(out: &mut String, f: &Frame, targets: &[TargetLine], envs: &[Envelope]) {
-    for t in targets {
-        let y = f.py(t.value.log10());
-        let width = 6.2 * t.label.chars().count() as f64 + 8.0;
-        let x0 = f.pw() - width;
-        // How many envelope samples cross the band [a, b] within the label's width.
-        let crowd = |a: f64, b: f64| {
-            envs.iter()
-                .flat_map(|e| e.runs.iter().flatten())
-                .filter(|&&(x, lo, hi)| {
-                    f.px(x) >= x0 && f.py(hi).min(f.py(lo)) <= b && f.py(hi).max(f.py(lo)) >= a
-                })
-                .count()
-        };
-        let above = if y < 14.0 { usize::MAX } else { crowd(y - 14.0, y - 1.0) };
-        let below = if y > f.ph() - 14.0 { usize::MAX } else { crowd(y + 1.0, y + 14.0) };
-        let ty = if below < above { y + 12.0 } else { y - 4.0 };
-        let _ = write!(
-            out,
-            r##"<text x="{:.1}" y="{ty:.1}" text-anchor="end" font-size="10.5" fill="#111" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round" paint-order="stroke">{}</text>"##,
-            f.pw() - 4.0,
-            xml(&t.label)
-        );
-    }
-}
-
-/// Each series named in the right margin at the height of its last value, with a leader line,
-/// so series can be told apart without colour (greyscale print) and without the legend.
-fn end_labels(out: &mut String, f: &Frame, lines: &[Line<'_>], envs: &[Envelope]) {
-    let mut labels: Vec<(f64, f64, &Line<'_>)> = lines
-        .iter()
-        .zip(envs)
-        .filter_map(|(l, e)| {
-            let &(_, lo, hi) = e.runs.last()?.last()?;
-            let y = TOP + f.py((lo + hi) / 2.0);
-            Some((y, y, l))
-        })
-        .collect();
-    labels.sort_by(|a, b| a.0.total_cmp(&b.0));
-    // Push labels apart (12 px), then back up if the last one fell off the bottom.
-    const GAP: f64 = 12.0;
-    for k in 1..labels.len() {
-        labels[k].1 = labels[k].1.max(labels[k - 1].1 + GAP);
-    }
-    let bottom = TOP + f.ph() + 6.0;
-    if let Some(last) = labels.last().map(|l| l.1)
-        && last > bottom
-    {
-        let shift = last - bottom;
-        for l in &mut labels {
-            l.1 -= shift;
-        }
-        for k in (0..labels.len().saturating_sub(1)).rev() {
-            labels[k].1 = labels[k].1.min(labels[k + 1].1 - GAP);
-        }
-    }
-    let x = LEFT + f.pw();
-    for (y, ly, l) in labels {
-        let (colour, _) = style(l.style);
-        let name: String = if l.name.chars().count() > 11 {
-            l.name.chars().take(10).chain(['…']).collect()
-        } else {
-            l.name.to_string()
-        };
-        let _ = write!(
-            out,
-            r##"<line x1="{x:.1}" y1="{y:.1}" x2="{:.1}" y2="{ly:.1}" stroke="{colour}" stroke-width="1.4"/><text x="{:.1}" y="{:.1}" font-size="10.5" fill="#222">{}</text>"##,
-            x + 10.0,
-            x + 13.0,
-            ly + 3.5,
-            xml(&name)
-        );
-    }
 }
 
 /// Small downward triangles at the top edge where a bucket held NaN or infinity.
@@ -628,166 +401,6 @@ fn non_finite_marks(out: &mut String, f: &Frame, e: &Envelope, colour: &str) {
             iteration(x as i64)
         );
     }
-}
-
-/// One monitor: its history, the final window shaded, the window mean and its confidence band,
-/// the end of the start-up transient and the extrapolated value when known.
-pub fn monitor_plot(line: &Line<'_>, marks: &MonitorMarks, standalone: bool) -> String {
-    let env = envelope(line, false);
-    let (colour, dash) = style(line.style);
-    let mut legend = Legend { items: Vec::new() };
-    legend.items.push((Key::Line { colour, dash, width: 1.6 }, line.name.to_string()));
-    if marks.window.is_some() {
-        legend.items.push((Key::Swatch { fill: "#9a9a9a", opacity: 0.25 }, "final window".into()));
-    }
-    if marks.mean.is_some() {
-        legend.items.push((
-            Key::Line { colour: "#111111", dash: "", width: 1.4 },
-            "mean over the final window".into(),
-        ));
-    }
-    if marks.mean.is_some() && marks.ci_half.is_some() {
-        legend
-            .items
-            .push((Key::Swatch { fill: colour, opacity: 0.35 }, "95 % CI of the mean".into()));
-    }
-    if marks.transient_end.is_some() {
-        legend.items.push((
-            Key::Line { colour: "#444444", dash: "6 3", width: 1.0 },
-            "start-up transient ends (vertical)".into(),
-        ));
-    }
-
-    // Vertical range: the values after the start-up transient, so that a large initial
-    // swing does not flatten the part that matters; the transient is clipped, not rescaled.
-    let skip_until = marks.transient_end.unwrap_or(i64::MIN);
-    let mut lo = f64::INFINITY;
-    let mut hi = f64::NEG_INFINITY;
-    for (&it, &v) in line.iterations.iter().zip(line.values) {
-        if it >= skip_until && v.is_finite() {
-            lo = lo.min(v);
-            hi = hi.max(v);
-        }
-    }
-    if let (Some(m), ci) = (marks.mean, marks.ci_half.unwrap_or(0.0))
-        && m.is_finite()
-        && ci.is_finite()
-    {
-        lo = lo.min(m - ci);
-        hi = hi.max(m + ci);
-    }
-    let mut extrap_off_scale = false;
-    if let Some(x) = marks.extrapolated.filter(|x| x.is_finite()) {
-        // Scale of the data itself (for a flat history: its magnitude), never of `x`.
-        let span = if hi > lo { hi - lo } else { lo.abs().max(f64::MIN_POSITIVE) };
-        if lo <= hi && (x < lo - 2.0 * span || x > hi + 2.0 * span) {
-            extrap_off_scale = true;
-        } else {
-            lo = lo.min(x);
-            hi = hi.max(x);
-        }
-    }
-    if let Some(x) = marks.extrapolated.filter(|x| x.is_finite()) {
-        let label = if extrap_off_scale {
-            format!("extrapolated value {} (off scale)", num(x))
-        } else {
-            "extrapolated converged value".to_string()
-        };
-        legend.items.push((Key::Line { colour: "#111111", dash: "2 2 8 2", width: 1.2 }, label));
-    }
-    let (y0, y1) = if lo < hi {
-        let pad = (hi - lo) * 0.08;
-        (lo - pad, hi + pad)
-    } else if lo == hi {
-        let pad = (lo.abs() * 1e-3).max(1e-12);
-        (lo - pad, hi + pad)
-    } else {
-        (0.0, 1.0)
-    };
-
-    let ph = 220.0;
-    let height = TOP + ph + AXIS_SPACE + legend.rows() * LEGEND_ROW + 8.0;
-    let mut out = String::with_capacity(48 * 1024);
-    open(&mut out, height, &format!("Monitor {}", line.name), standalone);
-    let (x0, x1) = x_bounds(std::iter::once(line)).unwrap_or((0.0, 1.0));
-    let f = Frame { right: RIGHT, height: ph, x0, x1, y0, y1 };
-    axes(&mut out, &f, "iteration", line.name, false);
-    let _ = write!(
-        out,
-        r#"<svg x="{LEFT}" y="{TOP}" width="{:.1}" height="{ph:.1}" viewBox="0 0 {:.1} {ph:.1}" overflow="hidden">"#,
-        f.pw(),
-        f.pw()
-    );
-    if let Some((a, b)) = marks.window {
-        let (xa, xb) = (f.px(a as f64), f.px(b as f64));
-        let _ = write!(
-            out,
-            r##"<rect x="{:.1}" y="0" width="{:.1}" height="{ph:.1}" fill="#9a9a9a" fill-opacity="0.25"/>"##,
-            xa.min(xb),
-            (xb - xa).abs().max(1.0)
-        );
-    }
-    if let Some(t) = marks.transient_end {
-        let x = f.px(t as f64);
-        let _ = write!(
-            out,
-            r##"<line x1="{x:.1}" y1="0" x2="{x:.1}" y2="{ph:.1}" stroke="#444444" stroke-width="1" stroke-dasharray="6 3"/>"##
-        );
-    }
-    if let Some(x) = marks.extrapolated.filter(|x| x.is_finite() && !extrap_off_scale) {
-        let y = f.py(x);
-        let _ = write!(
-            out,
-            r##"<line x1="0" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#111111" stroke-width="1.2" stroke-dasharray="2 2 8 2"/>"##,
-            f.pw()
-        );
-    }
-    let _ = write!(
-        out,
-        r#"<path d="{}" fill="none" stroke="{colour}" stroke-width="1.6" stroke-linejoin="round"{}><title>{}</title></path>"#,
-        path_data(&env, &f),
-        dash_attr(dash),
-        xml(line.name)
-    );
-    non_finite_marks(&mut out, &f, &env, colour);
-    if let Some(t) = marks.transient_end {
-        let x = f.px(t as f64);
-        if x > 180.0 {
-            let _ = write!(
-                out,
-                r##"<text x="{:.1}" y="13" text-anchor="end" font-size="10.5" fill="#222" stroke="#ffffff" stroke-width="3.5" stroke-linejoin="round" paint-order="stroke">start-up transient (not judged)</text>"##,
-                x - 5.0
-            );
-        }
-    }
-    // Mean and confidence band on top of the (often dense) history, so they stay visible.
-    if let (Some((a, b)), Some(m)) = (marks.window, marks.mean.filter(|m| m.is_finite())) {
-        let (xa, xb) = (f.px(a as f64), f.px(b as f64));
-        let (x, w) = (xa.min(xb), (xb - xa).abs().max(1.0));
-        if let Some(ci) = marks.ci_half.filter(|c| c.is_finite()) {
-            let (ya, yb) = (f.py(m + ci), f.py(m - ci));
-            let _ = write!(
-                out,
-                r##"<rect x="{x:.1}" y="{ya:.1}" width="{w:.1}" height="{:.1}" fill="{colour}" fill-opacity="0.35" stroke="#111111" stroke-width="0.6" stroke-dasharray="2 2"/>"##,
-                (yb - ya).max(1.0)
-            );
-        }
-        let y = f.py(m);
-        let _ = write!(
-            out,
-            r##"<line x1="{x:.1}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#ffffff" stroke-width="3.4"/><line x1="{x:.1}" y1="{y:.1}" x2="{:.1}" y2="{y:.1}" stroke="#111111" stroke-width="1.6"/>"##,
-            x + w,
-            x + w
-        );
-    }
-    out.push_str("</svg>");
-    border(&mut out, &f);
-    if env.runs.is_empty() {
-        empty_note(&mut out, &f, "no finite values to plot");
-    }
-    legend.draw(&mut out, TOP + ph + AXIS_SPACE + 6.0);
-    out.push_str("</svg>");
-    out
 }
 
 #[cfg(test)]

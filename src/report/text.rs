@@ -6,6 +6,7 @@
 //! neither inject markup nor put control characters into a report.
 
 use crate::judge::{Comparison, CriterionResult, Finding, FindingKind, Verdict};
+use crate::view::number;
 
 /// The safety statement of every report (DESIGN §9), in plain words.
 pub const SAFETY: &str = "A convergence verdict is evidence drawn from the solver's own output \
@@ -103,55 +104,39 @@ pub fn threshold_text(c: &CriterionResult) -> String {
         Comparison::AtLeast => "≥",
         Comparison::AtMost => "≤",
     };
-    format!("{op} {}", with_unit(c.threshold, &c.unit))
+    let unit = if c.unit.is_empty() { String::new() } else { format!("{NBSP}{}", c.unit) };
+    format!("{op}{NBSP}{}{unit}", exact(c.threshold))
 }
 
-/// A number with its unit (`dec`, `%` or none).
+/// A no-break space: between a number and its unit, so a narrow table cell never puts the
+/// unit on a line of its own.
+pub const NBSP: char = '\u{a0}';
+
+/// A number with its unit (`dec`, `%` or none), joined by a no-break space.
 pub fn with_unit(v: f64, unit: &str) -> String {
-    if unit.is_empty() || !v.is_finite() { num(v) } else { format!("{} {unit}", num(v)) }
+    if unit.is_empty() || !v.is_finite() { num(v) } else { format!("{}{NBSP}{unit}", num(v)) }
 }
 
-/// Compact number for tables: six significant digits, scientific outside [1e-3, 1e6).
+/// A measured number for tables and sentences: three significant digits
+/// ([`crate::view::number::value`], the rule every view shares), `n/a` for NaN.
 pub fn num(v: f64) -> String {
-    if v.is_nan() {
-        return "n/a".into();
-    }
-    if v.is_infinite() {
-        return if v > 0.0 { "inf".into() } else { "-inf".into() };
-    }
-    if v == 0.0 {
-        return "0".into();
-    }
-    let a = v.abs();
-    if !(1e-3..1e6).contains(&a) {
-        let s = format!("{v:.4e}");
-        // Trim zeros of the mantissa: 1.2000e-5 → 1.2e-5.
-        return match s.split_once('e') {
-            Some((m, e)) if m.contains('.') => {
-                format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.'))
-            }
-            _ => s,
-        };
-    }
-    let decimals = (5 - a.log10().floor() as i32).clamp(0, 12) as usize;
-    let s = format!("{v:.decimals$}");
-    if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s }
+    if v.is_nan() { "n/a".into() } else { number::value(v) }
+}
+
+/// A threshold as it was set (`0.1`, `3`, `1e-5`).
+pub fn exact(v: f64) -> String {
+    if v.is_nan() { "n/a".into() } else { number::exact(v) }
+}
+
+/// `mean ± half-width` to the precision the interval supports (`0.266274 ± 7e-6`).
+pub fn plus_minus(v: f64, half: f64) -> String {
+    let r = number::with_uncertainty(v, half);
+    if v.is_nan() { "n/a".into() } else { format!("{}{NBSP}±{NBSP}{}", r.value, r.uncertainty) }
 }
 
 /// An iteration number with thin groups of three digits (`12 480`).
 pub fn iteration(i: i64) -> String {
-    let digits = i.unsigned_abs().to_string();
-    let mut out = String::with_capacity(digits.len() + 4);
-    if i < 0 {
-        out.push('-');
-    }
-    for (k, ch) in digits.chars().enumerate() {
-        if k > 0 && (digits.len() - k) % 3 == 0 {
-            out.push('\u{202f}');
-        }
-        out.push(ch);
-    }
-    out
+    number::grouped(i, '\u{202f}')
 }
 
 /// An iteration range `a–b`.
@@ -269,13 +254,16 @@ mod tests {
 
     #[test]
     fn numbers_are_compact_and_honest() {
-        assert_eq!(num(0.031214567), "0.0312146");
+        assert_eq!(num(0.031214567), "0.0312");
         assert_eq!(num(1.5e-5), "1.5e-5");
         assert_eq!(num(-2.0e7), "-2e7");
         assert_eq!(num(3.0), "3");
-        assert_eq!(num(123456.7), "123457");
+        assert_eq!(num(12345.7), "12346");
         assert_eq!(num(f64::NAN), "n/a");
         assert_eq!(num(0.001), "0.001");
+        assert_eq!(exact(0.1), "0.1");
+        assert_eq!(plus_minus(0.266274, 6.8987e-6), "0.266274\u{a0}±\u{a0}7e-6");
+        assert_eq!(with_unit(6.9151, "dec"), "6.92\u{a0}dec");
         assert_eq!(p_value(0.0), "< 1e-12");
     }
 

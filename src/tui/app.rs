@@ -7,30 +7,26 @@
 //! decides `stale`, calls the hooks and rebuilds snapshots. Time is always passed in, never
 //! read here, so every behaviour is testable without a clock or a terminal.
 
-use std::collections::VecDeque;
-use std::time::{Duration, SystemTime};
+mod keys;
+mod rate;
 
-use crossterm::event::{
-    Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers, MouseButton, MouseEvent, MouseEventKind,
-};
+use std::time::{Duration, SystemTime};
 
 use crate::judge::{Criteria, Finding, Judgement, Verdict};
 use crate::run::RunStore;
 use crate::run::ingest::{self, IngestBatch, IngestItem, SourceActivity};
 
 use super::format;
-use super::render;
+use super::geometry;
 use super::theme::Theme;
 pub use super::view::Window;
 use super::view::{self, ChartSpec, DetailData, RunView, ViewInputs};
 use super::{LiveHooks, LiveRun, TuiOptions};
+use rate::RateMeter;
+pub use rate::judge_gap;
 
 /// How many extra findings (action audit entries) a run keeps.
 const MAX_EXTRA_FINDINGS: usize = 200;
-/// The iteration rate is measured over at most this much recent growth.
-const RATE_WINDOW: Duration = Duration::from_secs(300);
-/// ... and needs at least this span of samples.
-const RATE_MIN_SPAN: Duration = Duration::from_secs(5);
 
 /// The judge as the app calls it; replaceable for tests.
 pub type JudgeFn = Box<dyn FnMut(&RunStore, &Criteria) -> Judgement>;
@@ -57,51 +53,6 @@ pub enum KeyOutcome {
     Suspend,
     /// Quit with this exit code.
     Quit(i32),
-}
-
-/// Iteration rate from recent growth samples.
-#[derive(Debug, Clone, Default)]
-struct RateMeter {
-    samples: VecDeque<(SystemTime, i64)>,
-}
-
-impl RateMeter {
-    fn push(&mut self, t: SystemTime, it: i64) {
-        if self.samples.back().is_some_and(|&(bt, bi)| it < bi || t < bt) {
-            self.samples.clear();
-        }
-        while self
-            .samples
-            .front()
-            .is_some_and(|&(ft, _)| t.duration_since(ft).is_ok_and(|d| d > RATE_WINDOW))
-        {
-            self.samples.pop_front();
-        }
-        self.samples.push_back((t, it));
-    }
-
-    /// Iterations per minute; `None` until samples span a few seconds, or when the newest
-    /// sample is older than the window.
-    fn per_min(&self, now: SystemTime) -> Option<f64> {
-        let (&(t0, i0), &(t1, i1)) = (self.samples.front()?, self.samples.back()?);
-        let span = t1.duration_since(t0).ok()?;
-        if span < RATE_MIN_SPAN || now.duration_since(t1).is_ok_and(|d| d > RATE_WINDOW) {
-            return None;
-        }
-        Some((i1 - i0) as f64 / span.as_secs_f64() * 60.0)
-    }
-}
-
-/// Least time between two judgements of one run: the refresh interval, stretched so that
-/// judging all `active` runs takes at most about 5 % of one core (each judgement costing
-/// `cost`). One run is judged every refresh; 200 runs of 20 ms each about once a minute.
-pub fn judge_gap(
-    refresh: std::time::Duration,
-    cost: std::time::Duration,
-    active: usize,
-) -> std::time::Duration {
-    const SHARE: u32 = 20;
-    refresh.max(cost * SHARE * active.max(1) as u32)
 }
 
 /// One run with its app-side state.
@@ -147,6 +98,8 @@ pub struct App {
     pub(crate) item_scroll: usize,
     pub(crate) detail: DetailData,
     pub(crate) help: bool,
+    /// The whole why is shown over the run page (`y`).
+    pub(crate) why_open: bool,
     pub(crate) paused: bool,
     pub(crate) mouse: bool,
     pub(crate) size: (u16, u16),
@@ -210,6 +163,7 @@ impl App {
             item_scroll: 0,
             detail: DetailData::default(),
             help: false,
+            why_open: false,
             paused: false,
             mouse: opts.mouse,
             size: (80, 24),
@@ -318,6 +272,11 @@ impl App {
 
     pub fn help_shown(&self) -> bool {
         self.help
+    }
+
+    /// The whole why is shown over the run page.
+    pub fn why_shown(&self) -> bool {
+        self.why_open
     }
 
     /// Mouse capture wanted (the loop applies it to the terminal).
@@ -457,7 +416,7 @@ impl App {
         let visible: Vec<usize> = match self.screen {
             Screen::Run(i) => vec![i],
             Screen::Overview => {
-                let rows = render::overview_rows(self.size.1);
+                let rows = geometry::overview_rows(self.size.1);
                 let start = scroll_start(self.selected, self.offset, rows);
                 self.order.iter().skip(start).take(rows).copied().collect()
             }
@@ -523,246 +482,9 @@ impl App {
             window: self.window,
             focus: self.focus,
             monitor_log: self.monitor_log,
-            buckets: render::chart_columns(self.size) * res,
+            buckets: geometry::chart_columns(self.size) * res,
         };
         self.detail = view::build_detail(&slot.live, &slot.view, &spec, slot.frozen.as_deref());
-    }
-
-    // ----- input -----------------------------------------------------------------------
-
-    /// Handle one terminal event.
-    pub fn handle_event(&mut self, ev: &Event) -> KeyOutcome {
-        match ev {
-            Event::Key(k) => self.handle_key(k),
-            Event::Mouse(m) => self.handle_mouse(m),
-            Event::Resize(w, h) => {
-                self.resize(*w, *h);
-                KeyOutcome::Redraw
-            }
-            _ => KeyOutcome::Ignored,
-        }
-    }
-
-    /// Handle one key (press or repeat; releases are ignored).
-    pub fn handle_key(&mut self, key: &KeyEvent) -> KeyOutcome {
-        if key.kind == KeyEventKind::Release {
-            return KeyOutcome::Ignored;
-        }
-        let ctrl = key.modifiers.contains(KeyModifiers::CONTROL);
-        if ctrl {
-            return match key.code {
-                KeyCode::Char('c') => KeyOutcome::Quit(super::EXIT_CTRL_C),
-                KeyCode::Char('z') => KeyOutcome::Suspend,
-                KeyCode::Char('l') => KeyOutcome::Repaint,
-                _ => KeyOutcome::Ignored,
-            };
-        }
-        if key.code == KeyCode::Char('q') {
-            return KeyOutcome::Quit(super::EXIT_QUIT);
-        }
-        if self.help {
-            self.help = false;
-            return self.redraw();
-        }
-        match key.code {
-            KeyCode::Char('?') => {
-                self.help = true;
-                self.redraw()
-            }
-            KeyCode::Char('p') => {
-                self.set_paused(!self.paused);
-                self.redraw()
-            }
-            KeyCode::Char('m') => {
-                self.mouse = !self.mouse;
-                self.redraw()
-            }
-            _ => match self.screen {
-                Screen::Overview => self.overview_key(key.code),
-                Screen::Run(i) => self.run_key(i, key.code),
-            },
-        }
-    }
-
-    fn redraw(&mut self) -> KeyOutcome {
-        self.needs_draw = true;
-        KeyOutcome::Redraw
-    }
-
-    fn overview_key(&mut self, code: KeyCode) -> KeyOutcome {
-        let n = self.order.len();
-        let page = render::overview_rows(self.size.1).max(1);
-        let sel = self.selected;
-        let new = match code {
-            KeyCode::Up | KeyCode::Char('k') => sel.saturating_sub(1),
-            KeyCode::Down | KeyCode::Char('j') => (sel + 1).min(n.saturating_sub(1)),
-            KeyCode::PageUp => sel.saturating_sub(page),
-            KeyCode::PageDown => (sel + page).min(n.saturating_sub(1)),
-            KeyCode::Home | KeyCode::Char('g') => 0,
-            KeyCode::End | KeyCode::Char('G') => n.saturating_sub(1),
-            KeyCode::Enter | KeyCode::Right | KeyCode::Char('o') => {
-                return match self.selected_run() {
-                    Some(r) => self.open(r),
-                    None => KeyOutcome::Ignored,
-                };
-            }
-            KeyCode::Char('a') => {
-                return match self.selected_run() {
-                    Some(r) => self.toggle_ack(r),
-                    None => KeyOutcome::Ignored,
-                };
-            }
-            _ => return KeyOutcome::Ignored,
-        };
-        if new == sel {
-            return KeyOutcome::Ignored;
-        }
-        self.selected = new;
-        self.offset = scroll_start(new, self.offset, page);
-        self.redraw()
-    }
-
-    fn run_key(&mut self, run: usize, code: KeyCode) -> KeyOutcome {
-        let many = self.slots.len() > 1;
-        let nseries = self.slots.get(run).map_or(0, |s| s.view.series.len());
-        match code {
-            KeyCode::Esc | KeyCode::Backspace | KeyCode::Char('b') if many => {
-                self.screen = Screen::Overview;
-                self.detail = DetailData::default();
-                self.redraw()
-            }
-            KeyCode::Tab | KeyCode::Right => {
-                self.focus = match self.focus {
-                    None if nseries > 0 => Some(0),
-                    Some(f) if f + 1 < nseries => Some(f + 1),
-                    _ => None,
-                };
-                self.rebuild_detail();
-                self.redraw()
-            }
-            KeyCode::BackTab | KeyCode::Left => {
-                self.focus = match self.focus {
-                    None if nseries > 0 => Some(nseries - 1),
-                    Some(f) if f > 0 => Some(f - 1),
-                    _ => None,
-                };
-                self.rebuild_detail();
-                self.redraw()
-            }
-            KeyCode::Char('w') => {
-                let w = self.slots[run].live.criteria.window.unwrap_or(Criteria::DEFAULT_WINDOW);
-                self.window = match self.window {
-                    Window::All => Window::Last(w * 4),
-                    Window::Last(n) if n > w => Window::Last(w),
-                    Window::Last(_) => Window::All,
-                };
-                self.rebuild_detail();
-                self.redraw()
-            }
-            KeyCode::Char('l') => {
-                self.monitor_log = !self.monitor_log;
-                self.rebuild_detail();
-                self.redraw()
-            }
-            KeyCode::Char('a') => self.toggle_ack(run),
-            KeyCode::Down | KeyCode::Char('j') => self.scroll_items(run, 1),
-            KeyCode::Up | KeyCode::Char('k') => self.scroll_items(run, -1),
-            KeyCode::PageDown => self.scroll_items(run, 10),
-            KeyCode::PageUp => self.scroll_items(run, -10),
-            KeyCode::Home | KeyCode::Char('g') => self.scroll_items(run, isize::MIN / 2),
-            _ => KeyOutcome::Ignored,
-        }
-    }
-
-    fn scroll_items(&mut self, run: usize, by: isize) -> KeyOutcome {
-        let n = self.slots.get(run).map_or(0, |s| s.view.items.len());
-        let new = (self.item_scroll as isize + by).clamp(0, n.saturating_sub(1) as isize) as usize;
-        if new == self.item_scroll {
-            return KeyOutcome::Ignored;
-        }
-        self.item_scroll = new;
-        self.redraw()
-    }
-
-    /// Open run `i` in its own page.
-    pub fn open(&mut self, i: usize) -> KeyOutcome {
-        if i >= self.slots.len() {
-            return KeyOutcome::Ignored;
-        }
-        self.screen = Screen::Run(i);
-        self.focus = None;
-        self.item_scroll = 0;
-        if let Some(k) = self.order.iter().position(|&x| x == i) {
-            self.selected = k;
-        }
-        self.rebuild_detail();
-        self.redraw()
-    }
-
-    fn toggle_ack(&mut self, run: usize) -> KeyOutcome {
-        let slot = &mut self.slots[run];
-        slot.ack = if slot.acknowledged() { None } else { Some(slot.view.verdict) };
-        if !self.paused {
-            self.resort();
-        }
-        self.redraw()
-    }
-
-    /// Freeze (or unfreeze) what the panels show; data keeps flowing into the stores and the
-    /// judge and hooks keep running.
-    pub fn set_paused(&mut self, paused: bool) {
-        if paused == self.paused {
-            return;
-        }
-        self.paused = paused;
-        if paused {
-            for s in &mut self.slots {
-                s.frozen = Some(s.live.store.sources.iter().map(|src| src.records()).collect());
-                s.pending = 0;
-            }
-        } else {
-            for i in 0..self.slots.len() {
-                self.slots[i].frozen = None;
-                self.slots[i].pending = 0;
-                self.rebuild_view(i);
-            }
-            self.resort();
-            self.rebuild_detail();
-        }
-        self.needs_draw = true;
-    }
-
-    fn handle_mouse(&mut self, m: &MouseEvent) -> KeyOutcome {
-        let code = match m.kind {
-            MouseEventKind::ScrollDown => KeyCode::Down,
-            MouseEventKind::ScrollUp => KeyCode::Up,
-            MouseEventKind::Down(MouseButton::Left) if self.screen == Screen::Overview => {
-                let top = render::OVERVIEW_TABLE_TOP;
-                if m.row < top {
-                    return KeyOutcome::Ignored;
-                }
-                let rows = render::overview_rows(self.size.1);
-                let start = scroll_start(self.selected, self.offset, rows);
-                let pos = start + (m.row - top) as usize;
-                if pos >= self.order.len() || (m.row - top) as usize >= rows {
-                    return KeyOutcome::Ignored;
-                }
-                if pos == self.selected {
-                    return self.open(self.order[pos]);
-                }
-                self.selected = pos;
-                self.offset = start;
-                return self.redraw();
-            }
-            _ => return KeyOutcome::Ignored,
-        };
-        if self.help {
-            return KeyOutcome::Ignored;
-        }
-        match self.screen {
-            Screen::Overview => self.overview_key(code),
-            Screen::Run(i) => self.run_key(i, code),
-        }
     }
 }
 
@@ -792,20 +514,4 @@ fn stale_transition(live: &LiveRun, limit: Duration) -> Option<SystemTime> {
     }
     let last = live.activity.iter().filter_map(|a| a.last_growth).max()?;
     Some(last + limit + Duration::from_millis(1))
-}
-
-#[cfg(test)]
-mod budget_tests {
-    use super::judge_gap;
-    use std::time::Duration;
-
-    #[test]
-    fn judging_many_runs_is_spread_out() {
-        let refresh = Duration::from_secs(1);
-        // One run: the refresh interval decides.
-        assert_eq!(judge_gap(refresh, Duration::from_millis(20), 1), refresh);
-        // 200 runs of 20 ms: 20 × 200 × 20 ms = 80 s between judgements of one run.
-        assert_eq!(judge_gap(refresh, Duration::from_millis(20), 200), Duration::from_secs(80));
-        assert_eq!(judge_gap(refresh, Duration::ZERO, 0), refresh);
-    }
 }

@@ -5,8 +5,10 @@
 //! control characters, which makes tabs vanish and leaves the visible tail of an escape
 //! sequence on screen; a raw ESC or C1 control that slipped through could also be interpreted
 //! by the terminal. So: tabs are expanded, escape sequences are removed whole, other C0
-//! controls and DEL become caret notation (`^G`), C1 controls become `?`, and in ASCII mode
-//! every other non-ASCII character becomes `?` too.
+//! controls and DEL become caret notation (`^G`), C1 controls become `?`. In ASCII mode the
+//! typographic characters judge texts use are spelled in ASCII ([`ascii_spelling`]: `…` as
+//! `...`, the range and minus dashes as `-`, `±` as `+-`, `≤` as `<=`), and every other
+//! non-ASCII character becomes `?`.
 
 use std::borrow::Cow;
 
@@ -50,8 +52,9 @@ pub fn sanitize(text: &str, ascii: bool) -> Cow<'_, str> {
                 col += 1;
             }
             c if ascii && !c.is_ascii() => {
-                out.push('?');
-                col += 1;
+                let spelled = ascii_spelling(c).unwrap_or("?");
+                out.push_str(spelled);
+                col += spelled.len();
             }
             c => {
                 out.push(c);
@@ -65,6 +68,28 @@ pub fn sanitize(text: &str, ascii: bool) -> Cow<'_, str> {
 /// Owned form of [`sanitize`], for storing in view snapshots.
 pub fn sanitized(text: &str, ascii: bool) -> String {
     sanitize(text, ascii).into_owned()
+}
+
+/// The ASCII spelling of a typographic character, when it has an obvious one.
+pub fn ascii_spelling(c: char) -> Option<&'static str> {
+    Some(match c {
+        '…' => "...",
+        '–' | '—' | '−' | '‐' | '‑' | '‒' => "-",
+        '×' => "x",
+        '±' => "+-",
+        '≥' => ">=",
+        '≤' => "<=",
+        '≈' => "~",
+        '·' | '•' => ".",
+        '→' => "->",
+        '←' => "<-",
+        '‘' | '’' | '′' => "'",
+        '“' | '”' | '″' => "\"",
+        '°' => " deg",
+        'µ' | 'μ' => "u",
+        '\u{a0}' | '\u{202f}' | '\u{2009}' => " ",
+        _ => return None,
+    })
 }
 
 /// Skip what follows an ESC: a CSI (`ESC [` … final byte), an OSC/DCS/APC/PM/SOS string
@@ -139,7 +164,10 @@ mod tests {
 
     #[test]
     fn ascii_mode_replaces_non_ascii() {
-        assert_eq!(sanitize("Δp ≥ 3 é", true), "?p ? 3 ?");
+        assert_eq!(sanitize("Δp ≥ 3 é", true), "?p >= 3 ?");
+        // The range dash of a confidence interval and other typography stay readable.
+        assert_eq!(sanitize("95 % CI -0.53…-0.42", true), "95 % CI -0.53...-0.42");
+        assert_eq!(sanitize("a–b ±0.2 × 3 ≤ 1\u{202f}000", true), "a-b +-0.2 x 3 <= 1 000");
         assert_eq!(sanitize("plain", true), "plain");
     }
 
