@@ -9,4 +9,4 @@ pub mod ingest;
 pub mod pipeline;
 pub mod store;
 
-pub use store::{RunStore, Segment, SegmentReason, Series, SourceStore};
+pub use store::{RunStore, Segment, SegmentReason, Series, SeriesName, SourceStore};

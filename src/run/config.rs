@@ -21,7 +21,8 @@ pub const DEFAULT_STALE_LIMIT: Duration = Duration::from_secs(300);
 pub enum ConfigError {
     #[error("cannot read run config {path}: {source}")]
     Read { path: PathBuf, source: std::io::Error },
-    #[error("run config {path}: {message}")]
+    /// `message` starts with the file, line, column and key of the problem.
+    #[error("run config {message}")]
     Syntax { path: PathBuf, message: String },
     #[error("run config {path}: key `{key}`: {message}")]
     Invalid { path: PathBuf, key: String, message: String },
@@ -135,8 +136,10 @@ pub fn load(path: &Path) -> Result<RunSpec, ConfigError> {
 
 /// Validate config text; `path` names the file in errors and anchors relative paths.
 pub fn parse(text: &str, path: &Path) -> Result<RunSpec, ConfigError> {
-    let raw: RawConfig = toml::from_str(text)
-        .map_err(|e| ConfigError::Syntax { path: path.to_path_buf(), message: e.to_string() })?;
+    let raw: RawConfig = toml::from_str(text).map_err(|e| ConfigError::Syntax {
+        path: path.to_path_buf(),
+        message: crate::parser::toml_error_message(&path.display().to_string(), text, &e),
+    })?;
     let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
     let dir = if dir.as_os_str().is_empty() { PathBuf::from(".") } else { dir };
     let invalid = |key: &str, message: String| ConfigError::Invalid {

@@ -178,20 +178,15 @@ pub fn build_run_view(live: &LiveRun, inp: &ViewInputs<'_>) -> RunView {
 }
 
 fn chartable_series(live: &LiveRun, ascii: bool) -> Vec<SeriesRef> {
-    let mut seen: Vec<&str> = Vec::new();
+    let names = live.store.series_names();
     let mut out = Vec::new();
     for (si, src) in live.store.sources.iter().enumerate() {
         for (i, s) in src.series().iter().enumerate() {
-            let name = if seen.contains(&s.name.as_str()) {
-                format!("{}:{}", src.label, s.name)
-            } else {
-                seen.push(&s.name);
-                s.name.clone()
-            };
+            let name = &names[si][i].name;
             out.push(SeriesRef {
                 source: si,
                 index: i,
-                name: sanitized(&name, ascii),
+                name: sanitized(name, ascii),
                 role: s.role,
             });
         }
