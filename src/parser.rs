@@ -14,14 +14,17 @@
 //! A parser never panics and never stops on bad input: lines it cannot use are counted, and
 //! the first reasons are reported as [`Output::Skipped`].
 
+pub mod check;
 mod compile;
 mod detect;
+pub mod draft;
 mod error;
 mod lines;
 mod matcher;
 mod number;
 mod raw;
 mod series;
+mod shape;
 mod table;
 
 use std::path::{Path, PathBuf};

@@ -3,3 +3,4 @@
 
 pub mod check;
 pub mod parse;
+pub mod parsers;

@@ -179,8 +179,17 @@ pub fn parse(text: &str, path: &Path) -> Result<RunSpec, ConfigError> {
     })
 }
 
-/// A run made from plain file arguments (no config): named after the first file's directory.
+/// A run made from plain file arguments (no config), every file read with `parser` (or
+/// detected): see [`from_files_with`].
 pub fn from_files(files: &[PathBuf], parser: Option<&str>) -> RunSpec {
+    let parsers: Vec<Option<String>> = files.iter().map(|_| parser.map(str::to_string)).collect();
+    from_files_with(files, &parsers)
+}
+
+/// A run made from plain file arguments, each with its own parser (`None`: detected; a
+/// missing entry counts as `None`). The files are the run's sources, in order. The run is
+/// named `dir/file.ext` after a single file, else after the first file's directory.
+pub fn from_files_with(files: &[PathBuf], parsers: &[Option<String>]) -> RunSpec {
     let first = files.first().cloned().unwrap_or_default();
     let dir = first.parent().map(Path::to_path_buf).filter(|d| !d.as_os_str().is_empty());
     let dir = dir.unwrap_or_else(|| PathBuf::from("."));
@@ -196,10 +205,11 @@ pub fn from_files(files: &[PathBuf], parser: Option<&str>) -> RunSpec {
         dir,
         sources: files
             .iter()
-            .map(|f| SourceSpec {
+            .enumerate()
+            .map(|(i, f)| SourceSpec {
                 path: f.clone(),
                 label: f.display().to_string(),
-                parser: parser.map(str::to_string),
+                parser: parsers.get(i).cloned().flatten(),
             })
             .collect(),
         criteria: Criteria::default(),
