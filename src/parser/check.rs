@@ -87,6 +87,7 @@ pub struct ReadFailure {
 #[derive(Debug, Clone, PartialEq)]
 pub struct RepeatFinding {
     pub rule: String,
+    /// The series (several, comma-separated, when one line gives them together).
     pub series: String,
     pub policy: &'static str,
     /// Records in which it happened, and the most times in one record.
@@ -445,6 +446,20 @@ fn examine_rules(prog: &LinesProgram, lines: &[&[u8]], exam: &mut Examination) {
         }
     }
     close(&mut in_record, &mut repeats);
+    // One finding per rule and occurrence lines: the captures of one line (`x`, `y`, `z`)
+    // repeat together.
+    let mut merged: Vec<RepeatFinding> = Vec::new();
+    for f in repeats {
+        let lines = |f: &RepeatFinding| f.example.iter().map(|e| e.0).collect::<Vec<u64>>();
+        match merged.iter_mut().find(|m| m.rule == f.rule && lines(m) == lines(&f)) {
+            Some(m) => {
+                m.series.push_str(", ");
+                m.series.push_str(&f.series);
+            }
+            None => merged.push(f),
+        }
+    }
+    let repeats = merged;
     exam.rules = prog
         .rules
         .iter()

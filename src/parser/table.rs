@@ -637,6 +637,74 @@ mod tests {
         assert_eq!(stats.skipped, 1);
     }
 
+    fn series_names(out: &[Output]) -> Vec<String> {
+        out.iter()
+            .filter_map(|o| if let Output::Series(s) = o { Some(s.name.clone()) } else { None })
+            .collect()
+    }
+
+    #[test]
+    fn a_header_grouping_vector_columns_gives_the_names_it_lists() {
+        let text = "# Time\t(total_x total_y total_z)\t(pressure_x pressure_y)\n\
+                    0.1\t(1 2 3)\t(4 5)\n\
+                    0.2\t(1.5 2.5 3.5)\t(4.5 5.5)\n";
+        let (out, stats) = rows("table", text);
+        assert_eq!(
+            series_names(&out),
+            vec!["total_x", "total_y", "total_z", "pressure_x", "pressure_y"]
+        );
+        let last =
+            out.iter().rev().find_map(|o| if let Output::Record(r) = o { Some(r) } else { None });
+        assert_eq!(last.map(|r| r.time), Some(Some(0.2)));
+        assert_eq!(
+            last.map(|r| r.values.clone()),
+            Some(vec![(0, 1.5), (1, 2.5), (2, 3.5), (3, 4.5), (4, 5.5)])
+        );
+        assert_eq!(stats.skipped, 0);
+    }
+
+    #[test]
+    fn a_grouped_header_also_fits_rows_that_print_the_components_flat() {
+        let text = "# Time (total_x total_y) (pressure_x pressure_y)\n\
+                    0.1 1 2 3 4\n\
+                    # Time (total_x total_y) (pressure_x pressure_y)\n\
+                    0.2 5 6 7 8\n";
+        let (out, stats) = rows("table", text);
+        assert_eq!(series_names(&out), vec!["total_x", "total_y", "pressure_x", "pressure_y"]);
+        assert_eq!(stats.skipped, 0);
+        assert_eq!(stats.used, 2);
+    }
+
+    #[test]
+    fn grouped_columns_take_the_role_of_their_first_listed_name() {
+        let def = crate::parser::Definition::from_text(
+            "engine = \"table\"\n[table]\nresiduals = [\"res_x\"]\n",
+            crate::parser::Origin::Builtin,
+            "t.toml",
+            "t",
+        )
+        .unwrap();
+        let mut p = def.parser();
+        let mut out = Vec::new();
+        for l in ["it (res_x res_y) Cd", "1 (1 2) 0.4"] {
+            p.feed(l.as_bytes(), &mut out);
+        }
+        let roles: Vec<(String, Role)> = out
+            .iter()
+            .filter_map(|o| {
+                if let Output::Series(s) = o { Some((s.name.clone(), s.role)) } else { None }
+            })
+            .collect();
+        assert_eq!(
+            roles,
+            vec![
+                ("res_x".to_string(), Role::Residual),
+                ("res_y".to_string(), Role::Residual),
+                ("Cd".to_string(), Role::Monitor)
+            ]
+        );
+    }
+
     #[test]
     fn component_names() {
         assert_eq!(component_name("U", 0, true), "U_x");

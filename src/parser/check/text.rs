@@ -175,14 +175,18 @@ pub fn report_text(def: &Definition, file: &str, exam: &Examination) -> String {
         problems += exam.reading_rules_unmatched().count();
     }
     if !exam.skips.is_empty() || exam.stats.skipped > 0 {
-        let _ = writeln!(
-            o,
-            "\nlines that matched but could not be used: {} (first {} reasons):",
-            exam.stats.skipped,
-            exam.skips.len()
-        );
-        for s in &exam.skips {
+        let _ = writeln!(o, "\nlines that matched but could not be used: {}", exam.stats.skipped);
+        const SHOWN: usize = 5;
+        for s in exam.skips.iter().take(SHOWN) {
             let _ = writeln!(o, "  line {}: {}", s.line, s.reason);
+        }
+        if exam.stats.skipped > SHOWN as u64 {
+            let _ = writeln!(
+                o,
+                "  … {} more{}",
+                exam.stats.skipped - SHOWN as u64,
+                if exam.failures.is_empty() { "" } else { " (grouped by rule below)" }
+            );
         }
     }
     if !exam.failures.is_empty() {
