@@ -721,6 +721,17 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
     use settle::report::gci::{GridPoint, GridSize, MeshStudy};
     use settle::report::{ParserProvenance, Provenance, ReportInput};
 
+    // Said once, before any work: the report and its plots would each fail on it.
+    if let Some(parent) = a.output.parent().filter(|p| !p.as_os_str().is_empty())
+        && !parent.is_dir()
+    {
+        bail!(
+            "-o {}: the folder {} does not exist; create it first (mkdir -p {})",
+            a.output.display(),
+            parent.display(),
+            parent.display()
+        );
+    }
     let mut mesh = None;
     let mut paths = a.paths.clone();
     if let Some(runs) = &a.mesh_study {

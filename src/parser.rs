@@ -305,9 +305,10 @@ impl Registry {
         self.entries.iter().any(|e| e.name == name)
     }
 
-    /// The known name nearest to `name` (a typo: at most a third of its letters differ).
+    /// The known name nearest to `name`: a typo, at most one edit per three letters
+    /// (rounded up), a swap of two neighbours counting as one.
     pub fn closest(&self, name: &str) -> Option<&str> {
-        let limit = (name.chars().count() / 3).max(1);
+        let limit = name.chars().count().div_ceil(3).max(1);
         self.entries
             .iter()
             .map(|e| (edit_distance(name, &e.name), e.name.as_str()))
@@ -482,21 +483,29 @@ impl Entry {
     }
 }
 
-/// Levenshtein distance over characters, without regard to ASCII case.
+/// Edit distance over characters, without regard to ASCII case, counting a swap of two
+/// neighbours as one edit (optimal string alignment: `tran` is one edit from `tarn`).
 fn edit_distance(a: &str, b: &str) -> usize {
     let a: Vec<char> = a.chars().map(|c| c.to_ascii_lowercase()).collect();
     let b: Vec<char> = b.chars().map(|c| c.to_ascii_lowercase()).collect();
-    let mut prev: Vec<usize> = (0..=b.len()).collect();
-    let mut cur = vec![0; b.len() + 1];
-    for (i, ca) in a.iter().enumerate() {
-        cur[0] = i + 1;
-        for (j, cb) in b.iter().enumerate() {
-            let sub = prev[j] + usize::from(ca != cb);
-            cur[j + 1] = sub.min(prev[j + 1] + 1).min(cur[j] + 1);
-        }
-        std::mem::swap(&mut prev, &mut cur);
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
     }
-    prev[b.len()]
+    for j in 0..=b.len() {
+        d[0][j] = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            let mut v = (d[i - 1][j] + 1).min(d[i][j - 1] + 1).min(d[i - 1][j - 1] + cost);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                v = v.min(d[i - 2][j - 2] + 1);
+            }
+            d[i][j] = v;
+        }
+    }
+    d[a.len()][b.len()]
 }
 
 /// A TOML reading error placed at its file, line, column and key, with the expected value
@@ -513,4 +522,49 @@ pub fn user_parser_dir() -> Option<PathBuf> {
         _ => PathBuf::from(std::env::var_os("HOME").filter(|h| !h.is_empty())?).join(".config"),
     };
     Some(base.join("settle").join("parsers"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn only_the_definitions_used_are_compiled() {
+        let dir = tempfile::tempdir().unwrap();
+        for name in ["alpha", "beta"] {
+            std::fs::write(
+                dir.path().join(format!("{name}.toml")),
+                format!(
+                    "engine = \"lines\"\n[[detect]]\npattern = '^{name} '\nweight = 5\n[[rules]]\nkind = \"step\"\npattern = '^{name} (?P<iteration>\\d+)'\n"
+                ),
+            )
+            .unwrap();
+        }
+        let reg = Registry::load_from(None, &[dir.path().to_path_buf()]).unwrap();
+        let compiled = |reg: &Registry| -> Vec<String> {
+            reg.entries().iter().filter(|e| e.is_compiled()).map(|e| e.name().to_string()).collect()
+        };
+        assert!(compiled(&reg).is_empty(), "loading compiles nothing");
+        assert!(reg.definition("beta").is_ok());
+        assert_eq!(compiled(&reg), vec!["beta"]);
+        // Detection compiles only the detect patterns.
+        let det = reg.detect(b"alpha 1\nalpha 2\n");
+        assert_eq!(det.chosen.as_deref(), Some("alpha"));
+        assert_eq!(compiled(&reg), vec!["beta"]);
+    }
+
+    #[test]
+    fn typos_find_the_closest_name() {
+        let reg = Registry::builtin();
+        assert_eq!(reg.closest("tran"), Some("tarn"));
+        assert_eq!(reg.closest("cvs"), Some("csv"));
+        assert_eq!(reg.closest("tabel"), Some("table"));
+        assert_eq!(reg.closest("gully"), None);
+        assert_eq!(edit_distance("Tarn", "tarn"), 0);
+        assert_eq!(edit_distance("abc", ""), 3);
+        match reg.definition("tran") {
+            Err(e) => assert!(e.to_string().contains("did you mean `tarn`"), "{e}"),
+            Ok(_) => panic!("no such definition"),
+        }
+    }
 }

@@ -59,6 +59,17 @@ pub struct Detection {
 }
 
 impl Detection {
+    /// Why no definition was chosen, in words a user can act on: the lines examined (or
+    /// the tie), then [`Detection::explain`].
+    pub fn why_none(&self) -> String {
+        let n = self.head_lines.len();
+        let lead = match self.candidates.as_slice() {
+            [a, b, ..] if a.score > 0 && a.score == b.score => self.summary.clone(),
+            _ => format!("{n} line{} examined", plural(n)),
+        };
+        format!("{lead}; {}", self.explain())
+    }
+
     /// The best candidates and which lines of the file they matched, quoted from the file
     /// rather than the patterns (for the message when nobody claims a file).
     pub fn explain(&self) -> String {

@@ -102,7 +102,7 @@ impl ParserSlot {
                     Some(n) => n,
                     None if !force => return Ok(false),
                     None => {
-                        let detail = format!("{}; {}", det.summary, det.explain());
+                        let detail = det.why_none();
                         return Err(PipelineError::NotRecognised { path: path.into(), detail });
                     }
                 }

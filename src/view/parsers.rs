@@ -4,7 +4,7 @@
 
 use std::fmt::Write;
 
-use crate::parser::{Origin, Registry};
+use crate::parser::{Origin, Registry, RegistryError};
 
 /// Where a definition came from, in words.
 pub fn origin_text(origin: Option<&Origin>) -> String {
@@ -21,11 +21,13 @@ pub fn list(registry: &Registry) -> String {
     let mut o = String::new();
     let entries = registry.entries();
     let w = entries.iter().map(|e| e.name().len()).max().unwrap_or(4).max(4);
-    let _ = writeln!(o, "{:<w$}  {:<6} {:<60}  FROM", "NAME", "ENGINE", "DESCRIPTION");
+    let dw =
+        entries.iter().map(|e| e.description().chars().count()).max().unwrap_or(11).clamp(11, 70);
+    let _ = writeln!(o, "{:<w$}  {:<6} {:<dw$}  FROM", "NAME", "ENGINE", "DESCRIPTION");
     for e in entries {
         let _ = writeln!(
             o,
-            "{:<w$}  {:<6} {:<60}  {}",
+            "{:<w$}  {:<6} {:<dw$}  {}",
             e.name(),
             e.engine(),
             e.description(),
@@ -41,8 +43,14 @@ pub fn list(registry: &Registry) -> String {
                 replaced.join(", then ")
             );
         }
-        if let Err(err) = e.definition() {
-            let _ = writeln!(o, "{:<w$}  ✗ cannot be used: {err}", "");
+        match e.definition() {
+            Err(RegistryError::Invalid { message, .. }) => {
+                let _ = writeln!(o, "{:<w$}  ✗ cannot be used: {message}", "");
+            }
+            Err(err) => {
+                let _ = writeln!(o, "{:<w$}  ✗ {err}", "");
+            }
+            Ok(_) => {}
         }
     }
     o
