@@ -273,8 +273,8 @@ enum ParsersAction {
         /// Log or monitor files, one definition each (files of the same format share one).
         #[arg(required = true, value_name = "FILE")]
         files: Vec<PathBuf>,
-        /// Save into your parser folder as NAME.toml (several formats: NAME-TAG.toml each,
-        /// TAG from the file names); the definition is called NAME.
+        /// Save into your parser folder: the first file's definition as NAME.toml, the
+        /// others' as NAME-TAG.toml (TAG: the part of the file name that differs).
         #[arg(long, value_name = "NAME")]
         write: Option<String>,
         /// With --write: replace a file that already exists.

@@ -186,7 +186,21 @@ pub fn worst(verdicts: impl IntoIterator<Item = Verdict>) -> Verdict {
 
 /// No more records can be expected: the end-of-run mark, a stale log, or a crash message
 /// after divergence. Actions then fire without waiting for their `hold` records.
+///
+/// Never before every source of the run has been read once: the log's end mark can arrive
+/// before the monitor files of the same run have been read at all, and a judgement then
+/// would lack them (a source has been read once when it grew, or gave a note: missing,
+/// empty, unreadable).
 fn data_final(run: &LiveRun) -> bool {
+    let all_read = run
+        .store
+        .sources
+        .iter()
+        .zip(&run.activity)
+        .all(|(s, a)| a.last_growth.is_some() || !s.notes.is_empty() || s.stats.lines > 0);
+    if !all_read {
+        return false;
+    }
     let crashed =
         run.store.sources.iter().any(|s| s.events.iter().any(|e| e.severity == Severity::Error));
     let v = run.verdict();

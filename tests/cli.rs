@@ -300,7 +300,38 @@ fn check_and_watch_take_the_same_files_as_the_same_run() {
         assert_eq!(series.iter().filter(|(s, _)| s == m).count(), 2, "{m}: drift and band");
         assert!(!series.iter().any(|(s, _)| s.ends_with(&format!("/{m}"))), "{series:?}");
     }
-    // `--each` (or `+` between them) makes them two runs.
+    // A monitor file with series of its own: the finished log's end mark must not end the
+    // watch before that file is read (it used to: 12 criteria instead of 18).
+    let dir = tempfile::tempdir().unwrap();
+    let probes = dir.path().join("probes.csv");
+    let mut text = String::from("step,probe_a\n");
+    for i in 1..=1492 {
+        text.push_str(&format!("{i},{:.6}\n", 101325.0 + 100.0 / i as f64));
+    }
+    std::fs::write(&probes, text).unwrap();
+    let p = probes.to_str().unwrap();
+    let check = settle(&["check", "--json", log, csv, p]);
+    let checked: Value = serde_json::from_str(&stdout(&check)).unwrap();
+    assert_eq!(criteria_of(&checked).len(), 14, "{}", stdout(&check));
+    for _ in 0..3 {
+        let watch = settle(&[
+            "watch",
+            "--headless",
+            "--json",
+            "--poll",
+            "0.1",
+            "--refresh",
+            "0.1",
+            log,
+            csv,
+            p,
+        ]);
+        let lines = json_lines(&stdout(&watch));
+        let end = lines.iter().find(|l| l["event"] == "end").expect("an end line");
+        assert_eq!(criteria_of(end), criteria_of(&checked));
+    }
+    // `+` between them makes them two runs (`--stale 1s`: the monitor file alone has no end
+    // mark, and a fresh checkout's files are new).
     let watch = settle(&[
         "watch",
         "--headless",
@@ -309,6 +340,8 @@ fn check_and_watch_take_the_same_files_as_the_same_run() {
         "0.1",
         "--refresh",
         "0.1",
+        "--stale",
+        "1s",
         log,
         "+",
         csv,
@@ -346,7 +379,8 @@ fn a_folder_without_settle_toml_is_looked_into_and_what_is_left_out_is_said() {
     let v: Value = serde_json::from_str(&stdout(&o)).unwrap();
     assert_eq!(v["verdict"], "converged");
     assert_eq!(criteria_of(&v), criteria_of(&ends[0]));
-    // The samples folder: its `plain` folder holds two tables and no log: two runs.
+    // The samples folder: its `plain` folder holds two tables and no log: two runs (they
+    // have no end mark: `--stale 1s`, as a fresh checkout's files are new).
     let o = settle(&[
         "watch",
         "--headless",
@@ -355,6 +389,8 @@ fn a_folder_without_settle_toml_is_looked_into_and_what_is_left_out_is_said() {
         "0.1",
         "--refresh",
         "0.1",
+        "--stale",
+        "1s",
         s.to_str().unwrap(),
     ]);
     let mut runs: Vec<String> = json_lines(&stdout(&o))

@@ -220,7 +220,7 @@ fn files_of_one_format_share_one_draft() {
     .unwrap();
     assert_eq!(drafts.len(), 1, "one format");
     assert_eq!(drafts[0].files.len(), 2);
-    assert_eq!(drafts[0].name, "probes-probe_p");
+    assert_eq!(drafts[0].name, "probes");
     same_as_hand_written("probes", "probes.toml", &p);
 }
 

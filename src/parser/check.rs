@@ -213,6 +213,12 @@ impl Shapes {
     }
 }
 
+/// A line as shown in a report: tabs as blanks, control characters removed.
+fn shown(line: &[u8]) -> String {
+    let spaced: Vec<u8> = line.iter().map(|&b| if b == b'\t' { b' ' } else { b }).collect();
+    clean_text(&spaced)
+}
+
 /// Read `text` with `def` and examine the result.
 pub fn examine(def: &Definition, text: &[u8]) -> Examination {
     let lines = lines_of(text);
@@ -408,7 +414,7 @@ fn examine_rules(prog: &LinesProgram, lines: &[&[u8]], exam: &mut Examination) {
                         in_record.entry((r, name)).or_default().push((
                             line_no,
                             label.clone(),
-                            clean_text(line),
+                            shown(line),
                         ));
                     }
                 }

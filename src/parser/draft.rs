@@ -163,8 +163,9 @@ pub fn draft_text(name: &str, file: &str, text: &[u8]) -> Result<Drafted, String
 }
 
 /// Draft one definition per file; files whose drafts come out the same (apart from their
-/// names) share one. `base`: the name to give (several formats: `base-TAG`, TAG the part of
-/// the file names that differs); without it, each is named after its file.
+/// names) share one. `base`: the name of the first file's definition; the others are
+/// `base-TAG`, TAG the part of their file name that differs from the others. Without it,
+/// each is named after its file.
 pub fn draft_files(
     samples: &[(PathBuf, Vec<u8>)],
     base: Option<&str>,
@@ -182,7 +183,7 @@ pub fn draft_files(
     for (i, (path, text)) in samples.iter().enumerate() {
         let stem = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
         let name = match base {
-            Some(b) if samples.len() == 1 => b.to_string(),
+            Some(b) if i == 0 => b.to_string(),
             Some(b) => format!("{b}-{}", name_from(&tags[i])),
             None => name_from(&stem),
         };

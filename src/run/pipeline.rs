@@ -158,6 +158,8 @@ pub struct SourceReader {
     /// Whether anything has been read yet (the first read reports the file's mtime as its
     /// growth time, so a long-dead log is seen as stale at once).
     read_before: bool,
+    /// The note that the file exists but is empty has been given.
+    said_empty: bool,
 }
 
 impl SourceReader {
@@ -189,6 +191,7 @@ impl SourceReader {
             out: Vec::new(),
             announced: None,
             read_before: false,
+            said_empty: false,
         })
     }
 
@@ -283,6 +286,13 @@ impl SourceReader {
         if slot.chosen.is_some() && slot.chosen != self.announced {
             self.announced = slot.chosen.clone();
             items.insert(0, IngestItem::Parser(slot.chosen.clone().unwrap_or_default()));
+        }
+        // An existing file with nothing in it yet says so once: the run then knows this
+        // source has been looked at (a finished run waits for every source's first read).
+        if !grew && !self.read_before && !self.said_empty && self.follower.current_path().is_some()
+        {
+            self.said_empty = true;
+            items.push(IngestItem::Note(format!("{} is empty so far", self.label)));
         }
         if grew {
             let now = SystemTime::now();

@@ -383,7 +383,13 @@ fn step_rule(ls: &[L], shapes: &[Shape], step: &Step, w: &mut Writer) -> (String
             let g = unique_group(&names[t].clone().unwrap_or_else(|| format!("v{t}")), &mut used);
             let vals: Vec<f64> = lines.iter().map(|&li| ls[li].num(t)).collect();
             let whole = lines.iter().all(|&li| ls[li].whole(t));
-            caps.push((g.clone(), guess(&g, &vals, whole)));
+            // The step line's words name its one extra number (`Time/iter: 0.5 s`).
+            let extra = l0.toks.iter().filter(|t| t.kind == Kind::Num).count()
+                - usize::from(step.iteration.is_some())
+                - usize::from(step.time.is_some());
+            let label =
+                if extra == 1 { format!("{} {g}", l0.words().join(" ")) } else { g.clone() };
+            caps.push((g.clone(), guess(&label, &vals, whole)));
             parts.push(Part::Capture(g));
         }
     }

@@ -8,12 +8,14 @@
 //!    **indicator** (a linear-solver sweep count);
 //! 2. a name like an error measure (`err`, `imbalance`, `continuity`, `divergence`, …):
 //!    **indicator**;
-//! 3. a name like a step size or a clock (`cfl`, `courant`, `dt`, `wall`, `cpu`, …): **info**
+//! 3. a name like a step size or a clock (`cfl`, `courant`, `dt`, `time`, `wall`, `cpu`,
+//!    …): **info**
 //!    (shown, not judged);
 //! 4. values never negative that span at least two decades and fall (the median of the last
 //!    fifth at least ten times below the median of the first fifth): **residual**;
 //! 5. values never negative that span at least one decade, with a name like a residual
-//!    (`res`, `residual`, `rms`, `norm`, …): **residual**;
+//!    (`res`, `residual`, `rms`, `norm`, …): **residual**; with such a name but a narrower
+//!    span (a linear solver's final residual): **indicator**;
 //! 6. anything else: **monitor** (judged for stationarity and blow-up).
 
 use crate::record::Role;
@@ -30,7 +32,7 @@ const COUNT_WORDS: &[&str] =
 const ERROR_WORDS: &[&str] =
     &["err", "imbalance", "continuity", "divergence", "closure", "unbalance", "defect"];
 const INFO_WORDS: &[&str] = &[
-    "cfl", "courant", "dt", "deltat", "timestep", "wall", "cpu", "clock", "elapsed", "mem",
+    "cfl", "courant", "dt", "deltat", "timestep", "time", "wall", "cpu", "clock", "elapsed", "mem",
     "memory", "relax", "urf", "seconds",
 ];
 const RESIDUAL_WORDS: &[&str] = &["res", "resid", "residual", "rms", "norm", "l2", "linf"];
@@ -96,6 +98,14 @@ pub fn guess(name: &str, values: &[f64], whole: bool) -> Guess {
     }
     if nonneg && decades >= 1.0 && has_word(name, RESIDUAL_WORDS) {
         return g(Role::Residual, format!("named like a residual, spans {decades:.1} decades"));
+    }
+    if nonneg && has_word(name, RESIDUAL_WORDS) {
+        return g(
+            Role::Indicator,
+            format!(
+                "named like a residual but stays within {decades:.1} decades (a linear solver's final residual?): a health number"
+            ),
+        );
     }
     let why = if finite.is_empty() {
         "no finite value in the sample".to_string()

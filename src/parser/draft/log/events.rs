@@ -32,9 +32,24 @@ const ERROR_WORDS: &[&str] = &[
     "crashed",
 ];
 const WARNING_WORDS: &[&str] = &["warning", "warnings", "warn", "notice", "caution"];
-const END_WORDS: &[&str] =
-    &["finished", "completed", "terminated", "termination", "exiting", "end", "ended"];
+const END_WORDS: &[&str] = &[
+    "finished",
+    "completed",
+    "terminated",
+    "termination",
+    "stopped",
+    "exit",
+    "exited",
+    "exiting",
+    "end",
+    "ended",
+];
 const INFO_WORDS: &[&str] = &["converged", "reached", "restart", "restarting", "resumed"];
+/// `reached` is the solver's own convergence mark only with one of these (`residual
+/// targets reached`, not `maximum number of iterations reached`).
+const TARGET_WORDS: &[&str] =
+    &["target", "targets", "tolerance", "tolerances", "convergence", "criteria", "criterion"];
+
 pub fn event_kind(l: &L) -> Option<(EventKind, usize)> {
     let mut best: Option<(EventKind, usize)> = None;
     for (i, t) in l.toks.iter().enumerate() {
@@ -53,6 +68,14 @@ pub fn event_kind(l: &L) -> Option<(EventKind, usize)> {
             }
             EventKind::End
         } else if INFO_WORDS.contains(&w.as_str()) {
+            if w == "reached"
+                && !l
+                    .words()
+                    .iter()
+                    .any(|x| TARGET_WORDS.contains(&x.to_ascii_lowercase().as_str()))
+            {
+                continue;
+            }
             EventKind::Info
         } else {
             continue;

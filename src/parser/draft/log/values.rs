@@ -150,10 +150,14 @@ fn roles(
                 let whole = mine.iter().all(|&li| ls[li].whole(*t));
                 // A line of its own is named by all its words (`converged in # inner
                 // iterations`); a folded one by the variable and the capture.
+                // A line with one number is about that number: all its words name it; on
+                // a line with several, the capture's own name and the line's first word.
                 let label = if c.name_pos.is_some() {
                     format!("{v} {g}")
-                } else {
+                } else if groups.len() == 1 {
                     format!("{} {g}", rep.words().join(" "))
+                } else {
+                    format!("{} {g}", rep.words().first().cloned().unwrap_or_default())
                 };
                 if !inner {
                     let vals: Vec<f64> = mine.iter().map(|&li| ls[li].num(*t)).collect();
