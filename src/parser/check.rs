@@ -233,11 +233,11 @@ pub fn examine(def: &Definition, text: &[u8]) -> Examination {
         if parser.stats().ignored > before {
             unused.add(super::shape::shape(line), i as u64 + 1, line);
         }
-        collect_skips(&mut out, &mut skips);
+        collect_skips(&out, &mut skips);
         store.apply(out.drain(..));
     }
     parser.finish(&mut out);
-    collect_skips(&mut out, &mut skips);
+    collect_skips(&out, &mut skips);
     store.apply(out.drain(..));
     let stats = parser.stats();
 
@@ -311,7 +311,7 @@ pub fn examine_series(def: &Definition, lines: &[&[u8]]) -> Vec<(String, Vec<f64
         .collect()
 }
 
-fn collect_skips(out: &mut Vec<crate::record::Output>, skips: &mut Vec<Skip>) {
+fn collect_skips(out: &[crate::record::Output], skips: &mut Vec<Skip>) {
     for o in out.iter() {
         if let crate::record::Output::Skipped(s) = o {
             skips.push(s.clone());
@@ -327,6 +327,8 @@ struct RuleTrack {
 
 /// One series given by one rule within the open record.
 type RecordKey = (usize, String);
+/// Occurrences within the open record: line number, label line above, the line.
+type InRecord = HashMap<RecordKey, Vec<(u64, Option<String>, String)>>;
 
 fn examine_rules(prog: &LinesProgram, lines: &[&[u8]], exam: &mut Examination) {
     let mut caps: Vec<Captures> = prog.rules.iter().map(|r| r.matcher.captures_storage()).collect();
@@ -339,12 +341,11 @@ fn examine_rules(prog: &LinesProgram, lines: &[&[u8]], exam: &mut Examination) {
     let mut track: Vec<RuleTrack> =
         prog.rules.iter().map(|_| RuleTrack { matched: 0, shapes: Shapes::default() }).collect();
     let mut failures: Vec<ReadFailure> = Vec::new();
-    let mut in_record: HashMap<RecordKey, Vec<(u64, Option<String>, String)>> = HashMap::new();
+    let mut in_record: InRecord = HashMap::new();
     let mut repeats: Vec<RepeatFinding> = Vec::new();
     let mut label: Option<String> = None;
 
-    let close = |in_record: &mut HashMap<RecordKey, Vec<(u64, Option<String>, String)>>,
-                 repeats: &mut Vec<RepeatFinding>| {
+    let close = |in_record: &mut InRecord, repeats: &mut Vec<RepeatFinding>| {
         let mut keys: Vec<&RecordKey> = in_record.keys().collect();
         keys.sort();
         for key in keys {

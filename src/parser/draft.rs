@@ -69,7 +69,7 @@
 //!    folded rule whose roles differ get separate rules (names listed in the pattern).
 //!    Each guess is written beside the role as a `guess:` comment with its reason.
 //! 10. **Detection**: the first line, when it does not recur, as a banner (weight 10) and
-//!    the step line seen at least twice (weight 5); a table's header line (weight 6).
+//!     the step line seen at least twice (weight 5); a table's header line (weight 6).
 //!
 //! After drafting, the definition is compiled and run over the sample, and what it
 //! extracts (series, counts, first and last values, events, the unused line shapes) is

@@ -454,6 +454,29 @@ impl RunStore {
     }
 }
 
+/// A series name cut to at most `max` characters for a narrow column, keeping what tells
+/// names apart: the start of a `tag/` and the end of the name (`Forces/Pressure/z` in 12
+/// characters is `Force…sure/z`, not `Forces/Pres…`). Views that cut a name show the full
+/// one where there is room (the focused series' panel title).
+pub fn fit_name(name: &str, max: usize) -> String {
+    let n = name.chars().count();
+    if n <= max {
+        return name.to_string();
+    }
+    if max <= 1 {
+        return "…".chars().take(max).collect();
+    }
+    let keep = max - 1;
+    let head = match name.find('/') {
+        Some(i) => name[..i].chars().count().min(keep / 2),
+        None => keep / 2,
+    };
+    let tail = keep - head;
+    let start: String = name.chars().take(head).collect();
+    let end: String = name.chars().skip(n - tail).collect();
+    format!("{start}…{end}")
+}
+
 /// How a view names one series (see [`RunStore::series_names`]).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct SeriesName {
@@ -759,6 +782,16 @@ mod tests {
             s.apply([rec(*it, &v)]);
         }
         s
+    }
+
+    #[test]
+    fn names_are_cut_in_the_middle() {
+        assert_eq!(fit_name("Forces/Pressure/z", 12), "Force…sure/z");
+        assert_eq!(fit_name("probe_p/1", 9), "probe_p/1");
+        assert_eq!(fit_name("probe_p/12", 8), "pro…p/12");
+        assert_eq!(fit_name("omega/sweeps", 6), "om…eps");
+        assert_eq!(fit_name("abc", 1), "…");
+        assert_eq!(fit_name("Forces/Pressure/z", 12).chars().count(), 12);
     }
 
     #[test]

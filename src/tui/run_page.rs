@@ -504,7 +504,7 @@ fn criteria_panel(theme: &Theme, v: &RunView, frame: &mut Frame, r: Rect) {
                 Span::raw(" "),
                 span(mark, theme.met(c.met)),
                 Span::raw(" "),
-                Span::raw(pad(&c.series, series_w)),
+                Span::raw(pad(&crate::run::store::fit_name(&c.series, series_w), series_w)),
                 Span::raw(" "),
                 span(pad(&c.rule, rule_w), if c.default { theme.dim() } else { Style::new() }),
                 Span::raw(" "),
