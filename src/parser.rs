@@ -373,6 +373,8 @@ pub struct Entry {
     text: Arc<str>,
     /// Definitions of the same name this one replaced, earliest first.
     replaced: Vec<Origin>,
+    /// The `[[detect]]` entries as read at load (detection compiles only these).
+    raw_detect: Arc<Vec<raw::RawDetect>>,
     detect: OnceLock<Result<Vec<DetectRule>, String>>,
     compiled: OnceLock<Result<Definition, String>>,
 }
@@ -397,6 +399,7 @@ impl Entry {
             default_name: default_name.to_string(),
             text: Arc::from(text),
             replaced: Vec::new(),
+            raw_detect: Arc::new(raw.detect),
             detect: OnceLock::new(),
             compiled: OnceLock::new(),
         })
@@ -416,6 +419,7 @@ impl Entry {
             default_name: def.name().to_string(),
             text: Arc::from(def.source_text()),
             replaced: Vec::new(),
+            raw_detect: Arc::new(Vec::new()),
             detect: OnceLock::from(Ok(def.compiled.detect.clone())),
             compiled: OnceLock::from(Ok(def)),
         }
@@ -469,13 +473,11 @@ impl Entry {
             .map_err(|m| RegistryError::Invalid { name: self.name.clone(), message: m.clone() })
     }
 
-    /// The detection patterns only (what scoring a file needs).
+    /// The detection patterns only (what scoring a file needs), compiled on first use.
     fn detect_rules(&self) -> Result<&[DetectRule], &str> {
         self.detect
             .get_or_init(|| {
-                let raw: raw::RawDefinition = toml::from_str(&self.text)
-                    .map_err(|e| error::from_toml_error(&self.file, &self.text, &e).to_string())?;
-                compile::compile_detect(&raw.detect)
+                compile::compile_detect(&self.raw_detect)
                     .map_err(|p| error::from_problem(&self.file, &self.text, p).to_string())
             })
             .as_deref()
