@@ -376,8 +376,9 @@ impl RunStore {
     /// everywhere. The rules:
     ///
     /// * a name used by one source only stays as the parser gave it (`Ux`, `drag`);
-    /// * a later source's series with the same name and role whose values agree at the
-    ///   first iterations both sources hold ([`same_quantity`]) is the same quantity printed
+    /// * a later source's series with the same name (ASCII case aside) and role whose values
+    ///   agree at the first iterations both sources hold ([`same_quantity`]) is the same
+    ///   quantity printed
     ///   twice (a monitor in the log and in its monitor file): it is marked as a duplicate of
     ///   the earlier one, judged once (as the earlier one), and named `tag/name`;
     /// * a name that several sources use for different quantities is `tag/name` in every
@@ -396,11 +397,12 @@ impl RunStore {
                     .collect()
             })
             .collect();
-        // Plain name → the distinct (non-duplicate) series using it, in source order.
-        let mut distinct: HashMap<&str, Vec<(usize, usize)>> = HashMap::new();
+        // Plain name (without regard to ASCII case: `Lift` in the log is `lift` in the
+        // monitor file) → the distinct (non-duplicate) series using it, in source order.
+        let mut distinct: HashMap<String, Vec<(usize, usize)>> = HashMap::new();
         for (si, src) in self.sources.iter().enumerate() {
             for (i, s) in src.series.iter().enumerate() {
-                let users = distinct.entry(s.name.as_str()).or_default();
+                let users = distinct.entry(s.name.to_ascii_lowercase()).or_default();
                 let earlier = users.iter().copied().find(|&(sj, j)| {
                     sj != si
                         && same_quantity(&self.sources[sj], &self.sources[sj].series[j], src, s)
@@ -840,6 +842,17 @@ mod tests {
                 assert_eq!(judged(&log, n.saturating_sub(lag), &csv, n), at_once, "{n} {lag}");
             }
         }
+    }
+
+    #[test]
+    fn a_monitor_spelled_with_other_case_in_its_file_is_judged_once() {
+        let log: Vec<(i64, Vec<f64>)> = (1..=50).map(|i| (i, vec![0.4 + 0.1 / i as f64])).collect();
+        let mut run = RunStore::new("r");
+        run.sources =
+            vec![source("loam.log", &["Lift"], &log), source("monitor.out", &["lift"], &log)];
+        let names: Vec<String> =
+            run.judge_input().series.iter().map(|s| s.name.to_string()).collect();
+        assert_eq!(names, vec!["Lift"]);
     }
 
     #[test]

@@ -173,7 +173,7 @@ pub fn draft_log(name: &str, file: &str, raw: &[&[u8]]) -> Result<String, String
         let _ = writeln!(
             w.out,
             "[[detect]]\npattern = {}\nweight = 10\n",
-            toml_str(&prefix_pattern(ls[first].text, &ls[first].toks, 4))
+            toml_str(&banner_pattern(&ls[first]))
         );
     }
     let step_rule = step_rule(&ls, &shapes, &step, &mut w);
@@ -198,6 +198,23 @@ pub fn draft_log(name: &str, file: &str, raw: &[&[u8]]) -> Result<String, String
         );
     }
     Ok(w.out)
+}
+
+/// The banner's start as a pattern: its tokens up to and including its second word (at
+/// most twelve), so `=====  LOAM 11.0 transient` is not just a run of `=`.
+fn banner_pattern(l: &L) -> String {
+    let mut words = 0;
+    let mut n = 0;
+    for t in l.toks.iter().take(12) {
+        n += 1;
+        if t.kind == Kind::Word {
+            words += 1;
+            if words == 2 {
+                break;
+            }
+        }
+    }
+    prefix_pattern(l.text, &l.toks[..n], n)
 }
 
 /// Output text plus the fixed series names given so far (kept unique).

@@ -4,7 +4,7 @@
 //! The rules, first match wins (common practice, no source; they are guesses for a person
 //! to confirm):
 //!
-//! 1. whole numbers with a name like a solver count (`sweeps`, `iter`, `lin`, `nit`, …):
+//! 1. whole numbers with a name like a solver count (`sweeps`, `iter`, `its`, `lin`, …):
 //!    **indicator** (a linear-solver sweep count);
 //! 2. a name like an error measure (`err`, `imbalance`, `continuity`, `divergence`, …):
 //!    **indicator**;
@@ -29,6 +29,8 @@ pub struct Guess {
 
 const COUNT_WORDS: &[&str] =
     &["sweep", "iter", "nit", "lin", "cg", "gmres", "amg", "cycles", "solves", "corrector"];
+/// Short count words, matched as whole words only (`12 its`, not `units`).
+const COUNT_SHORT: &[&str] = &["its", "it", "n", "count"];
 const ERROR_WORDS: &[&str] =
     &["err", "imbalance", "continuity", "divergence", "closure", "unbalance", "defect"];
 const INFO_WORDS: &[&str] = &[
@@ -61,7 +63,7 @@ fn median(mut v: Vec<f64>) -> f64 {
 /// variable name for folded rules) from its values in order.
 pub fn guess(name: &str, values: &[f64], whole: bool) -> Guess {
     let g = |role, reason: String| Guess { role, reason };
-    if whole && has_any(name, COUNT_WORDS) {
+    if whole && (has_any(name, COUNT_WORDS) || has_word(name, COUNT_SHORT)) {
         return g(Role::Indicator, "whole numbers named like a solver count".into());
     }
     if has_any(name, ERROR_WORDS) {

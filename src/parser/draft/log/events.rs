@@ -35,6 +35,7 @@ const WARNING_WORDS: &[&str] = &["warning", "warnings", "warn", "notice", "cauti
 const END_WORDS: &[&str] = &[
     "finished",
     "completed",
+    "complete",
     "terminated",
     "termination",
     "stopped",
