@@ -51,7 +51,7 @@ fn main() {
     }
     let bin = Path::new(env!("CARGO_BIN_EXE_settle"));
     let mut settle = Command::new(bin)
-        .args(["watch", "--headless", "--exit-when", "never", "--stale", "1h"])
+        .args(["watch", "--headless", "--each", "--exit-when", "never", "--stale", "1h"])
         .args(&paths)
         .stdout(Stdio::null())
         .spawn()

@@ -18,3 +18,4 @@ pub mod synth;
 pub mod tui;
 pub mod view;
 pub mod watch;
+pub mod words;

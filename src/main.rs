@@ -10,7 +10,7 @@ use std::sync::Arc;
 use std::time::Duration;
 
 use anyhow::{Context, Result, bail};
-use clap::{Args, Parser as ClapParser, Subcommand};
+use clap::{Args, CommandFactory, Parser as ClapParser, Subcommand};
 
 use settle::follow::{FollowConfig, Waker};
 use settle::judge::{self, Criteria, Judgement};
@@ -45,8 +45,9 @@ enum Command {
     Parsers(ParsersArgs),
     /// Judge one run once, to the end of its data, and print the verdict with its evidence.
     ///
-    /// PATH is a log file, several files of one run (residual log + monitor files), or a
-    /// case directory holding settle.toml. The exit code tells the verdict: 0 converged,
+    /// PATH is a log file, several files of one run (residual log + monitor files: files
+    /// given together are one run), or a case directory (its settle.toml, or the files in it
+    /// a parser definition recognises). The exit code tells the verdict: 0 converged,
     /// 10 converging, 11 stalled, 12 oscillating, 13 suspect, 14 diverging (1 = error,
     /// 2 = usage error).
     Check(CheckArgs),
@@ -58,16 +59,37 @@ enum Command {
     Report(ReportArgs),
     /// Follow runs live: panels in the terminal, or status lines with --headless.
     ///
-    /// PATH is a log file (each file is one run), a case directory holding settle.toml, or
-    /// a folder whose subdirectories hold settle.toml (a sweep: one run each). Several
-    /// runs open an overview, the runs needing a decision first. Without a terminal (a
-    /// pipe, a batch job, TERM=dumb) settle switches to headless status lines.
+    /// Files given together are one run, as in `check` (a residual log + its monitor
+    /// files); `+` separates runs (`watch a/run.log a/forces.dat + b/run.log`), and --each
+    /// makes every file its own run. A directory is its settle.toml, or the run(s) its
+    /// recognised files form; a folder of case directories is a sweep, one run each (what
+    /// is left out is said, with the reason). Several runs open an overview, the runs
+    /// needing a decision first. Without a terminal (a pipe, a batch job, TERM=dumb)
+    /// settle switches to headless status lines.
     Watch(WatchArgs),
     /// A live run of our invented demo solver, judged as it grows (the quickest tour).
     ///
     /// A background writer produces a growing log and force-monitor file in a temporary
     /// directory (removed on exit) and settle watches them.
     Demo(DemoArgs),
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
+    ///
+    /// Install for bash: settle completions bash > ~/.local/share/bash-completion/completions/settle
+    /// (zsh: into a folder of your $fpath as _settle; fish: ~/.config/fish/completions/settle.fish).
+    Completions {
+        /// The shell to complete for.
+        #[arg(value_enum)]
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff), or write one page per command into a folder.
+    ///
+    /// Install: settle man --dir ~/.local/share/man/man1 (then `man settle`); or
+    /// settle man | man -l - to read it once.
+    Man {
+        /// Write settle.1 and one settle-COMMAND.1 per command into this folder.
+        #[arg(long, value_name = "DIR")]
+        dir: Option<PathBuf>,
+    },
 }
 
 #[derive(Args, Debug)]
@@ -124,14 +146,19 @@ enum ColorArg {
 
 #[derive(Args, Debug)]
 struct WatchArgs {
-    /// Log files, case directories holding settle.toml, or a folder of case directories.
+    /// Files of one run, case directories, or a folder of case directories; `+` between
+    /// two runs' files.
     #[arg(required = true, value_name = "PATH")]
     paths: Vec<PathBuf>,
-    /// Parser definition for every file given (default: detect per file).
+    /// Parser definition of the files given (default: detect per file); once for every
+    /// file, or once per file in order.
     #[arg(long, value_name = "NAME")]
-    parser: Option<String>,
-    /// Treat all FILE arguments as the sources of one run (residual log + monitor files).
+    parser: Vec<String>,
+    /// Every file argument is a run of its own (default: files given together are one run).
     #[arg(long)]
+    each: bool,
+    /// Files given together are one run (the default now; kept so old scripts still work).
+    #[arg(long, hide = true, conflicts_with = "each")]
     one_run: bool,
     #[command(flatten)]
     criteria: CriteriaArgs,
@@ -166,9 +193,10 @@ struct ReportArgs {
     /// Output file: .html (self-contained), .md (SVG plots written beside it) or .json.
     #[arg(short, long, value_name = "FILE")]
     output: PathBuf,
-    /// Parser definition for every file given (default: detect per file).
+    /// Parser definition of the files given (default: detect per file); once for every
+    /// file, or once per file in order.
     #[arg(long, value_name = "NAME")]
-    parser: Option<String>,
+    parser: Vec<String>,
     /// Run config to use (default: settle.toml in a directory given as PATH).
     #[arg(long, value_name = "FILE")]
     config: Option<PathBuf>,
@@ -197,9 +225,10 @@ struct ParseArgs {
     /// Log files to read (a glob in the file name, quoted, reads restart files in order).
     #[arg(required = true, value_name = "FILE")]
     files: Vec<PathBuf>,
-    /// Parser definition to use instead of automatic detection (see `settle parsers list`).
+    /// Parser definition to use instead of automatic detection (see `settle parsers list`);
+    /// once for every file, or once per file in order.
     #[arg(long, value_name = "NAME")]
-    parser: Option<String>,
+    parser: Vec<String>,
     /// Print the summary as one JSON object.
     #[arg(long)]
     json: bool,
@@ -231,6 +260,43 @@ enum ParsersAction {
     Test {
         /// Log file to test.
         file: PathBuf,
+    },
+    /// Propose a definition for a log or monitor file that no definition reads yet.
+    ///
+    /// Reads the start of each FILE, finds the line that opens each iteration or time step,
+    /// the lines that repeat with numbers, warnings, errors and the end-of-run line, guesses
+    /// each series' role, and prints the TOML (every guess marked in a comment) followed by
+    /// what that definition extracts from the file: series, counts, first and last values,
+    /// and the line shapes it leaves unused. A delimited monitor file gets a `table`
+    /// definition. Check the guesses, then save with --write (or redirect the output).
+    Draft {
+        /// Log or monitor files, one definition each (files of the same format share one).
+        #[arg(required = true, value_name = "FILE")]
+        files: Vec<PathBuf>,
+        /// Save into your parser folder: the first file's definition as NAME.toml, the
+        /// others' as NAME-TAG.toml (TAG: the part of the file name that differs).
+        #[arg(long, value_name = "NAME")]
+        write: Option<String>,
+        /// With --write: replace a file that already exists.
+        #[arg(long, requires = "write")]
+        force: bool,
+        /// How many lines of each file to read as the sample.
+        #[arg(long, value_name = "N", default_value_t = settle::parser::draft::DEFAULT_SAMPLE_LINES)]
+        sample: usize,
+    },
+    /// Validate a definition; with FILE, show how well it reads that file.
+    ///
+    /// Without FILE: compiles the definition and reports any problem with file, line, key
+    /// and what was expected. With FILE: rules that never matched, line shapes no rule used
+    /// (most frequent first, with count and example), values that did not read, and rules
+    /// whose pattern also matches lines it was probably not meant for.
+    Check {
+        /// A definition file (.toml) or the name of a known definition.
+        #[arg(value_name = "DEF")]
+        definition: String,
+        /// A log or monitor file to read with it.
+        #[arg(value_name = "FILE")]
+        file: Option<PathBuf>,
     },
 }
 
@@ -268,12 +334,13 @@ impl CriteriaArgs {
 
 #[derive(Args, Debug)]
 struct CheckArgs {
-    /// A log file, several files of one run, or a case directory holding settle.toml.
+    /// A log file, several files of one run, or a case directory.
     #[arg(required = true, value_name = "PATH")]
     paths: Vec<PathBuf>,
-    /// Parser definition for every file given (default: detect per file).
+    /// Parser definition of the files given (default: detect per file); once for every
+    /// file, or once per file in order.
     #[arg(long, value_name = "NAME")]
-    parser: Option<String>,
+    parser: Vec<String>,
     /// Run config to use (default: settle.toml in a directory given as PATH).
     #[arg(long, value_name = "FILE")]
     config: Option<PathBuf>,
@@ -296,6 +363,15 @@ fn main() -> ExitCode {
 }
 
 fn run(cli: Cli) -> Result<u8> {
+    match &cli.command {
+        Command::Completions { shell } => {
+            let mut out = Vec::new();
+            clap_complete::generate(*shell, &mut Cli::command(), "settle", &mut out);
+            return write_bytes(&out).map(|()| 0);
+        }
+        Command::Man { dir } => return cmd_man(dir.as_deref()),
+        _ => {}
+    }
     let registry =
         Arc::new(Registry::load(&cli.parser_dirs).context("loading parser definitions")?);
     match cli.command {
@@ -305,7 +381,54 @@ fn run(cli: Cli) -> Result<u8> {
         Command::Report(a) => cmd_report(a, registry),
         Command::Watch(a) => cmd_watch(a, registry),
         Command::Demo(a) => cmd_demo(a, registry),
+        Command::Completions { .. } | Command::Man { .. } => Ok(0),
     }
+}
+
+fn write_bytes(bytes: &[u8]) -> Result<()> {
+    let mut stdout = std::io::stdout().lock();
+    match stdout.write_all(bytes).and_then(|()| stdout.flush()) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
+        Err(e) => Err(e.into()),
+    }
+}
+
+/// `settle man`: the page of `settle` on stdout, or every command's page into a folder.
+fn cmd_man(dir: Option<&Path>) -> Result<u8> {
+    let cmd = Cli::command();
+    let Some(dir) = dir else {
+        let mut out = Vec::new();
+        clap_mangen::Man::new(cmd).render(&mut out)?;
+        write_bytes(&out)?;
+        return Ok(0);
+    };
+    if !dir.is_dir() {
+        bail!(
+            "{}: no such folder (create it first, e.g. mkdir -p {})",
+            dir.display(),
+            dir.display()
+        );
+    }
+    let mut written = Vec::new();
+    let mut pages = vec![("settle".to_string(), cmd.clone())];
+    for sub in cmd.get_subcommands() {
+        let name = format!("settle-{}", sub.get_name());
+        pages.push((name.clone(), sub.clone().bin_name(format!("settle {}", sub.get_name()))));
+    }
+    for (name, page) in pages {
+        let mut out = Vec::new();
+        clap_mangen::Man::new(page).title(name.clone()).render(&mut out)?;
+        let path = dir.join(format!("{name}.1"));
+        std::fs::write(&path, out).with_context(|| format!("writing {}", path.display()))?;
+        written.push(path);
+    }
+    let mut o = String::new();
+    for w in written {
+        o.push_str(&format!("{}\n", w.display()));
+    }
+    out(&o)?;
+    Ok(0)
 }
 
 /// Write to stdout; a closed pipe (`settle ... | head`) ends the program quietly.
@@ -320,29 +443,10 @@ fn out(text: &str) -> Result<()> {
 
 fn cmd_parsers(a: ParsersArgs, registry: &Registry) -> Result<u8> {
     match a.action {
-        ParsersAction::List => {
-            let mut o = String::new();
-            let w = registry.definitions().iter().map(|d| d.name().len()).max().unwrap_or(4);
-            for d in registry.definitions() {
-                let origin = match d.origin() {
-                    settle::parser::Origin::Builtin => "built in".to_string(),
-                    settle::parser::Origin::File(p) => p.display().to_string(),
-                };
-                o.push_str(&format!(
-                    "{:<w$}  {:<5}  {}  [{}]\n",
-                    d.name(),
-                    d.engine(),
-                    d.description(),
-                    origin
-                ));
-            }
-            out(&o)?;
-        }
+        ParsersAction::List => out(&settle::view::parsers::list(registry))?,
         ParsersAction::Show { name } => {
-            let Some(d) = registry.get(&name) else {
-                bail!("unknown parser `{name}` (see `settle parsers list`)");
-            };
-            out(d.source_text())?;
+            let def = registry.definition(&name)?;
+            out(def.source_text())?;
         }
         ParsersAction::Test { file } => {
             let head = read_head(&file)?;
@@ -361,7 +465,93 @@ fn cmd_parsers(a: ParsersArgs, registry: &Registry) -> Result<u8> {
             }
             out(&o)?;
         }
+        ParsersAction::Draft { files, write, force, sample } => {
+            return cmd_draft(&files, write.as_deref(), force, sample, registry);
+        }
+        ParsersAction::Check { definition, file } => {
+            return cmd_parsers_check(&definition, file.as_deref(), registry);
+        }
     }
+    Ok(0)
+}
+
+/// `settle parsers draft`: one proposal per distinct format, printed or saved.
+fn cmd_draft(
+    files: &[PathBuf],
+    write: Option<&str>,
+    force: bool,
+    sample: usize,
+    registry: &Registry,
+) -> Result<u8> {
+    use settle::parser::draft;
+    let mut samples = Vec::new();
+    for f in files {
+        let text = draft::read_sample(f, sample)
+            .with_context(|| format!("cannot read {}", f.display()))?;
+        samples.push((f.clone(), text));
+    }
+    let drafts = draft::draft_files(&samples, write).map_err(anyhow::Error::msg)?;
+    let mut o = String::new();
+    for d in &drafts {
+        o.push_str(&d.toml);
+        o.push_str(&d.report);
+        o.push('\n');
+    }
+    if let Some(_name) = write {
+        let dir = settle::parser::user_parser_dir()
+            .context("no user parser folder: set XDG_CONFIG_HOME or HOME")?;
+        std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
+        for d in &drafts {
+            let path = dir.join(format!("{}.toml", d.name));
+            if path.exists() && !force {
+                bail!(
+                    "{} exists; add --force to replace it, or choose another name",
+                    path.display()
+                );
+            }
+            if registry.contains(&d.name) && !path.exists() {
+                o.push_str(&format!(
+                    "# note: `{}` replaces the definition of the same name from {}\n",
+                    d.name,
+                    settle::view::parsers::origin_text(
+                        registry.entries().iter().find(|e| e.name() == d.name).map(|e| e.origin())
+                    )
+                ));
+            }
+            std::fs::write(&path, &d.toml)
+                .with_context(|| format!("writing {}", path.display()))?;
+            o.push_str(&format!(
+                "# saved {} (check it: settle parsers check {} FILE)\n",
+                path.display(),
+                d.name
+            ));
+        }
+    }
+    out(&o)?;
+    Ok(0)
+}
+
+/// `settle parsers check DEF [FILE]`.
+fn cmd_parsers_check(definition: &str, file: Option<&Path>, registry: &Registry) -> Result<u8> {
+    use settle::parser::{Definition, check};
+    let as_path = Path::new(definition);
+    let def = if as_path.extension().is_some_and(|e| e == "toml") || as_path.is_file() {
+        Definition::from_file(as_path)?
+    } else {
+        registry.definition(definition)?.clone()
+    };
+    let Some(file) = file else {
+        out(&format!(
+            "{}: valid {} definition `{}`; give a FILE to see how it reads it\n",
+            definition,
+            def.engine(),
+            def.name()
+        ))?;
+        return Ok(0);
+    };
+    let text = std::fs::read(file).with_context(|| format!("cannot read {}", file.display()))?;
+    let report = check::examine(&def, &text);
+    out(&check::report_text(&def, &file.display().to_string(), &report))?;
     Ok(0)
 }
 
@@ -374,7 +564,10 @@ fn read_head(path: &Path) -> Result<Vec<u8>> {
 }
 
 fn cmd_parse(a: ParseArgs, registry: Arc<Registry>) -> Result<u8> {
-    let spec = config::from_files(&a.files, a.parser.as_deref());
+    let n = a.files.len();
+    let parsers =
+        settle::run::resolve::parsers_per_file(&a.parser, n).map_err(anyhow::Error::msg)?;
+    let spec = config::from_files_with(&a.files, &parsers);
     if !a.follow {
         let (run, _) = pipeline::read_run(&spec, registry)?;
         if a.json {
@@ -458,38 +651,29 @@ fn follow_records(spec: &RunSpec, registry: Arc<Registry>, poll: f64, json: bool
     }
 }
 
-/// Build the run spec of `check`/`report`/`watch` from PATH arguments.
+/// Build the run spec of `check`/`report` from PATH arguments, by the same rules as `watch`
+/// (`settle::run::resolve`); notes about files left out go to stderr.
 fn resolve_run(
     paths: &[PathBuf],
     config_file: Option<&Path>,
-    parser: Option<&str>,
+    parsers: &[String],
+    registry: &Registry,
 ) -> Result<RunSpec> {
     if let Some(c) = config_file {
         return Ok(config::load(c)?);
     }
-    if let [dir] = paths
-        && dir.is_dir()
-    {
-        let c = dir.join(config::CONFIG_NAME);
-        if c.is_file() {
-            return Ok(config::load(&c)?);
-        }
-        bail!(
-            "{} is a directory without {}; give the log files instead",
-            dir.display(),
-            config::CONFIG_NAME
-        );
+    let (spec, notes) =
+        settle::run::resolve::one_run(paths, parsers, registry).map_err(anyhow::Error::msg)?;
+    print_notes(&notes);
+    Ok(spec)
+}
+
+/// Say on stderr what was looked at and left out (never skip silently).
+fn print_notes(notes: &[String]) {
+    let mut err = std::io::stderr().lock();
+    for n in notes {
+        let _ = writeln!(err, "settle: note: {n}");
     }
-    for p in paths {
-        if p.is_dir() {
-            bail!(
-                "{} is a directory; check judges one run: give its log files, or one case directory holding {}",
-                p.display(),
-                config::CONFIG_NAME
-            );
-        }
-    }
-    Ok(config::from_files(paths, parser))
 }
 
 fn judge_run(run: &RunStore, criteria: &Criteria) -> Judgement {
@@ -497,7 +681,7 @@ fn judge_run(run: &RunStore, criteria: &Criteria) -> Judgement {
 }
 
 fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
-    let mut spec = resolve_run(&a.paths, a.config.as_deref(), a.parser.as_deref())?;
+    let mut spec = resolve_run(&a.paths, a.config.as_deref(), &a.parser, &registry)?;
     spec.criteria = spec.criteria.merged(&a.criteria.to_criteria());
     config::check_criteria(&spec.criteria).map_err(|(k, m)| {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
@@ -519,11 +703,11 @@ fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
 fn load_and_judge(
     paths: &[PathBuf],
     config_file: Option<&Path>,
-    parser: Option<&str>,
+    parsers: &[String],
     criteria: &CriteriaArgs,
     registry: Arc<Registry>,
 ) -> Result<(RunSpec, RunStore, Vec<String>, Judgement)> {
-    let mut spec = resolve_run(paths, config_file, parser)?;
+    let mut spec = resolve_run(paths, config_file, parsers, &registry)?;
     spec.criteria = spec.criteria.merged(&criteria.to_criteria());
     config::check_criteria(&spec.criteria).map_err(|(k, m)| {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
@@ -537,6 +721,17 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
     use settle::report::gci::{GridPoint, GridSize, MeshStudy};
     use settle::report::{ParserProvenance, Provenance, ReportInput};
 
+    // Said once, before any work: the report and its plots would each fail on it.
+    if let Some(parent) = a.output.parent().filter(|p| !p.as_os_str().is_empty())
+        && !parent.is_dir()
+    {
+        bail!(
+            "-o {}: the folder {} does not exist; create it first (mkdir -p {})",
+            a.output.display(),
+            parent.display(),
+            parent.display()
+        );
+    }
     let mut mesh = None;
     let mut paths = a.paths.clone();
     if let Some(runs) = &a.mesh_study {
@@ -551,7 +746,7 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
             let (_, _, _, j) = load_and_judge(
                 std::slice::from_ref(path),
                 None,
-                a.parser.as_deref(),
+                &a.parser,
                 &a.criteria,
                 registry.clone(),
             )
@@ -580,13 +775,8 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
     if paths.is_empty() {
         bail!("give the run to report (PATH), or --mesh-study COARSE MEDIUM FINE");
     }
-    let (spec, run, parsers, j) = load_and_judge(
-        &paths,
-        a.config.as_deref(),
-        a.parser.as_deref(),
-        &a.criteria,
-        registry.clone(),
-    )?;
+    let (spec, run, parsers, j) =
+        load_and_judge(&paths, a.config.as_deref(), &a.parser, &a.criteria, registry.clone())?;
     let mut files = Vec::new();
     for s in &spec.sources {
         files.extend(settle::follow::matching_files(&s.path)?);
@@ -624,14 +814,21 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
 }
 
 fn cmd_watch(a: WatchArgs, registry: Arc<Registry>) -> Result<u8> {
-    let mut specs = settle::watch::resolve_runs(&a.paths, a.parser.as_deref(), a.one_run)
+    let resolved = settle::watch::resolve_runs(&a.paths, &a.parser, &registry, a.each)
         .map_err(anyhow::Error::msg)?;
+    print_notes(&resolved.notes);
+    let mut specs = resolved.runs;
     let over = a.criteria.to_criteria();
     for spec in &mut specs {
         spec.criteria = spec.criteria.merged(&over);
         config::check_criteria(&spec.criteria).map_err(|(k, m)| anyhow::anyhow!("{k}: {m}"))?;
     }
-    watch_specs(specs, &a.live, registry)
+    let code = watch_specs(specs, &a.live, registry);
+    // The panels covered the notes printed before them: repeat them once they are gone.
+    if !resolved.notes.is_empty() && std::io::IsTerminal::is_terminal(&std::io::stdout()) {
+        print_notes(&resolved.notes);
+    }
+    code
 }
 
 fn cmd_demo(a: DemoArgs, registry: Arc<Registry>) -> Result<u8> {

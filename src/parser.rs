@@ -14,20 +14,23 @@
 //! A parser never panics and never stops on bad input: lines it cannot use are counted, and
 //! the first reasons are reported as [`Output::Skipped`].
 
+pub mod check;
 mod compile;
 mod detect;
+pub mod draft;
 mod error;
 mod lines;
 mod matcher;
 mod number;
 mod raw;
 mod series;
+mod shape;
 mod table;
 
 use std::path::{Path, PathBuf};
-use std::sync::OnceLock;
+use std::sync::{Arc, OnceLock};
 
-pub use detect::{Candidate, Detection};
+pub use detect::{Candidate, Detection, PatternHit};
 pub use error::DefinitionError;
 pub use number::{parse_integer, parse_number};
 
@@ -76,15 +79,7 @@ impl Definition {
 
     /// Read and compile a definition file; its name defaults to the file stem.
     pub fn from_file(path: &Path) -> Result<Definition, DefinitionError> {
-        let bytes = std::fs::read(path)
-            .map_err(|source| DefinitionError::Read { path: path.to_path_buf(), source })?;
-        let text = String::from_utf8(bytes).map_err(|e| DefinitionError::Read {
-            path: path.to_path_buf(),
-            source: std::io::Error::new(
-                std::io::ErrorKind::InvalidData,
-                format!("not UTF-8 text (byte {})", e.utf8_error().valid_up_to()),
-            ),
-        })?;
+        let text = read_text(path)?;
         let stem = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
         Definition::from_text(
             &text,
@@ -126,10 +121,6 @@ impl Definition {
             Program::Table(p) => Engine::Table(table::TableParser::new(p.clone())),
         };
         Parser { engine }
-    }
-
-    fn detect_rules(&self) -> &[DetectRule] {
-        &self.compiled.detect
     }
 }
 
@@ -174,36 +165,37 @@ impl Parser {
     }
 }
 
-/// The set of known definitions; later ones replace earlier ones of the same name.
+/// The set of known definitions; later ones replace earlier ones of the same name (and
+/// remember whom they replaced, for `settle parsers list`).
 #[derive(Debug, Clone, Default)]
 pub struct Registry {
-    defs: Vec<Definition>,
+    entries: Vec<Entry>,
 }
 
 impl Registry {
-    /// The shipped definitions only (compiled once per process, then cloned: compiled
-    /// regexes are shared, not rebuilt).
+    /// The shipped definitions only (read once per process, then cloned; each is compiled
+    /// when first used).
     pub fn builtin() -> Registry {
         static BUILTIN_REGISTRY: OnceLock<Registry> = OnceLock::new();
-        BUILTIN_REGISTRY.get_or_init(Registry::compile_builtin).clone()
+        BUILTIN_REGISTRY.get_or_init(Registry::read_builtin).clone()
     }
 
-    fn compile_builtin() -> Registry {
+    fn read_builtin() -> Registry {
         let mut reg = Registry::default();
         for (file, text) in BUILTIN {
             let stem = file.trim_end_matches(".toml");
-            let def =
-                Definition::from_text(text, Origin::Builtin, &format!("<builtin>/{file}"), stem)
-                    .expect(
-                        "shipped definitions compile: tests/parser_definitions.rs checks each one",
-                    );
-            reg.insert(def);
+            let entry = Entry::read(text, Origin::Builtin, &format!("<builtin>/{file}"), stem)
+                .expect("shipped definitions parse: tests/parser_definitions.rs checks each one");
+            reg.push(entry);
         }
         reg
     }
 
     /// Shipped definitions, then the user's folder (see [`user_parser_dir`]) if it exists,
     /// then each of `extra_dirs` (a folder of `*.toml`, or a single file).
+    ///
+    /// Every file's TOML is checked now (syntax, unknown keys, value types); regexes and
+    /// rules are compiled when a definition is first used.
     pub fn load(extra_dirs: &[PathBuf]) -> Result<Registry, DefinitionError> {
         Registry::load_from(user_parser_dir().as_deref(), extra_dirs)
     }
@@ -244,33 +236,285 @@ impl Registry {
         Ok(())
     }
 
-    /// Add one definition file, replacing a definition of the same name.
+    /// Add one definition file, replacing a definition of the same name. Its TOML is
+    /// checked now; it is compiled when first used.
     pub fn add_file(&mut self, path: &Path) -> Result<(), DefinitionError> {
-        let def = Definition::from_file(path)?;
-        self.insert(def);
+        let text = read_text(path)?;
+        let stem = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
+        let entry = Entry::read(
+            &text,
+            Origin::File(path.to_path_buf()),
+            &path.display().to_string(),
+            &stem,
+        )?;
+        self.push(entry);
         Ok(())
     }
 
     /// Add a compiled definition, replacing one of the same name (keeping its position).
     pub fn insert(&mut self, def: Definition) {
-        match self.defs.iter().position(|d| d.name() == def.name()) {
-            Some(i) => self.defs[i] = def,
-            None => self.defs.push(def),
+        self.push(Entry::from_definition(def));
+    }
+
+    fn push(&mut self, mut entry: Entry) {
+        match self.entries.iter().position(|e| e.name == entry.name) {
+            Some(i) => {
+                let old = std::mem::take(&mut self.entries[i].replaced);
+                entry.replaced = old;
+                entry.replaced.push(self.entries[i].origin.clone());
+                self.entries[i] = entry;
+            }
+            None => self.entries.push(entry),
         }
     }
 
-    pub fn definitions(&self) -> &[Definition] {
-        &self.defs
+    /// Every definition by name, compiled or not, in load order.
+    pub fn entries(&self) -> &[Entry] {
+        &self.entries
     }
 
+    /// The names of all definitions, in load order.
+    pub fn names(&self) -> impl Iterator<Item = &str> {
+        self.entries.iter().map(Entry::name)
+    }
+
+    /// Every definition that compiles, compiling all of them (listings and tests; reading a
+    /// file needs only [`Registry::definition`]).
+    pub fn definitions(&self) -> Vec<&Definition> {
+        self.entries.iter().filter_map(|e| e.definition().ok()).collect()
+    }
+
+    /// The definition called `name`, compiled on first use; `None` when unknown or broken.
     pub fn get(&self, name: &str) -> Option<&Definition> {
-        self.defs.iter().find(|d| d.name() == name)
+        self.definition(name).ok()
     }
 
-    /// Pick a definition for a file from its first bytes (about 64 KiB).
-    pub fn detect(&self, head: &[u8]) -> Detection {
-        detect::detect(&self.defs, head)
+    /// The definition called `name`, or why there is none (with the closest known name).
+    pub fn definition(&self, name: &str) -> Result<&Definition, RegistryError> {
+        match self.entries.iter().find(|e| e.name == name) {
+            Some(e) => e.definition(),
+            None => Err(RegistryError::Unknown {
+                name: name.to_string(),
+                closest: self.closest(name).map(str::to_string),
+            }),
+        }
     }
+
+    /// Whether `name` is a known definition (without compiling it).
+    pub fn contains(&self, name: &str) -> bool {
+        self.entries.iter().any(|e| e.name == name)
+    }
+
+    /// The known name nearest to `name`: a typo, at most one edit per three letters
+    /// (rounded up), a swap of two neighbours counting as one.
+    pub fn closest(&self, name: &str) -> Option<&str> {
+        let limit = name.chars().count().div_ceil(3).max(1);
+        self.entries
+            .iter()
+            .map(|e| (edit_distance(name, &e.name), e.name.as_str()))
+            .filter(|&(d, _)| d <= limit)
+            .min_by_key(|&(d, _)| d)
+            .map(|(_, n)| n)
+    }
+
+    /// Pick a definition for a file from its first bytes (about 64 KiB). Only the
+    /// `[[detect]]` patterns of each definition are compiled for this.
+    pub fn detect(&self, head: &[u8]) -> Detection {
+        detect::detect(&self.entries, head)
+    }
+}
+
+fn read_text(path: &Path) -> Result<String, DefinitionError> {
+    let bytes = std::fs::read(path)
+        .map_err(|source| DefinitionError::Read { path: path.to_path_buf(), source })?;
+    String::from_utf8(bytes).map_err(|e| DefinitionError::Read {
+        path: path.to_path_buf(),
+        source: std::io::Error::new(
+            std::io::ErrorKind::InvalidData,
+            format!("not UTF-8 text (byte {})", e.utf8_error().valid_up_to()),
+        ),
+    })
+}
+
+/// Why a definition could not be handed out by name.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum RegistryError {
+    /// No definition has this name; `closest` is the nearest known name, if one is close.
+    #[error("unknown parser `{name}`{}", suggest(.closest))]
+    Unknown { name: String, closest: Option<String> },
+    /// The definition exists but does not compile (the message names file, line and key).
+    #[error("parser `{name}` cannot be used: {message}")]
+    Invalid { name: String, message: String },
+}
+
+fn suggest(closest: &Option<String>) -> String {
+    match closest {
+        Some(c) => format!(": did you mean `{c}`? (see `settle parsers list`)"),
+        None => " (see `settle parsers list`)".to_string(),
+    }
+}
+
+/// One named definition of the registry: known by name at once, compiled when first needed.
+///
+/// Loading reads and checks the TOML of every file (syntax, unknown keys, value types),
+/// which is cheap; building the regexes and engine program is what costs time and memory
+/// for a large definition, so it waits until the definition is used: `--parser NAME`
+/// compiles only NAME, detection compiles only `[[detect]]` patterns, and a definition's
+/// rules only when a file is read with it.
+#[derive(Debug, Clone)]
+pub struct Entry {
+    name: String,
+    description: String,
+    engine: String,
+    origin: Origin,
+    /// How messages name the file (`<builtin>/tarn.toml` or the path).
+    file: String,
+    default_name: String,
+    text: Arc<str>,
+    /// Definitions of the same name this one replaced, earliest first.
+    replaced: Vec<Origin>,
+    /// The `[[detect]]` entries as read at load (detection compiles only these).
+    raw_detect: Arc<Vec<raw::RawDetect>>,
+    detect: OnceLock<Result<Vec<DetectRule>, String>>,
+    compiled: OnceLock<Result<Definition, String>>,
+}
+
+impl Entry {
+    /// Check the TOML text (not the regexes) and note name, description and engine.
+    fn read(
+        text: &str,
+        origin: Origin,
+        file: &str,
+        default_name: &str,
+    ) -> Result<Entry, DefinitionError> {
+        let raw: raw::RawDefinition =
+            toml::from_str(text).map_err(|e| error::from_toml_error(file, text, &e))?;
+        let name = raw.name.clone().unwrap_or_else(|| default_name.to_string());
+        Ok(Entry {
+            name,
+            description: raw.description.clone().unwrap_or_default(),
+            engine: raw.engine.clone(),
+            origin,
+            file: file.to_string(),
+            default_name: default_name.to_string(),
+            text: Arc::from(text),
+            replaced: Vec::new(),
+            raw_detect: Arc::new(raw.detect),
+            detect: OnceLock::new(),
+            compiled: OnceLock::new(),
+        })
+    }
+
+    fn from_definition(def: Definition) -> Entry {
+        let file = match &def.origin {
+            Origin::Builtin => format!("<builtin>/{}.toml", def.name()),
+            Origin::File(p) => p.display().to_string(),
+        };
+        Entry {
+            name: def.name().to_string(),
+            description: def.description().to_string(),
+            engine: def.engine().to_string(),
+            origin: def.origin.clone(),
+            file,
+            default_name: def.name().to_string(),
+            text: Arc::from(def.source_text()),
+            replaced: Vec::new(),
+            raw_detect: Arc::new(Vec::new()),
+            detect: OnceLock::from(Ok(def.compiled.detect.clone())),
+            compiled: OnceLock::from(Ok(def)),
+        }
+    }
+
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+
+    pub fn description(&self) -> &str {
+        &self.description
+    }
+
+    /// The engine as written (`lines`, `table`; anything else fails to compile).
+    pub fn engine(&self) -> &str {
+        &self.engine
+    }
+
+    pub fn origin(&self) -> &Origin {
+        &self.origin
+    }
+
+    /// Where the definitions this one replaced came from, earliest first.
+    pub fn replaced(&self) -> &[Origin] {
+        &self.replaced
+    }
+
+    /// The TOML text.
+    pub fn source_text(&self) -> &str {
+        &self.text
+    }
+
+    /// Has the full definition been compiled yet (for tests of lazy loading)?
+    pub fn is_compiled(&self) -> bool {
+        self.compiled.get().is_some()
+    }
+
+    /// The compiled definition, compiling it on first use.
+    pub fn definition(&self) -> Result<&Definition, RegistryError> {
+        self.compiled
+            .get_or_init(|| {
+                Definition::from_text(
+                    &self.text,
+                    self.origin.clone(),
+                    &self.file,
+                    &self.default_name,
+                )
+                .map_err(|e| e.to_string())
+            })
+            .as_ref()
+            .map_err(|m| RegistryError::Invalid { name: self.name.clone(), message: m.clone() })
+    }
+
+    /// The detection patterns only (what scoring a file needs), compiled on first use.
+    fn detect_rules(&self) -> Result<&[DetectRule], &str> {
+        self.detect
+            .get_or_init(|| {
+                compile::compile_detect(&self.raw_detect)
+                    .map_err(|p| error::from_problem(&self.file, &self.text, p).to_string())
+            })
+            .as_deref()
+            .map_err(String::as_str)
+    }
+}
+
+/// Edit distance over characters, without regard to ASCII case, counting a swap of two
+/// neighbours as one edit (optimal string alignment: `tran` is one edit from `tarn`).
+fn edit_distance(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().map(|c| c.to_ascii_lowercase()).collect();
+    let b: Vec<char> = b.chars().map(|c| c.to_ascii_lowercase()).collect();
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
+    }
+    for (j, cell) in d[0].iter_mut().enumerate() {
+        *cell = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            let mut v = (d[i - 1][j] + 1).min(d[i][j - 1] + 1).min(d[i - 1][j - 1] + cost);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                v = v.min(d[i - 2][j - 2] + 1);
+            }
+            d[i][j] = v;
+        }
+    }
+    d[a.len()][b.len()]
+}
+
+/// A TOML reading error placed at its file, line, column and key, with the expected value
+/// in plain words (`path:4:9: criteria.drift: expected a number, found the text "x"`). Run
+/// configs use it too, so both kinds of file report errors alike.
+pub fn toml_error_message(file: &str, text: &str, err: &toml::de::Error) -> String {
+    error::from_toml_error(file, text, err).to_string()
 }
 
 /// `$XDG_CONFIG_HOME/settle/parsers`, or `~/.config/settle/parsers` without it.
@@ -280,4 +524,49 @@ pub fn user_parser_dir() -> Option<PathBuf> {
         _ => PathBuf::from(std::env::var_os("HOME").filter(|h| !h.is_empty())?).join(".config"),
     };
     Some(base.join("settle").join("parsers"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn only_the_definitions_used_are_compiled() {
+        let dir = tempfile::tempdir().unwrap();
+        for name in ["alpha", "beta"] {
+            std::fs::write(
+                dir.path().join(format!("{name}.toml")),
+                format!(
+                    "engine = \"lines\"\n[[detect]]\npattern = '^{name} '\nweight = 5\n[[rules]]\nkind = \"step\"\npattern = '^{name} (?P<iteration>\\d+)'\n"
+                ),
+            )
+            .unwrap();
+        }
+        let reg = Registry::load_from(None, &[dir.path().to_path_buf()]).unwrap();
+        let compiled = |reg: &Registry| -> Vec<String> {
+            reg.entries().iter().filter(|e| e.is_compiled()).map(|e| e.name().to_string()).collect()
+        };
+        assert!(compiled(&reg).is_empty(), "loading compiles nothing");
+        assert!(reg.definition("beta").is_ok());
+        assert_eq!(compiled(&reg), vec!["beta"]);
+        // Detection compiles only the detect patterns.
+        let det = reg.detect(b"alpha 1\nalpha 2\n");
+        assert_eq!(det.chosen.as_deref(), Some("alpha"));
+        assert_eq!(compiled(&reg), vec!["beta"]);
+    }
+
+    #[test]
+    fn typos_find_the_closest_name() {
+        let reg = Registry::builtin();
+        assert_eq!(reg.closest("tran"), Some("tarn"));
+        assert_eq!(reg.closest("cvs"), Some("csv"));
+        assert_eq!(reg.closest("tabel"), Some("table"));
+        assert_eq!(reg.closest("gully"), None);
+        assert_eq!(edit_distance("Tarn", "tarn"), 0);
+        assert_eq!(edit_distance("abc", ""), 3);
+        match reg.definition("tran") {
+            Err(e) => assert!(e.to_string().contains("did you mean `tarn`"), "{e}"),
+            Ok(_) => panic!("no such definition"),
+        }
+    }
 }

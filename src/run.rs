@@ -7,6 +7,7 @@ pub mod downsample;
 pub mod headless;
 pub mod ingest;
 pub mod pipeline;
+pub mod resolve;
 pub mod store;
 
-pub use store::{RunStore, Segment, SegmentReason, Series, SourceStore};
+pub use store::{RunStore, Segment, SegmentReason, Series, SeriesName, SourceStore};

@@ -12,4 +12,5 @@
 pub mod check;
 pub mod number;
 pub mod parse;
+pub mod parsers;
 pub mod words;

@@ -186,7 +186,21 @@ pub fn worst(verdicts: impl IntoIterator<Item = Verdict>) -> Verdict {
 
 /// No more records can be expected: the end-of-run mark, a stale log, or a crash message
 /// after divergence. Actions then fire without waiting for their `hold` records.
+///
+/// Never before every source of the run has been read once: the log's end mark can arrive
+/// before the monitor files of the same run have been read at all, and a judgement then
+/// would lack them (a source has been read once when it grew, or gave a note: missing,
+/// empty, unreadable).
 fn data_final(run: &LiveRun) -> bool {
+    let all_read = run
+        .store
+        .sources
+        .iter()
+        .zip(&run.activity)
+        .all(|(s, a)| a.last_growth.is_some() || !s.notes.is_empty() || s.stats.lines > 0);
+    if !all_read {
+        return false;
+    }
     let crashed =
         run.store.sources.iter().any(|s| s.events.iter().any(|e| e.severity == Severity::Error));
     let v = run.verdict();
@@ -373,54 +387,18 @@ pub fn forward_signals(tx: Sender<Msg>) -> io::Result<()> {
     Ok(())
 }
 
-/// Expand `watch` arguments into runs: a directory holding settle.toml is one run; a
-/// directory without one contributes each subdirectory that holds one (a sweep); files are
-/// one run each, or together one run with `one_run`.
+/// Expand `watch` arguments into runs, by the same rules as `check` and `report`
+/// ([`crate::run::resolve`]): files given together are one run, `+` separates runs, a
+/// directory is its `settle.toml` or the runs its recognised files form, a folder of case
+/// directories is one run per directory. With `each`, every file is its own run. The notes
+/// say what was looked at and left out, and why.
 pub fn resolve_runs(
     paths: &[PathBuf],
-    parser: Option<&str>,
-    one_run: bool,
-) -> Result<Vec<RunSpec>, String> {
-    use crate::run::config;
-    let mut specs = Vec::new();
-    let mut files = Vec::new();
-    for p in paths {
-        if p.is_dir() {
-            let c = p.join(config::CONFIG_NAME);
-            if c.is_file() {
-                specs.push(config::load(&c).map_err(|e| e.to_string())?);
-                continue;
-            }
-            let mut subs: Vec<PathBuf> = std::fs::read_dir(p)
-                .map_err(|e| format!("{}: {e}", p.display()))?
-                .filter_map(|e| e.ok().map(|e| e.path()))
-                .filter(|d| d.join(config::CONFIG_NAME).is_file())
-                .collect();
-            if subs.is_empty() {
-                return Err(format!(
-                    "{}: no {} here or in its subdirectories; give log files instead",
-                    p.display(),
-                    config::CONFIG_NAME
-                ));
-            }
-            subs.sort_by(|a, b| {
-                crate::follow::natural_cmp(&a.to_string_lossy(), &b.to_string_lossy())
-            });
-            for d in subs {
-                specs.push(config::load(&d.join(config::CONFIG_NAME)).map_err(|e| e.to_string())?);
-            }
-        } else {
-            files.push(p.clone());
-        }
-    }
-    if one_run && !files.is_empty() {
-        specs.push(config::from_files(&files, parser));
-    } else {
-        for f in files {
-            specs.push(config::from_files(std::slice::from_ref(&f), parser));
-        }
-    }
-    Ok(specs)
+    parsers: &[String],
+    registry: &Registry,
+    each: bool,
+) -> Result<crate::run::resolve::Resolved, String> {
+    crate::run::resolve::runs(paths, parsers, registry, each)
 }
 
 /// Run the panels (the terminal must be a tty).

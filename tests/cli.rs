@@ -251,3 +251,308 @@ fn check_gives_the_labelled_verdicts_of_the_samples() {
     assert!(text.starts_with("mixer-22: DIVERGING"), "verdict on the first line: {text}");
     assert!(text.contains("criteria") && text.contains("[not met]"), "{text}");
 }
+
+fn settle_env(args: &[&str], config_home: &Path) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_settle"))
+        .args(args)
+        .env("XDG_CONFIG_HOME", config_home)
+        .output()
+        .expect("the settle binary runs")
+}
+
+fn json_lines(text: &str) -> Vec<Value> {
+    text.lines().filter(|l| l.starts_with('{')).map(|l| serde_json::from_str(l).unwrap()).collect()
+}
+
+/// The (series, criterion) pairs of a judgement, sorted.
+fn criteria_of(v: &Value) -> Vec<(String, String)> {
+    let mut c: Vec<(String, String)> = v["criteria"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| (c["series"].as_str().unwrap().into(), c["name"].as_str().unwrap().into()))
+        .collect();
+    c.sort();
+    c
+}
+
+#[test]
+fn check_and_watch_take_the_same_files_as_the_same_run() {
+    // A log and its monitor file given together: one run for both commands, the monitor
+    // printed in both files judged once.
+    let s = samples();
+    let log = s.join("duct-bend-07/tarn.log");
+    let csv = s.join("duct-bend-07/forces.csv");
+    let (log, csv) = (log.to_str().unwrap(), csv.to_str().unwrap());
+    let check = settle(&["check", "--json", log, csv]);
+    let checked: Value = serde_json::from_str(&stdout(&check)).unwrap();
+    let watch =
+        settle(&["watch", "--headless", "--json", "--poll", "0.1", "--refresh", "0.1", log, csv]);
+    let lines = json_lines(&stdout(&watch));
+    let ends: Vec<&Value> = lines.iter().filter(|l| l["event"] == "end").collect();
+    assert_eq!(ends.len(), 1, "one run: {}", stdout(&watch));
+    assert_eq!(ends[0]["run"], "duct-bend-07");
+    assert_eq!(ends[0]["verdict"], checked["verdict"]);
+    assert_eq!(criteria_of(ends[0]), criteria_of(&checked));
+    // drag, lift and dp are in both files: each judged once, under its plain name.
+    let series: Vec<(String, String)> = criteria_of(&checked);
+    for m in ["drag", "lift", "dp"] {
+        assert_eq!(series.iter().filter(|(s, _)| s == m).count(), 2, "{m}: drift and band");
+        assert!(!series.iter().any(|(s, _)| s.ends_with(&format!("/{m}"))), "{series:?}");
+    }
+    // A monitor file with series of its own: the finished log's end mark must not end the
+    // watch before that file is read (it used to: 12 criteria instead of 18).
+    let dir = tempfile::tempdir().unwrap();
+    let probes = dir.path().join("probes.csv");
+    let mut text = String::from("step,probe_a\n");
+    for i in 1..=1492 {
+        text.push_str(&format!("{i},{:.6}\n", 101325.0 + 100.0 / i as f64));
+    }
+    std::fs::write(&probes, text).unwrap();
+    let p = probes.to_str().unwrap();
+    let check = settle(&["check", "--json", log, csv, p]);
+    let checked: Value = serde_json::from_str(&stdout(&check)).unwrap();
+    assert_eq!(criteria_of(&checked).len(), 14, "{}", stdout(&check));
+    for _ in 0..3 {
+        let watch = settle(&[
+            "watch",
+            "--headless",
+            "--json",
+            "--poll",
+            "0.1",
+            "--refresh",
+            "0.1",
+            log,
+            csv,
+            p,
+        ]);
+        let lines = json_lines(&stdout(&watch));
+        let end = lines.iter().find(|l| l["event"] == "end").expect("an end line");
+        assert_eq!(criteria_of(end), criteria_of(&checked));
+    }
+    // `+` between them makes them two runs (`--stale 1s`: the monitor file alone has no end
+    // mark, and a fresh checkout's files are new).
+    let watch = settle(&[
+        "watch",
+        "--headless",
+        "--json",
+        "--poll",
+        "0.1",
+        "--refresh",
+        "0.1",
+        "--stale",
+        "1s",
+        log,
+        "+",
+        csv,
+    ]);
+    let ends = json_lines(&stdout(&watch)).into_iter().filter(|l| l["event"] == "end").count();
+    assert_eq!(ends, 2, "{}", stdout(&watch));
+    let o = settle(&["check", log, "+", csv]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(stderr(&o).contains("judges one run"), "{}", stderr(&o));
+}
+
+#[test]
+fn a_folder_without_settle_toml_is_looked_into_and_what_is_left_out_is_said() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("case-a");
+    std::fs::create_dir(&case).unwrap();
+    let s = samples();
+    std::fs::copy(s.join("duct-bend-07/tarn.log"), case.join("tarn.log")).unwrap();
+    std::fs::copy(s.join("duct-bend-07/forces.csv"), case.join("forces.csv")).unwrap();
+    std::fs::write(case.join("notes.txt"), "mesh from Tuesday\n").unwrap();
+    std::fs::create_dir(dir.path().join("mesh")).unwrap();
+    std::fs::write(dir.path().join("mesh/grid.x"), "no numbers here\n").unwrap();
+    let root = dir.path().to_str().unwrap();
+    let o = settle(&["watch", "--headless", "--json", "--poll", "0.1", "--refresh", "0.1", root]);
+    let ends: Vec<Value> =
+        json_lines(&stdout(&o)).into_iter().filter(|l| l["event"] == "end").collect();
+    assert_eq!(ends.len(), 1, "{}", stdout(&o));
+    assert_eq!(ends[0]["run"], "case-a");
+    assert_eq!(ends[0]["verdict"], "converged");
+    let err = stderr(&o);
+    assert!(err.contains("notes.txt") && err.contains("no parser definition recognises"), "{err}");
+    assert!(err.contains("mesh: left out"), "{err}");
+    // check takes the same folder as one run.
+    let o = settle(&["check", "--json", case.to_str().unwrap()]);
+    let v: Value = serde_json::from_str(&stdout(&o)).unwrap();
+    assert_eq!(v["verdict"], "converged");
+    assert_eq!(criteria_of(&v), criteria_of(&ends[0]));
+    // The samples folder: its `plain` folder holds two tables and no log: two runs (they
+    // have no end mark: `--stale 1s`, as a fresh checkout's files are new).
+    let o = settle(&[
+        "watch",
+        "--headless",
+        "--json",
+        "--poll",
+        "0.1",
+        "--refresh",
+        "0.1",
+        "--stale",
+        "1s",
+        s.to_str().unwrap(),
+    ]);
+    let mut runs: Vec<String> = json_lines(&stdout(&o))
+        .into_iter()
+        .filter(|l| l["event"] == "end")
+        .map(|l| l["run"].as_str().unwrap().to_string())
+        .collect();
+    runs.sort();
+    assert_eq!(runs, vec!["duct-bend-07", "mixer-22", "plain/history.csv", "plain/history.dat"]);
+    let o = settle(&["check", s.join("plain").to_str().unwrap()]);
+    assert!(stderr(&o).contains("holds 2 runs"), "{}", stderr(&o));
+}
+
+#[test]
+fn typos_and_replacements_of_definitions_are_explained() {
+    let s = samples();
+    let csv = s.join("plain/history.csv");
+    let o = settle(&["parse", "--parser", "tran", csv.to_str().unwrap()]);
+    assert!(stderr(&o).contains("did you mean `tarn`"), "{}", stderr(&o));
+    let dir = tempfile::tempdir().unwrap();
+    let user = dir.path().join("settle/parsers");
+    std::fs::create_dir_all(&user).unwrap();
+    let text = stdout(&settle(&["parsers", "show", "csv"]));
+    std::fs::write(user.join("csv.toml"), text.replace("generic comma", "my comma")).unwrap();
+    let o = settle_env(&["parsers", "list"], dir.path());
+    let out = stdout(&o);
+    let at = out.lines().position(|l| l.starts_with("csv")).expect("csv listed");
+    let line = out.lines().nth(at).unwrap();
+    assert!(line.contains("my comma") && line.contains("csv.toml"), "{out}");
+    let next = out.lines().nth(at + 1).unwrap();
+    assert!(next.contains("replaces `csv` from built in"), "{out}");
+    // A run config naming a parser with a typo gets the suggestion too.
+    let case = dir.path().join("case");
+    std::fs::create_dir(&case).unwrap();
+    std::fs::write(case.join("settle.toml"), "[[source]]\npath = 'h.csv'\nparser = 'cvs'\n")
+        .unwrap();
+    std::fs::copy(&csv, case.join("h.csv")).unwrap();
+    let o = settle(&["check", case.to_str().unwrap()]);
+    assert!(stderr(&o).contains("unknown parser `cvs`: did you mean `csv`?"), "{}", stderr(&o));
+}
+
+#[test]
+fn with_a_named_parser_only_that_definition_is_compiled() {
+    // A user definition whose rules do not compile does not stop reading with another
+    // definition, and is reported as soon as it is used.
+    let dir = tempfile::tempdir().unwrap();
+    let user = dir.path().join("settle/parsers");
+    std::fs::create_dir_all(&user).unwrap();
+    std::fs::write(
+        user.join("broken.toml"),
+        "engine = \"lines\"\n[[rules]]\nkind = \"step\"\npattern = '(('\n",
+    )
+    .unwrap();
+    let csv = samples().join("plain/history.csv");
+    let o = settle_env(&["parse", "--parser", "csv", csv.to_str().unwrap()], dir.path());
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = settle_env(&["parse", csv.to_str().unwrap()], dir.path());
+    assert!(o.status.success(), "detection needs only detect patterns: {}", stderr(&o));
+    let o = settle_env(&["parse", "--parser", "broken", csv.to_str().unwrap()], dir.path());
+    assert_eq!(o.status.code(), Some(1));
+    let err = stderr(&o);
+    assert!(err.contains("broken.toml:4:11: rules[0].pattern: invalid regex"), "{err}");
+    let o = settle_env(&["parsers", "list"], dir.path());
+    assert!(stdout(&o).contains("✗ cannot be used"), "{}", stdout(&o));
+}
+
+#[test]
+fn an_unrecognised_file_is_explained_with_its_own_lines() {
+    let dir = tempfile::tempdir().unwrap();
+    let junk = dir.path().join("run.out");
+    std::fs::write(&junk, "solver says hello\n1 2\n").unwrap();
+    let o = settle(&["check", junk.to_str().unwrap()]);
+    let err = stderr(&o);
+    assert!(
+        err.contains("best candidates: `table` scored 0 (line 2 `1 2`, needs 2 lines)"),
+        "{err}"
+    );
+    assert!(err.contains("settle parsers draft"), "{err}");
+    assert!(!err.contains("(?:"), "no regex dump: {err}");
+}
+
+#[test]
+fn value_types_and_missing_output_folders_are_said_in_words_once() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("settle.toml"),
+        "[[source]]\npath = 'a.log'\n[criteria]\ndrift = 'small'\n",
+    )
+    .unwrap();
+    let o = settle(&["check", dir.path().to_str().unwrap()]);
+    let err = stderr(&o);
+    assert!(
+        err.contains(
+            "settle.toml:4:9: criteria.drift: expected a number, found the text \"small\""
+        ),
+        "{err}"
+    );
+    let o = settle(&[
+        "report",
+        samples().join("duct-bend-07").to_str().unwrap(),
+        "-o",
+        "/nonexistent-dir/r.md",
+    ]);
+    let err = stderr(&o);
+    assert_eq!(err.matches("/nonexistent-dir").count(), 3, "{err}");
+    assert_eq!(err.lines().count(), 1, "{err}");
+}
+
+#[test]
+fn completions_and_manual_pages_come_from_the_command_line_definition() {
+    let o = settle(&["completions", "bash"]);
+    let text = stdout(&o);
+    assert!(o.status.success());
+    for word in ["settle", "parsers", "draft", "--residual-drop"] {
+        assert!(text.contains(word), "{word}");
+    }
+    let o = settle(&["man"]);
+    assert!(stdout(&o).starts_with(".ie") || stdout(&o).contains(".TH settle"), "{}", stdout(&o));
+    let dir = tempfile::tempdir().unwrap();
+    let o = settle(&["man", "--dir", dir.path().to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    for page in ["settle.1", "settle-check.1", "settle-parsers.1", "settle-watch.1"] {
+        let text = std::fs::read_to_string(dir.path().join(page)).unwrap();
+        assert!(text.contains(".TH"), "{page}");
+    }
+}
+
+#[test]
+fn draft_write_then_check_then_read_an_invented_log() {
+    // A new user's first minutes: draft a definition for an unknown log, save it, check
+    // it, and let detection pick it. The log is `rill`, one of our invented formats.
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("run.log");
+    let mut text = String::from("# rill 0.9 steady run, case nozzle-3\n");
+    for i in 1..=60 {
+        let r = 10f64.powf(-(i as f64) / 15.0);
+        text.push_str(&format!(
+            "it {i:>6}  r(p)={r:.4e} r(u)={:.4e}  cd={:.5}\n",
+            r / 2.0,
+            0.41 + 0.1 / i as f64
+        ));
+    }
+    std::fs::write(&log, &text).unwrap();
+    let path = log.to_str().unwrap();
+    let o = settle_env(&["parse", path], dir.path());
+    assert!(stderr(&o).contains("no parser definition recognises"), "{}", stderr(&o));
+    let o = settle_env(&["parsers", "draft", "--write", "rill", path], dir.path());
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("what this definition reads"), "{}", stdout(&o));
+    let saved = dir.path().join("settle/parsers/rill.toml");
+    assert!(saved.is_file());
+    let o = settle_env(&["parsers", "draft", "--write", "rill", path], dir.path());
+    assert!(stderr(&o).contains("--force"), "no silent overwrite: {}", stderr(&o));
+    let o = settle_env(&["parsers", "check", "rill", path], dir.path());
+    assert!(stdout(&o).contains("no problems found"), "{}", stdout(&o));
+    let o = settle_env(&["parse", "--json", path], dir.path());
+    let v: Value = serde_json::from_str(&stdout(&o)).unwrap();
+    let src = &v["sources"][0];
+    assert_eq!(src["parser"], "rill");
+    assert_eq!(src["records"], 60);
+    assert_eq!(series(src, "p")["role"], "residual");
+    assert_eq!(series(src, "cd")["role"], "monitor");
+    let o = settle_env(&["parsers", "check", saved.to_str().unwrap()], dir.path());
+    assert!(stdout(&o).contains("valid lines definition `rill`"), "{}", stdout(&o));
+}

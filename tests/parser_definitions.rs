@@ -152,10 +152,15 @@ fn registry_layers_override_by_name() {
     let err = Registry::load_from(None, &[dir.path().join("absent")]).expect_err("missing dir");
     assert!(matches!(err, DefinitionError::Read { .. }));
 
-    // A single file can be given instead of a folder; a broken one names itself.
+    // A single file can be given instead of a folder. Its TOML is checked at load; its
+    // rules are compiled when it is first used, and a broken one names itself then.
     let bad = dir.path().join("bad.toml");
     fs::write(&bad, "engine = \"lines\"\n").expect("write");
-    let err = Registry::load_from(None, std::slice::from_ref(&bad)).expect_err("no step rule");
+    let reg = Registry::load_from(None, std::slice::from_ref(&bad)).expect("TOML is fine");
+    let err = reg.definition("bad").expect_err("no step rule");
+    assert!(err.to_string().contains("bad.toml"), "{err}");
+    fs::write(&bad, "engine = \"lines\"\npatern = 1\n").expect("write");
+    let err = Registry::load_from(None, std::slice::from_ref(&bad)).expect_err("unknown key");
     assert!(err.to_string().contains("bad.toml"), "{err}");
     let mut reg = Registry::builtin();
     reg.add_file(&user.join("mine.toml")).expect("adds");

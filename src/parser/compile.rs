@@ -10,7 +10,7 @@ use std::sync::Arc;
 use super::error::Problem;
 use super::lines::LinesProgram;
 use super::matcher::Matcher;
-use super::raw::RawDefinition;
+use super::raw::{RawDefinition, RawDetect};
 use super::table::TableProgram;
 use crate::record::{Role, Severity};
 
@@ -51,8 +51,25 @@ pub fn compile(raw: RawDefinition, default_name: &str) -> Result<Compiled, Probl
         ));
     }
     let description = raw.description.clone().unwrap_or_default();
+    let detect = compile_detect(&raw.detect)?;
+    let program = match raw.engine.as_str() {
+        "lines" => Program::Lines(Arc::new(super::lines::compile::compile(raw)?)),
+        "table" => Program::Table(Arc::new(super::table::compile::compile(raw)?)),
+        other => {
+            return Err(Problem::new(
+                "engine",
+                format!("unknown engine `{other}` (expected `lines` or `table`)"),
+            ));
+        }
+    };
+    Ok(Compiled { name, description, program, detect })
+}
+
+/// The `[[detect]]` patterns alone: what scoring a file needs, without the engine program
+/// (the registry compiles definitions lazily and detection needs only these).
+pub fn compile_detect(raw: &[RawDetect]) -> Result<Vec<DetectRule>, Problem> {
     let mut detect = Vec::new();
-    for (i, d) in raw.detect.iter().enumerate() {
+    for (i, d) in raw.iter().enumerate() {
         let key = format!("detect[{i}]");
         let matcher = Matcher::new(&d.pattern, None)
             .map_err(|m| Problem::new(format!("{key}.pattern"), m))?;
@@ -67,17 +84,7 @@ pub fn compile(raw: RawDefinition, default_name: &str) -> Result<Compiled, Probl
             min_lines: usize::try_from(min_lines).unwrap_or(usize::MAX),
         });
     }
-    let program = match raw.engine.as_str() {
-        "lines" => Program::Lines(Arc::new(super::lines::compile::compile(raw)?)),
-        "table" => Program::Table(Arc::new(super::table::compile::compile(raw)?)),
-        other => {
-            return Err(Problem::new(
-                "engine",
-                format!("unknown engine `{other}` (expected `lines` or `table`)"),
-            ));
-        }
-    };
-    Ok(Compiled { name, description, program, detect })
+    Ok(detect)
 }
 
 /// `residual`, `monitor`, `indicator` or `info`.

@@ -71,7 +71,7 @@ pub fn line_column(text: &str, offset: usize) -> (usize, usize) {
 /// Turn a `toml` deserialisation error into a [`DefinitionError`]: a syntax error when the
 /// document does not parse at all, otherwise a data error placed at its key.
 pub fn from_toml_error(file: &str, text: &str, err: &toml::de::Error) -> DefinitionError {
-    let message = err.message().trim().to_string();
+    let message = crate::words::expected_in_words(err.message());
     match DeTable::parse(text) {
         Err(syntax) => {
             let offset = syntax.span().map_or(0, |s| s.start);

@@ -123,6 +123,8 @@ enum Col {
         comps: Vec<SeriesId>,
         /// Components named `_x/_y/_z`; decided from the first vector seen in the column.
         xyz: bool,
+        /// Component names listed by a grouped header cell (`(total_x total_y total_z)`).
+        listed: Vec<String>,
     },
 }
 
@@ -230,15 +232,17 @@ impl TableParser {
         }
         if let Some(h) = &self.header
             && h.raw.len() == self.cells.len()
-            && h.raw.iter().zip(&self.cells).all(|(r, c)| r.as_slice() == c.bytes(line))
+            && h.raw.iter().zip(&self.cells).all(|(r, c)| *r == header_cell(c, line))
         {
             return (LineUse::Used, None);
         }
         if self.prog.columns.is_none() {
-            if self.candidates.len() == MAX_CANDIDATES {
-                self.candidates.pop_front();
+            for candidate in header_candidates(&self.cells, line) {
+                if self.candidates.len() == MAX_CANDIDATES {
+                    self.candidates.pop_front();
+                }
+                self.candidates.push_back(candidate);
             }
-            self.candidates.push_back(self.cells.iter().map(|c| c.bytes(line).to_vec()).collect());
         }
         (LineUse::Ignored, None)
     }
@@ -311,7 +315,7 @@ impl TableParser {
                         });
                     }
                 },
-                Col::Value { name, role, scalar, comps, xyz } => {
+                Col::Value { name, role, scalar, comps, xyz, listed } => {
                     if cell.kind == CellKind::Vector {
                         if comps.is_empty() {
                             *xyz = self.prog.vectors == VectorNames::Xyz
@@ -327,7 +331,10 @@ impl TableParser {
                             };
                             // Components before `k` may have failed to parse; name them too.
                             while comps.len() <= k {
-                                let cname = component_name(name, comps.len(), *xyz);
+                                let cname = listed
+                                    .get(comps.len())
+                                    .cloned()
+                                    .unwrap_or_else(|| component_name(name, comps.len(), *xyz));
                                 match self.series.intern(&cname, *role, out) {
                                     Some(id) => comps.push(id),
                                     None => break,
@@ -378,20 +385,7 @@ impl TableParser {
     /// Resolve names, index columns and roles for a new header.
     fn build_header(&self, raw: Vec<Vec<u8>>) -> Header {
         let prog = &self.prog;
-        let mut names: Vec<String> = Vec::with_capacity(raw.len());
-        for (i, r) in raw.iter().enumerate() {
-            let mut n = clean_text(r).replace("\"\"", "\"");
-            if n.is_empty() {
-                n = format!("col{}", i + 1);
-            }
-            let base = n.clone();
-            let mut k = 2;
-            while names.iter().any(|m| m == &n) {
-                n = format!("{base}_{k}");
-                k += 1;
-            }
-            names.push(n);
-        }
+        let (names, listed) = header_names(&raw);
         let find = |c: &Column| -> Option<usize> {
             match c {
                 Column::Position(p) => (*p < names.len()).then_some(*p),
@@ -417,7 +411,7 @@ impl TableParser {
                 } else if Some(i) == time_col {
                     Col::Time
                 } else {
-                    match prog.role_of(n) {
+                    match grouped_role(prog, n, &listed[i]) {
                         None => Col::Ignored,
                         Some(role) => Col::Value {
                             name: n.clone(),
@@ -425,6 +419,7 @@ impl TableParser {
                             scalar: None,
                             comps: Vec::new(),
                             xyz: false,
+                            listed: listed[i].clone(),
                         },
                     }
                 }
@@ -457,6 +452,96 @@ fn missing_index(prog: &TableProgram, h: &Header) -> Option<String> {
         return Some(format!("time {}", shown(c)));
     }
     None
+}
+
+/// A header cell as printed: a bracketed cell keeps its brackets, so a grouped header
+/// cell `(total_x total_y total_z)` can be told from a plain name.
+pub(in crate::parser) fn header_cell(c: &Cell, line: &[u8]) -> Vec<u8> {
+    let bytes = c.bytes(line);
+    if c.kind != CellKind::Vector {
+        return bytes.to_vec();
+    }
+    let mut v = Vec::with_capacity(bytes.len() + 2);
+    v.push(b'(');
+    v.extend_from_slice(bytes);
+    v.push(b')');
+    v
+}
+
+/// The header candidates one non-data line gives: its cells as printed and, when some cells
+/// group names in brackets, also the flat list of every name, so data rows that print
+/// such a group as one vector cell and rows that print its components as separate cells
+/// both find their header.
+fn header_candidates(cells: &[Cell], line: &[u8]) -> Vec<Vec<Vec<u8>>> {
+    let printed: Vec<Vec<u8>> = cells.iter().map(|c| header_cell(c, line)).collect();
+    if !cells.iter().any(|c| c.kind == CellKind::Vector) {
+        return vec![printed];
+    }
+    let mut flat = Vec::new();
+    for c in cells {
+        if c.kind == CellKind::Vector {
+            flat.extend(components(c.bytes(line)).map(<[u8]>::to_vec));
+        } else {
+            flat.push(c.bytes(line).to_vec());
+        }
+    }
+    vec![flat, printed]
+}
+
+/// Column names of a header, and for each column the component names a bracketed cell
+/// lists (`(total_x total_y total_z)` → `total_x`, `total_y`, `total_z`; empty for plain
+/// cells). Empty names become `colN`; repeated names get `_2`, `_3`.
+pub(in crate::parser) fn header_names(raw: &[Vec<u8>]) -> (Vec<String>, Vec<Vec<String>>) {
+    let mut names: Vec<String> = Vec::with_capacity(raw.len());
+    let mut listed = Vec::with_capacity(raw.len());
+    for (i, r) in raw.iter().enumerate() {
+        let inner = match (r.first(), r.last()) {
+            (Some(b'('), Some(b')')) | (Some(b'['), Some(b']')) if r.len() >= 2 => {
+                Some(&r[1..r.len() - 1])
+            }
+            _ => None,
+        };
+        let parts: Vec<String> = inner
+            .map(|b| components(b).map(clean_text).filter(|n| !n.is_empty()).collect())
+            .unwrap_or_default();
+        let mut n = if parts.is_empty() {
+            clean_text(inner.unwrap_or(r)).replace("\"\"", "\"")
+        } else {
+            parts.join(" ")
+        };
+        if n.is_empty() {
+            n = format!("col{}", i + 1);
+        }
+        let base = n.clone();
+        let mut k = 2;
+        while names.iter().any(|m| m == &n) {
+            n = format!("{base}_{k}");
+            k += 1;
+        }
+        names.push(n);
+        listed.push(parts);
+    }
+    (names, listed)
+}
+
+/// The role of a column; a grouped column takes the role its first listed name is given by
+/// `ignore`, `roles` or `residuals` (so definitions can name the components), else the
+/// role of its whole name.
+fn grouped_role(prog: &TableProgram, name: &str, listed: &[String]) -> Option<Role> {
+    for part in listed {
+        if prog.ignore.iter().any(|g| prog.glob(g, part)) {
+            return None;
+        }
+        if let Some((_, role)) =
+            prog.roles.iter().find(|(gs, _)| gs.iter().any(|g| prog.glob(g, part)))
+        {
+            return Some(*role);
+        }
+        if prog.residuals.iter().any(|g| prog.glob(g, part)) {
+            return Some(Role::Residual);
+        }
+    }
+    prog.role_of(name)
 }
 
 fn component_name(base: &str, k: usize, xyz: bool) -> String {
@@ -550,6 +635,74 @@ mod tests {
         assert_eq!(recs[0].values, vec![(1, 2.0), (2, 3.0)]);
         assert_eq!(recs[1].values, vec![(0, 4.0), (1, 5.0), (2, 6.0)]);
         assert_eq!(stats.skipped, 1);
+    }
+
+    fn series_names(out: &[Output]) -> Vec<String> {
+        out.iter()
+            .filter_map(|o| if let Output::Series(s) = o { Some(s.name.clone()) } else { None })
+            .collect()
+    }
+
+    #[test]
+    fn a_header_grouping_vector_columns_gives_the_names_it_lists() {
+        let text = "# Time\t(total_x total_y total_z)\t(pressure_x pressure_y)\n\
+                    0.1\t(1 2 3)\t(4 5)\n\
+                    0.2\t(1.5 2.5 3.5)\t(4.5 5.5)\n";
+        let (out, stats) = rows("table", text);
+        assert_eq!(
+            series_names(&out),
+            vec!["total_x", "total_y", "total_z", "pressure_x", "pressure_y"]
+        );
+        let last =
+            out.iter().rev().find_map(|o| if let Output::Record(r) = o { Some(r) } else { None });
+        assert_eq!(last.map(|r| r.time), Some(Some(0.2)));
+        assert_eq!(
+            last.map(|r| r.values.clone()),
+            Some(vec![(0, 1.5), (1, 2.5), (2, 3.5), (3, 4.5), (4, 5.5)])
+        );
+        assert_eq!(stats.skipped, 0);
+    }
+
+    #[test]
+    fn a_grouped_header_also_fits_rows_that_print_the_components_flat() {
+        let text = "# Time (total_x total_y) (pressure_x pressure_y)\n\
+                    0.1 1 2 3 4\n\
+                    # Time (total_x total_y) (pressure_x pressure_y)\n\
+                    0.2 5 6 7 8\n";
+        let (out, stats) = rows("table", text);
+        assert_eq!(series_names(&out), vec!["total_x", "total_y", "pressure_x", "pressure_y"]);
+        assert_eq!(stats.skipped, 0);
+        assert_eq!(stats.used, 2);
+    }
+
+    #[test]
+    fn grouped_columns_take_the_role_of_their_first_listed_name() {
+        let def = crate::parser::Definition::from_text(
+            "engine = \"table\"\n[table]\nresiduals = [\"res_x\"]\n",
+            crate::parser::Origin::Builtin,
+            "t.toml",
+            "t",
+        )
+        .unwrap();
+        let mut p = def.parser();
+        let mut out = Vec::new();
+        for l in ["it (res_x res_y) Cd", "1 (1 2) 0.4"] {
+            p.feed(l.as_bytes(), &mut out);
+        }
+        let roles: Vec<(String, Role)> = out
+            .iter()
+            .filter_map(|o| {
+                if let Output::Series(s) = o { Some((s.name.clone(), s.role)) } else { None }
+            })
+            .collect();
+        assert_eq!(
+            roles,
+            vec![
+                ("res_x".to_string(), Role::Residual),
+                ("res_y".to_string(), Role::Residual),
+                ("Cd".to_string(), Role::Monitor)
+            ]
+        );
     }
 
     #[test]

@@ -21,7 +21,8 @@ pub const DEFAULT_STALE_LIMIT: Duration = Duration::from_secs(300);
 pub enum ConfigError {
     #[error("cannot read run config {path}: {source}")]
     Read { path: PathBuf, source: std::io::Error },
-    #[error("run config {path}: {message}")]
+    /// `message` starts with the file, line, column and key of the problem.
+    #[error("run config {message}")]
     Syntax { path: PathBuf, message: String },
     #[error("run config {path}: key `{key}`: {message}")]
     Invalid { path: PathBuf, key: String, message: String },
@@ -135,8 +136,10 @@ pub fn load(path: &Path) -> Result<RunSpec, ConfigError> {
 
 /// Validate config text; `path` names the file in errors and anchors relative paths.
 pub fn parse(text: &str, path: &Path) -> Result<RunSpec, ConfigError> {
-    let raw: RawConfig = toml::from_str(text)
-        .map_err(|e| ConfigError::Syntax { path: path.to_path_buf(), message: e.to_string() })?;
+    let raw: RawConfig = toml::from_str(text).map_err(|e| ConfigError::Syntax {
+        path: path.to_path_buf(),
+        message: crate::parser::toml_error_message(&path.display().to_string(), text, &e),
+    })?;
     let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
     let dir = if dir.as_os_str().is_empty() { PathBuf::from(".") } else { dir };
     let invalid = |key: &str, message: String| ConfigError::Invalid {
@@ -176,8 +179,17 @@ pub fn parse(text: &str, path: &Path) -> Result<RunSpec, ConfigError> {
     })
 }
 
-/// A run made from plain file arguments (no config): named after the first file's directory.
+/// A run made from plain file arguments (no config), every file read with `parser` (or
+/// detected): see [`from_files_with`].
 pub fn from_files(files: &[PathBuf], parser: Option<&str>) -> RunSpec {
+    let parsers: Vec<Option<String>> = files.iter().map(|_| parser.map(str::to_string)).collect();
+    from_files_with(files, &parsers)
+}
+
+/// A run made from plain file arguments, each with its own parser (`None`: detected; a
+/// missing entry counts as `None`). The files are the run's sources, in order. The run is
+/// named `dir/file.ext` after a single file, else after the first file's directory.
+pub fn from_files_with(files: &[PathBuf], parsers: &[Option<String>]) -> RunSpec {
     let first = files.first().cloned().unwrap_or_default();
     let dir = first.parent().map(Path::to_path_buf).filter(|d| !d.as_os_str().is_empty());
     let dir = dir.unwrap_or_else(|| PathBuf::from("."));
@@ -193,10 +205,11 @@ pub fn from_files(files: &[PathBuf], parser: Option<&str>) -> RunSpec {
         dir,
         sources: files
             .iter()
-            .map(|f| SourceSpec {
+            .enumerate()
+            .map(|(i, f)| SourceSpec {
                 path: f.clone(),
                 label: f.display().to_string(),
-                parser: parser.map(str::to_string),
+                parser: parsers.get(i).cloned().flatten(),
             })
             .collect(),
         criteria: Criteria::default(),

@@ -28,12 +28,25 @@ const DETECT_BYTES: usize = 64 * 1024;
 /// Errors that stop a source before it starts.
 #[derive(Debug, Error)]
 pub enum PipelineError {
-    #[error("{source_path}: unknown parser `{name}` (see `settle parsers list`)")]
-    UnknownParser { source_path: String, name: String },
-    #[error("{path}: no parser definition recognises this file{detail}; name one with --parser")]
+    #[error("{source_path}: unknown parser `{name}`{hint}")]
+    UnknownParser { source_path: String, name: String, hint: String },
+    #[error(
+        "{path}: no parser definition recognises this file ({detail}); name one with --parser NAME, or draft one with `settle parsers draft FILE`"
+    )]
     NotRecognised { path: PathBuf, detail: String },
+    /// The named or detected definition does not compile.
+    #[error("{source_path}: {message}")]
+    Definition { source_path: String, message: String },
     #[error("{path}: file not found")]
     Missing { path: PathBuf },
+}
+
+/// `: did you mean `x`?` for a typo, and where the names are listed.
+fn unknown_hint(registry: &Registry, name: &str) -> String {
+    match registry.closest(name) {
+        Some(c) => format!(": did you mean `{c}`? (see `settle parsers list`)"),
+        None => " (see `settle parsers list`)".to_string(),
+    }
 }
 
 /// The parser of a source's current file, chosen by name or by detection on its first lines.
@@ -89,19 +102,21 @@ impl ParserSlot {
                     Some(n) => n,
                     None if !force => return Ok(false),
                     None => {
-                        let detail = det
-                            .candidates
-                            .first()
-                            .map(|c| format!(" (closest `{}`: {})", c.name, c.reasons.join("; ")))
-                            .unwrap_or_default();
+                        let detail = det.why_none();
                         return Err(PipelineError::NotRecognised { path: path.into(), detail });
                     }
                 }
             }
         };
-        let def = registry.get(&name).ok_or_else(|| PipelineError::UnknownParser {
-            source_path: path.to_string(),
-            name: name.clone(),
+        let def = registry.definition(&name).map_err(|e| match e {
+            crate::parser::RegistryError::Unknown { .. } => PipelineError::UnknownParser {
+                source_path: path.to_string(),
+                name: name.clone(),
+                hint: unknown_hint(registry, &name),
+            },
+            e => {
+                PipelineError::Definition { source_path: path.to_string(), message: e.to_string() }
+            }
         })?;
         let mut parser = def.parser();
         let head = std::mem::take(&mut self.head);
@@ -143,6 +158,8 @@ pub struct SourceReader {
     /// Whether anything has been read yet (the first read reports the file's mtime as its
     /// growth time, so a long-dead log is seen as stale at once).
     read_before: bool,
+    /// The note that the file exists but is empty has been given.
+    said_empty: bool,
 }
 
 impl SourceReader {
@@ -153,11 +170,12 @@ impl SourceReader {
         cfg: FollowConfig,
     ) -> Result<SourceReader, PipelineError> {
         if let Some(name) = &spec.parser
-            && registry.get(name).is_none()
+            && !registry.contains(name)
         {
             return Err(PipelineError::UnknownParser {
                 source_path: spec.label.clone(),
                 name: name.clone(),
+                hint: unknown_hint(&registry, name),
             });
         }
         Ok(SourceReader {
@@ -173,6 +191,7 @@ impl SourceReader {
             out: Vec::new(),
             announced: None,
             read_before: false,
+            said_empty: false,
         })
     }
 
@@ -267,6 +286,13 @@ impl SourceReader {
         if slot.chosen.is_some() && slot.chosen != self.announced {
             self.announced = slot.chosen.clone();
             items.insert(0, IngestItem::Parser(slot.chosen.clone().unwrap_or_default()));
+        }
+        // An existing file with nothing in it yet says so once: the run then knows this
+        // source has been looked at (a finished run waits for every source's first read).
+        if !grew && !self.read_before && !self.said_empty && self.follower.current_path().is_some()
+        {
+            self.said_empty = true;
+            items.push(IngestItem::Note(format!("{} is empty so far", self.label)));
         }
         if grew {
             let now = SystemTime::now();

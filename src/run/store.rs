@@ -369,23 +369,77 @@ impl RunStore {
         self.sources.iter().any(|s| s.ended.is_some())
     }
 
-    /// A borrowed view of every series and event for the judge.
+    /// The name every view shows for each series: `names[source][series]`.
     ///
-    /// Solvers often print a monitor in the residual log and again in a monitor file; a
-    /// later source's series with the same name, role and values as an earlier one is the
-    /// same quantity and is left out, so it is judged once. A same-named series with other
-    /// values is kept as `label:name` so that names stay unique.
+    /// This is the one naming function of settle; the judge input, the panels, the status
+    /// lines and the reports all take their series names from it, so a series has one name
+    /// everywhere. The rules:
+    ///
+    /// * a name used by one source only stays as the parser gave it (`Ux`, `drag`);
+    /// * a later source's series with the same name (ASCII case aside) and role whose values
+    ///   agree at the first iterations both sources hold ([`same_quantity`]) is the same
+    ///   quantity printed
+    ///   twice (a monitor in the log and in its monitor file): it is marked as a duplicate of
+    ///   the earlier one, judged once (as the earlier one), and named `tag/name`;
+    /// * a name that several sources use for different quantities is `tag/name` in every
+    ///   source that uses it (`probe_p/1`, `probe_k/1`), where the tag is the part of the
+    ///   file name that differs between the run's files ([`source_tags`]).
+    pub fn series_names(&self) -> Vec<Vec<SeriesName>> {
+        let labels: Vec<&str> = self.sources.iter().map(|s| s.label.as_str()).collect();
+        let tags = source_tags(&labels);
+        let mut names: Vec<Vec<SeriesName>> = self
+            .sources
+            .iter()
+            .map(|src| {
+                src.series
+                    .iter()
+                    .map(|s| SeriesName { name: s.name.clone(), duplicate_of: None })
+                    .collect()
+            })
+            .collect();
+        // Plain name (without regard to ASCII case: `Lift` in the log is `lift` in the
+        // monitor file) → the distinct (non-duplicate) series using it, in source order.
+        let mut distinct: HashMap<String, Vec<(usize, usize)>> = HashMap::new();
+        for (si, src) in self.sources.iter().enumerate() {
+            for (i, s) in src.series.iter().enumerate() {
+                let users = distinct.entry(s.name.to_ascii_lowercase()).or_default();
+                let earlier = users.iter().copied().find(|&(sj, j)| {
+                    sj != si
+                        && same_quantity(&self.sources[sj], &self.sources[sj].series[j], src, s)
+                });
+                match earlier {
+                    Some(first) => {
+                        names[si][i] = SeriesName {
+                            name: format!("{}/{}", tags[si], s.name),
+                            duplicate_of: Some(first),
+                        };
+                    }
+                    None => users.push((si, i)),
+                }
+            }
+        }
+        for users in distinct.values().filter(|u| u.len() > 1) {
+            for &(si, i) in users {
+                let plain = &self.sources[si].series[i].name;
+                names[si][i].name = format!("{}/{plain}", tags[si]);
+            }
+        }
+        names
+    }
+
+    /// A borrowed view of every series and event for the judge, named by
+    /// [`RunStore::series_names`]; a series that duplicates an earlier one is left out, so
+    /// a monitor printed in the log and in a monitor file is judged once.
     pub fn judge_input(&self) -> RunInput<'_> {
         let mut input = RunInput::default();
-        let mut seen: Vec<&Series> = Vec::new();
-        for src in &self.sources {
-            for s in &src.series {
-                let name: Cow<'_, str> = match seen.iter().find(|o| o.name == s.name) {
-                    Some(o) if same_quantity(o, s) => continue,
-                    Some(_) => Cow::Owned(format!("{}:{}", src.label, s.name)),
-                    None => Cow::Borrowed(&s.name),
-                };
-                seen.push(s);
+        let names = self.series_names();
+        for (src, src_names) in self.sources.iter().zip(names) {
+            for (s, n) in src.series.iter().zip(src_names) {
+                if n.duplicate_of.is_some() {
+                    continue;
+                }
+                let name: Cow<'_, str> =
+                    if n.name == s.name { Cow::Borrowed(&s.name) } else { Cow::Owned(n.name) };
                 input.series.push(SeriesInput {
                     name,
                     role: s.role,
@@ -402,19 +456,191 @@ impl RunStore {
     }
 }
 
-/// Two series are the same quantity printed twice when role and trailing values agree
-/// (to the printed precision of the coarser file: 1e-4 relative).
-fn same_quantity(a: &Series, b: &Series) -> bool {
-    const TAIL: usize = 50;
-    if a.role != b.role || a.is_empty() || b.is_empty() {
+/// A series name cut to at most `max` characters for a narrow column, keeping what tells
+/// names apart: the start of a `tag/` and the end of the name (`Forces/Pressure/z` in 12
+/// characters is `Force…sure/z`, not `Forces/Pres…`). Views that cut a name show the full
+/// one where there is room (the focused series' panel title).
+pub fn fit_name(name: &str, max: usize) -> String {
+    let n = name.chars().count();
+    if n <= max {
+        return name.to_string();
+    }
+    if max <= 1 {
+        return "…".chars().take(max).collect();
+    }
+    let keep = max - 1;
+    let head = match name.find('/') {
+        Some(i) => name[..i].chars().count().min(keep / 2),
+        None => keep / 2,
+    };
+    let tail = keep - head;
+    let start: String = name.chars().take(head).collect();
+    let end: String = name.chars().skip(n - tail).collect();
+    format!("{start}…{end}")
+}
+
+/// How a view names one series (see [`RunStore::series_names`]).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SeriesName {
+    /// Unique within the run: the parser's name, or `tag/name`.
+    pub name: String,
+    /// `(source, series)` of the earlier series this one repeats; it is not judged.
+    pub duplicate_of: Option<(usize, usize)>,
+}
+
+/// How many common iterations decide whether two same-named series are one quantity.
+const SAME_QUANTITY_POINTS: usize = 20;
+/// Disagreements among those points that make two series different quantities (a value
+/// printed with few decimals can disagree once or twice near zero).
+const DIFFERENT_AFTER: usize = 3;
+
+/// Are `a` (of source `sa`) and `b` (of `sb`) the same quantity printed twice? Same role,
+/// and fewer than [`DIFFERENT_AFTER`] disagreements among the first [`SAME_QUANTITY_POINTS`]
+/// iterations that both hold. A pair of values agrees when they differ by at most 1e-4 of
+/// their size (numbers printed with five significant digits) or by at most 1e-3 of the
+/// largest size `a` has had so far (numbers printed with fixed decimals, near zero).
+///
+/// The decision must not flip back and forth as the files grow. Records are appended with
+/// rising iteration numbers, so the set of iterations both series hold only gains members
+/// above its current largest one: its first [`SAME_QUANTITY_POINTS`] members never change
+/// once there are that many. Whether a pair agrees depends only on values already written
+/// (the pair and `a` before it), so it never changes either. The count of disagreements
+/// can therefore only grow: the answer is "same" (also with no common iteration yet: no
+/// evidence against it) until the data shows enough disagreement, then "different" for
+/// good. A restart (iterations going back) is the one case that can reopen the question.
+pub fn same_quantity(sa: &SourceStore, a: &Series, sb: &SourceStore, b: &Series) -> bool {
+    if a.role != b.role {
         return false;
     }
-    let n = a.len().min(b.len()).min(TAIL);
-    let ta = &a.values()[a.len() - n..];
-    let tb = &b.values()[b.len() - n..];
-    ta.iter().zip(tb).all(|(x, y)| {
-        (x.is_nan() && y.is_nan()) || x == y || (x - y).abs() <= 1e-4 * x.abs().max(y.abs())
-    })
+    let ia = sa.series_iterations(a);
+    let ib = sb.series_iterations(b);
+    let (va, vb) = (a.values(), b.values());
+    let (mut i, mut j, mut compared, mut disagree) = (0, 0, 0, 0);
+    let mut scale = 0.0f64;
+    let mut scanned = 0;
+    while i < ia.len() && j < ib.len() && compared < SAME_QUANTITY_POINTS {
+        match ia[i].cmp(&ib[j]) {
+            std::cmp::Ordering::Less => i += 1,
+            std::cmp::Ordering::Greater => j += 1,
+            std::cmp::Ordering::Equal => {
+                while scanned <= i {
+                    if va[scanned].is_finite() {
+                        scale = scale.max(va[scanned].abs());
+                    }
+                    scanned += 1;
+                }
+                let (x, y) = (va[i], vb[j]);
+                let d = (x - y).abs();
+                let agree = (x.is_nan() && y.is_nan())
+                    || x == y
+                    || d <= 1e-4 * x.abs().max(y.abs())
+                    || d <= 1e-3 * scale;
+                if !agree {
+                    disagree += 1;
+                    if disagree >= DIFFERENT_AFTER {
+                        return false;
+                    }
+                }
+                compared += 1;
+                // Inner iterations: only the first value at an iteration is compared.
+                let it = ia[i];
+                while i < ia.len() && ia[i] == it {
+                    i += 1;
+                }
+                while j < ib.len() && ib[j] == it {
+                    j += 1;
+                }
+            }
+        }
+    }
+    true
+}
+
+/// A short, readable tag for each source of a run: the part of its file name that differs
+/// between the run's files.
+///
+/// File names (without the last extension) are split into words at `_`, `-`, `.` and
+/// blanks; the words all names share at the start and at the end are dropped; a tag
+/// shorter than three characters takes back the neighbouring dropped words until it is
+/// not (`b1_probe_p.csv`, `b1_probe_k.csv` → `probe_p`, `probe_k`); an empty tag is the
+/// whole stem. When two tags are still equal (`history.dat`, `history.csv`) the file
+/// names are used, and when those are equal too, the labels as given.
+pub fn source_tags(labels: &[&str]) -> Vec<String> {
+    let files: Vec<&str> = labels.iter().map(|l| l.rsplit('/').next().unwrap_or(l)).collect();
+    let stems: Vec<&str> = files
+        .iter()
+        .map(|f| match f.rfind('.') {
+            Some(i) if i > 0 => &f[..i],
+            _ => f,
+        })
+        .collect();
+    // Each word with its byte range in the stem, so a tag keeps the stem's own separators.
+    let spans: Vec<Vec<(usize, usize)>> = stems
+        .iter()
+        .map(|s| {
+            let mut out = Vec::new();
+            let mut start = None;
+            for (i, c) in s.char_indices().chain(std::iter::once((s.len(), '_'))) {
+                let sep = matches!(c, '_' | '-' | '.' | ' ');
+                match (sep, start) {
+                    (true, Some(st)) => {
+                        out.push((st, i));
+                        start = None;
+                    }
+                    (false, None) => start = Some(i),
+                    _ => {}
+                }
+            }
+            out
+        })
+        .collect();
+    let words: Vec<Vec<&str>> = spans
+        .iter()
+        .zip(&stems)
+        .map(|(sp, s)| sp.iter().map(|&(a, b)| &s[a..b]).collect())
+        .collect();
+    let shortest = words.iter().map(Vec::len).min().unwrap_or(0);
+    let (prefix, suffix) = if words.len() < 2 {
+        (0, 0)
+    } else {
+        let same_at = |k: usize, from_end: bool| {
+            let pick = |w: &[&str]| -> String {
+                if from_end { w[w.len() - 1 - k].to_string() } else { w[k].to_string() }
+            };
+            words.iter().all(|w| pick(w) == pick(&words[0]))
+        };
+        let p = (0..shortest).take_while(|&k| same_at(k, false)).count();
+        let s = (0..shortest - p).take_while(|&k| same_at(k, true)).count();
+        (p, s)
+    };
+    let mut tags: Vec<String> = words
+        .iter()
+        .zip(&stems)
+        .zip(&spans)
+        .map(|((w, stem), sp)| {
+            let (mut a, mut b) = (prefix, w.len() - suffix);
+            let tag = |a: usize, b: usize| {
+                if a < b { stem[sp[a].0..sp[b - 1].1].to_string() } else { String::new() }
+            };
+            while tag(a, b).chars().count() < 3 && (a > 0 || b < w.len()) {
+                if a > 0 {
+                    a -= 1;
+                } else {
+                    b += 1;
+                }
+            }
+            let t = tag(a, b);
+            if t.is_empty() { stem.to_string() } else { t }
+        })
+        .collect();
+    let clash = |tags: &[String]| tags.iter().enumerate().any(|(i, t)| tags[..i].contains(t));
+    if clash(&tags) {
+        tags = files.iter().map(|f| f.to_string()).collect();
+    }
+    if clash(&tags) {
+        tags = labels.iter().map(|l| l.to_string()).collect();
+    }
+    tags
 }
 
 #[cfg(test)]
@@ -511,16 +737,136 @@ mod tests {
     #[test]
     fn judge_input_names_duplicates_by_source() {
         let mut run = RunStore::new("r");
+        let three = |v: f64| [rec(1, &[(0, v)]), rec(2, &[(0, v)]), rec(3, &[(0, v)])];
         let mut a = SourceStore::new("a.log", "x");
-        a.apply([info(0, "p"), rec(1, &[(0, 1.0)])]);
+        a.apply([info(0, "p")]);
+        a.apply(three(1.0));
         let mut b = SourceStore::new("b.log", "x");
-        b.apply([info(0, "p"), rec(1, &[(0, 2.0)])]);
+        b.apply([info(0, "p")]);
+        b.apply(three(2.0));
         let mut c = SourceStore::new("c.csv", "x");
-        c.apply([info(0, "p"), rec(1, &[(0, 1.00001)])]);
+        c.apply([info(0, "p")]);
+        c.apply(three(1.00001));
         run.sources = vec![a, b, c];
         let input = run.judge_input();
         let names: Vec<&str> = input.series.iter().map(|s| &*s.name).collect();
-        // c.csv repeats a.log's p to printed precision: judged once.
-        assert_eq!(names, vec!["p", "b.log:p"]);
+        // c.csv repeats a.log's p to printed precision: judged once. a.log and b.log hold
+        // different quantities called p: both are named by their file.
+        assert_eq!(names, vec!["a/p", "b/p"]);
+        let all = run.series_names();
+        assert_eq!(all[2][0], SeriesName { name: "c/p".into(), duplicate_of: Some((0, 0)) });
+    }
+
+    #[test]
+    fn tags_are_the_part_of_the_file_names_that_differs() {
+        assert_eq!(source_tags(&["b1_probe_p.csv", "b1_probe_k.csv"]), vec!["probe_p", "probe_k"]);
+        assert_eq!(
+            source_tags(&["case/b1.log", "case/b1_probe_p.csv", "case/b1_probe_k.csv"]),
+            vec!["b1", "probe_p", "probe_k"]
+        );
+        assert_eq!(source_tags(&["tarn.log", "forces.csv"]), vec!["tarn", "forces"]);
+        assert_eq!(source_tags(&["p_probe.csv", "k_probe.csv"]), vec!["p_probe", "k_probe"]);
+        assert_eq!(
+            source_tags(&["plain/history.dat", "plain/history.csv"]),
+            vec!["history.dat", "history.csv"]
+        );
+        assert_eq!(source_tags(&["a/run.log", "b/run.log"]), vec!["a/run.log", "b/run.log"]);
+        assert_eq!(source_tags(&["run.log.*"]), vec!["run.log"]);
+    }
+
+    fn source(label: &str, names: &[&str], rows: &[(i64, Vec<f64>)]) -> SourceStore {
+        let mut s = SourceStore::new(label, "t");
+        s.apply(names.iter().enumerate().map(|(i, n)| {
+            Output::Series(SeriesInfo { id: i as u32, name: n.to_string(), role: Role::Monitor })
+        }));
+        for (it, vals) in rows {
+            let v: Vec<(u32, f64)> = vals.iter().enumerate().map(|(i, &x)| (i as u32, x)).collect();
+            s.apply([rec(*it, &v)]);
+        }
+        s
+    }
+
+    #[test]
+    fn names_are_cut_in_the_middle() {
+        assert_eq!(fit_name("Forces/Pressure/z", 12), "Force…sure/z");
+        assert_eq!(fit_name("probe_p/1", 9), "probe_p/1");
+        assert_eq!(fit_name("probe_p/12", 8), "pro…p/12");
+        assert_eq!(fit_name("omega/sweeps", 6), "om…eps");
+        assert_eq!(fit_name("abc", 1), "…");
+        assert_eq!(fit_name("Forces/Pressure/z", 12).chars().count(), 12);
+    }
+
+    #[test]
+    fn probe_files_with_the_same_column_names_are_named_by_file() {
+        let rows_p: Vec<(i64, Vec<f64>)> =
+            (1..=5).map(|i| (i, vec![100.0 + i as f64, 7.0])).collect();
+        let rows_k: Vec<(i64, Vec<f64>)> =
+            (1..=5).map(|i| (i, vec![0.1 * i as f64, 0.3])).collect();
+        let mut run = RunStore::new("b1");
+        run.sources = vec![
+            source("b1_probe_p.csv", &["1", "2"], &rows_p),
+            source("b1_probe_k.csv", &["1", "2"], &rows_k),
+        ];
+        let input = run.judge_input();
+        let names: Vec<&str> = input.series.iter().map(|s| &*s.name).collect();
+        assert_eq!(names, vec!["probe_p/1", "probe_p/2", "probe_k/1", "probe_k/2"]);
+    }
+
+    /// The series the judge sees, by name, after the two sources hold `na` and `nb` rows.
+    fn judged(a: &[(i64, Vec<f64>)], na: usize, b: &[(i64, Vec<f64>)], nb: usize) -> Vec<String> {
+        let mut run = RunStore::new("r");
+        run.sources = vec![
+            source("tarn.log", &["drag", "lift"], &a[..na]),
+            source("forces.csv", &["drag", "lift"], &b[..nb]),
+        ];
+        run.judge_input().series.iter().map(|s| s.name.to_string()).collect()
+    }
+
+    #[test]
+    fn the_same_monitor_in_two_files_is_judged_once_at_every_length() {
+        // The log and the monitor file print drag and lift (the file with fewer digits);
+        // they grow in turns, either one ahead by up to 30 rows. The set of judged series
+        // must be the same at every moment and equal to reading both files at once.
+        let log: Vec<(i64, Vec<f64>)> = (1..=200)
+            .map(|i| (i, vec![0.4 + 0.1 / i as f64, 0.02 * (i as f64 * 0.3).sin()]))
+            .collect();
+        let csv: Vec<(i64, Vec<f64>)> = log
+            .iter()
+            .map(|(i, v)| (*i, v.iter().map(|x| (x * 1e5).round() / 1e5).collect()))
+            .collect();
+        let at_once = judged(&log, 200, &csv, 200);
+        assert_eq!(at_once, vec!["drag", "lift"]);
+        for n in 1..=200 {
+            for lag in [0usize, 1, 7, 30] {
+                assert_eq!(judged(&log, n, &csv, n.saturating_sub(lag)), at_once, "{n} {lag}");
+                assert_eq!(judged(&log, n.saturating_sub(lag), &csv, n), at_once, "{n} {lag}");
+            }
+        }
+    }
+
+    #[test]
+    fn a_monitor_spelled_with_other_case_in_its_file_is_judged_once() {
+        let log: Vec<(i64, Vec<f64>)> = (1..=50).map(|i| (i, vec![0.4 + 0.1 / i as f64])).collect();
+        let mut run = RunStore::new("r");
+        run.sources =
+            vec![source("loam.log", &["Lift"], &log), source("monitor.out", &["lift"], &log)];
+        let names: Vec<String> =
+            run.judge_input().series.iter().map(|s| s.name.to_string()).collect();
+        assert_eq!(names, vec!["Lift"]);
+    }
+
+    #[test]
+    fn different_quantities_with_one_name_stay_apart_once_seen() {
+        // drag in the log is a force, in the file a coefficient: they disagree from the
+        // first common iteration on, and the decision never returns to "same".
+        let log: Vec<(i64, Vec<f64>)> = (1..=100).map(|i| (i, vec![41.0, 2.0])).collect();
+        let csv: Vec<(i64, Vec<f64>)> = (1..=100).map(|i| (i, vec![0.41, 2.0])).collect();
+        // Before three common iterations disagree there is no evidence against "same".
+        assert_eq!(judged(&log, 2, &csv, 2), vec!["drag", "lift"]);
+        let want = vec!["tarn/drag", "lift", "forces/drag"];
+        for n in 3..=100 {
+            assert_eq!(judged(&log, n, &csv, n), want, "{n}");
+            assert_eq!(judged(&log, n, &csv, 3.max(n / 2)), want, "{n}");
+        }
     }
 }

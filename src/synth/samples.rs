@@ -212,10 +212,10 @@ const README_HEAD: &str = "\
 # Samples
 
 Demo data for settle, in our own invented scenario: the solver \"tarn\" (its log format is
-specified in `TARN_FORMAT.md`) and invented cases. Every number is synthetic: the files are
-written by `settle::synth::write_samples` from fixed scenarios and seeds, and a unit test
-checks that the committed files are byte for byte what the generator writes. Do not edit
-them by hand.
+described in `../parsers/TARN_FORMAT.md`) and invented cases. Every number is synthetic:
+the files are written by `settle::synth::write_samples` from fixed scenarios and seeds,
+and a unit test checks that the committed files are byte for byte what the generator
+writes. Do not edit them by hand.
 
 Each tarn case directory holds the residual log `tarn.log`, the force monitor file
 `forces.csv` beside it, and a minimal run config `settle.toml` naming the run and its two

@@ -275,7 +275,7 @@ fn criteria_panel(theme: &Theme, v: &RunView, frame: &mut Frame, r: Rect) {
                 Span::raw(" "),
                 Span::styled(mark, theme.met(c.met)),
                 Span::raw(" "),
-                Span::raw(pad(&c.series, series_w)),
+                Span::raw(pad(&crate::run::store::fit_name(&c.series, series_w), series_w)),
                 Span::raw(if series_w > 0 { " " } else { "" }),
                 Span::styled(format!("{:<rule_w$}", c.rule, rule_w = rule_w), rule_style),
                 Span::raw(" "),

@@ -204,22 +204,15 @@ pub fn build_run_view(live: &LiveRun, inp: &ViewInputs<'_>) -> RunView {
     }
 }
 
-/// Display names of every series of a run, as `(source, index, name)`: the series name, or
-/// `label:name` when an earlier source already has a series of that name (as the judge names
-/// it). The one place the panels name series, so a shared naming rule of the store can
-/// replace it in one edit.
+/// Display names of every series of a run, as `(source, index, name)`, from the store's one
+/// naming rule ([`crate::run::RunStore::series_names`]), so the panels name series as the
+/// judge does.
 pub fn series_names(store: &crate::run::RunStore) -> Vec<(usize, usize, String)> {
-    let mut seen: Vec<&str> = Vec::new();
+    let names = store.series_names();
     let mut out = Vec::new();
     for (si, src) in store.sources.iter().enumerate() {
-        for (i, s) in src.series().iter().enumerate() {
-            let name = if seen.contains(&s.name.as_str()) {
-                format!("{}:{}", src.label, s.name)
-            } else {
-                seen.push(&s.name);
-                s.name.clone()
-            };
-            out.push((si, i, name));
+        for (i, _) in src.series().iter().enumerate() {
+            out.push((si, i, names[si][i].name.clone()));
         }
     }
     out
