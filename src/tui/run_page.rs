@@ -275,7 +275,7 @@ fn criteria_panel(theme: &Theme, v: &RunView, frame: &mut Frame, r: Rect) {
                 Span::raw(" "),
                 Span::styled(mark, theme.met(c.met)),
                 Span::raw(" "),
-                Span::raw(pad(&crate::run::store::fit_name(&c.series, series_w), series_w)),
+                Span::raw(pad(&fit_series(&c.series, series_w, g.ascii), series_w)),
                 Span::raw(if series_w > 0 { " " } else { "" }),
                 Span::styled(format!("{:<rule_w$}", c.rule, rule_w = rule_w), rule_style),
                 Span::raw(" "),
@@ -337,4 +337,11 @@ fn items_panel(app: &App, v: &RunView, frame: &mut Frame, r: Rect) {
         })
         .collect();
     frame.render_widget(Paragraph::new(lines), inner);
+}
+
+/// A series name cut to `w` columns in the middle (keeping its file tag and its end), with the
+/// cut marked `~` in ASCII mode, as the other cut texts of the panels are.
+fn fit_series(name: &str, w: usize, ascii: bool) -> String {
+    let fitted = crate::run::store::fit_name(name, w);
+    if ascii && fitted != name { fitted.replace('…', "~") } else { fitted }
 }
