@@ -54,11 +54,6 @@ pub fn start_ingest(
     pipeline::spawn_live(sources, poll, tx, Msg::Ingest, Msg::WorkerPanic, shutdown)
 }
 
-/// Records ingested so far for a run (sum over its sources).
-fn records(store: &RunStore) -> u64 {
-    store.sources.iter().map(|s| s.records() as u64).sum()
-}
-
 /// Opt-in actions of every run, driven by verdicts (`LiveHooks` for the panels; called
 /// directly by the headless loop).
 pub struct ActionHooks {
@@ -96,20 +91,21 @@ impl ActionHooks {
         ActionHooks { runners, pending, act }
     }
 
-    /// Feed one judgement of run `run`; returns audit findings (dry runs, executions,
-    /// refusals, finished commands).
-    pub fn observe(
-        &mut self,
-        run: usize,
-        verdict: Verdict,
-        store: &RunStore,
-        final_data: bool,
-    ) -> Vec<Finding> {
+    /// Feed the latest judgement of run `run` (after it was judged, or when its `stale` state
+    /// changed); returns audit findings (dry runs, executions, refusals, finished commands).
+    ///
+    /// The hold counts the records the judgement saw, never records ingested since. A
+    /// judgement older than the data in the store, or made while a large read is in progress
+    /// (the first read of an existing log), is pending: it neither counts nor fires.
+    pub fn observe(&mut self, run: usize, data: &LiveRun) -> Vec<Finding> {
         let mut out = std::mem::take(&mut self.pending[run]);
+        let Some(judged) = data.judged_records else {
+            return out;
+        };
         if let Some(r) = self.runners.get_mut(run).and_then(Option::as_mut) {
-            let mut obs =
-                Observation::new(verdict, store.last_iteration().unwrap_or(0), records(store));
-            obs.data_final = final_data;
+            let mut obs = Observation::new(data.verdict(), data.judgement.iterations, judged);
+            obs.data_final = data_final(data);
+            obs.pending = data.bulk_reading() || !data.judgement_current();
             out.extend(r.observe(&obs, self.act));
             out.extend(r.poll_finished());
         }
@@ -141,7 +137,7 @@ impl ActionHooks {
 
 impl LiveHooks for ActionHooks {
     fn on_judged(&mut self, run: usize, data: &LiveRun) -> Vec<Finding> {
-        self.observe(run, data.verdict(), &data.store, data_final(data))
+        self.observe(run, data)
     }
 }
 
@@ -189,8 +185,7 @@ pub fn worst(verdicts: impl IntoIterator<Item = Verdict>) -> Verdict {
 fn data_final(run: &LiveRun) -> bool {
     let crashed =
         run.store.sources.iter().any(|s| s.events.iter().any(|e| e.severity == Severity::Error));
-    let v = run.verdict();
-    run.store.ended() || v == Verdict::Stale || (v == Verdict::Diverging && crashed)
+    run.store.ended() || run.stale || (run.verdict() == Verdict::Diverging && crashed)
 }
 
 /// A run needs no more watching under `exit_when`.
@@ -281,21 +276,28 @@ pub fn run_headless(
         for (i, run) in runs.iter_mut().enumerate() {
             let gap = tui::app::judge_gap(opts.refresh, costs[i], active);
             let due = last_judged[i].is_none_or(|t| now.duration_since(t) >= gap);
+            let mut judged = false;
             if dirty[i] && due && run.store.last_iteration().is_some() {
                 let started = Instant::now();
-                run.judgement = judge::judge(&run.store.judge_input(), &run.criteria);
+                run.set_judgement(judge::judge(&run.store.judge_input(), &run.criteria));
                 costs[i] = started.elapsed();
                 dirty[i] = false;
                 last_judged[i] = Some(now);
+                judged = true;
             }
             if run.store.last_iteration().is_none() {
                 continue;
             }
             let grown = age(run, wall);
+            let was_stale = run.stale;
             run.stale = !run.store.ended() && grown.is_some_and(|a| a > opts.stale_limit);
             let j = shown(run);
-            for f in hooks.observe(i, j.verdict, &run.store, data_final(run)) {
-                print_finding(out, opts, &run.store.name, &f, wall)?;
+            // Actions see judgements (and stale changes), not every batch: a batch between
+            // two judgements carries records no judgement has seen.
+            if judged || run.stale != was_stale {
+                for f in hooks.observe(i, run) {
+                    print_finding(out, opts, &run.store.name, &f, wall)?;
+                }
             }
             if let Some(reason) = states[i].should_print(&j, now) {
                 let line = if opts.json {
@@ -327,7 +329,7 @@ pub fn run_headless(
     }
     for run in &mut runs {
         if run.store.last_iteration().is_some() {
-            run.judgement = judge::judge(&run.store.judge_input(), &run.criteria);
+            run.set_judgement(judge::judge(&run.store.judge_input(), &run.criteria));
         }
         let j = shown(run);
         let line = if opts.json {
