@@ -72,13 +72,23 @@ impl ActionHooks {
         for spec in specs {
             let (runner, notes) = match (&spec.config_path, spec.actions.is_empty()) {
                 (Some(path), false) => {
+                    // Loaded by `config::load`: the facts of the file the text came from.
+                    let Some(file) = spec.config_facts else {
+                        let e = actions::ActionError::Io {
+                            path: path.clone(),
+                            message: "its owner and mode were not read with its text".into(),
+                        };
+                        runners.push(None);
+                        pending.push(vec![e.finding()]);
+                        continue;
+                    };
                     let facts = RunFacts {
                         name: spec.name.clone(),
                         dir: spec.dir.clone(),
                         sources: spec.sources.iter().map(|s| s.path.clone()).collect(),
                         job: spec.job.clone(),
                     };
-                    match actions::load_plan(&spec.actions, path, &facts) {
+                    match actions::load_plan(&spec.actions, path, &file, &facts) {
                         Ok(plan) => (Some(ActionRunner::new(plan)), Vec::new()),
                         Err(e) => (None, vec![e.finding()]),
                     }
@@ -110,6 +120,16 @@ impl ActionHooks {
             out.extend(r.poll_finished());
         }
         out
+    }
+
+    /// One line per planned action of run `run` (empty when it has none or they were
+    /// refused): what would fire, on which verdicts, with which command.
+    pub fn plan_summary(&self, run: usize) -> Vec<String> {
+        self.runners
+            .get(run)
+            .and_then(Option::as_ref)
+            .map(|r| r.plan().summary())
+            .unwrap_or_default()
     }
 
     /// Results of commands that finished since the last call.

@@ -9,8 +9,8 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
 use settle::actions::{
-    ActionConfig, ActionError, ActionRunner, Observation, OnSpec, RunFacts, TimeoutSpec,
-    load_plan_with_env,
+    ActionConfig, ActionError, ActionRunner, FileFacts, Observation, OnSpec, RunFacts, TimeoutSpec,
+    load_plan_with_env, read_config,
 };
 use settle::judge::{FindingKind, Verdict};
 
@@ -48,9 +48,15 @@ impl Case {
         vec![("PATH".into(), path), ("HOME".into(), self.path().as_os_str().to_owned())]
     }
 
+    /// Owner and mode of the config, from the descriptor its text is read through.
+    fn file(&self) -> FileFacts {
+        read_config(&self.config).expect("read config").1
+    }
+
     fn runner(&self, name: &str, actions: &[ActionConfig]) -> ActionRunner {
-        let plan = load_plan_with_env(actions, &self.config, &self.facts(name), self.env())
-            .expect("valid plan");
+        let plan =
+            load_plan_with_env(actions, &self.config, &self.file(), &self.facts(name), self.env())
+                .expect("valid plan");
         ActionRunner::new(plan)
     }
 }
@@ -303,6 +309,7 @@ fn group_writable_config_is_refused() {
     let err = load_plan_with_env(
         &[action("diverging", &["true"], 3)],
         &case.config,
+        &case.file(),
         &case.facts("r"),
         case.env(),
     )
@@ -321,13 +328,16 @@ fn group_writable_config_is_refused() {
         load_plan_with_env(
             &[action("x", &["true"], 3)],
             &case.config,
+            &case.file(),
             &case.facts("r"),
             case.env()
         )
         .is_err()
     );
     // A refusal is about actions only; no actions means no check.
-    assert!(load_plan_with_env(&[], &case.config, &case.facts("r"), case.env()).is_ok());
+    assert!(
+        load_plan_with_env(&[], &case.config, &case.file(), &case.facts("r"), case.env()).is_ok()
+    );
 }
 
 #[test]
@@ -338,6 +348,7 @@ fn foreign_owner_is_refused_when_we_can_arrange_one() {
         let err = load_plan_with_env(
             &[action("diverging", &["true"], 3)],
             &case.config,
+            &case.file(),
             &case.facts("r"),
             case.env(),
         )
@@ -368,8 +379,14 @@ fn environment_is_cleared_to_the_allow_list() {
     }
     let mut facts = case.facts("r");
     facts.job = None;
-    let plan = load_plan_with_env(&[action("diverging", &["env"], 1)], &case.config, &facts, env)
-        .expect("plan");
+    let plan = load_plan_with_env(
+        &[action("diverging", &["env"], 1)],
+        &case.config,
+        &case.file(),
+        &facts,
+        env,
+    )
+    .expect("plan");
     let mut r = ActionRunner::new(plan);
     feed(&mut r, Verdict::Diverging, 0, 1, true);
     assert_eq!(r.wait_finished(Duration::from_secs(3)).len(), 1);
@@ -690,4 +707,64 @@ mod replay {
         assert_eq!(f.len(), 1, "{f:?}");
         assert!(f[0].detail.starts_with("would run scancel diverging"), "{}", f[0].detail);
     }
+}
+
+/// The trust check races a file swap (issue: a swap between reading the config by name and
+/// checking it by name made settle run the other file's command in 3 of 60 starts). A
+/// thread swaps `settle.toml` between our private file (command `echo good`) and one that
+/// others may write (mode 0666, command `echo evil`: it stands for another user's file and
+/// must always be refused), by atomic renames of hard links, while settle starts 2000 times
+/// as `watch` does (`config::load`, then the actions' trust check). Both files must have
+/// been seen, and the other command never planned.
+#[test]
+fn a_config_swapped_while_loading_never_plans_the_other_command() {
+    use settle::run::config;
+    use std::sync::Arc;
+    use std::sync::atomic::{AtomicBool, Ordering};
+    let case = Case::new();
+    let d = case.path().to_path_buf();
+    let body = |word: &str| {
+        format!(
+            "[[source]]\npath = \"tarn.log\"\n\n[[action]]\non = \"diverging\"\ncommand = \
+             [\"echo\", \"{word}\"]\n"
+        )
+    };
+    fs::write(d.join("good"), body("good")).expect("write");
+    fs::set_permissions(d.join("good"), fs::Permissions::from_mode(0o644)).expect("chmod");
+    fs::write(d.join("evil"), body("evil")).expect("write");
+    fs::set_permissions(d.join("evil"), fs::Permissions::from_mode(0o666)).expect("chmod");
+    fs::remove_file(&case.config).expect("rm");
+    fs::hard_link(d.join("good"), &case.config).expect("link");
+    let stop = Arc::new(AtomicBool::new(false));
+    let (flag, dir) = (stop.clone(), d.clone());
+    let swapper = std::thread::spawn(move || {
+        let mut swaps = 0u64;
+        while !flag.load(Ordering::SeqCst) {
+            for f in ["evil", "good"] {
+                let _ = fs::remove_file(dir.join("tmp"));
+                fs::hard_link(dir.join(f), dir.join("tmp")).expect("link");
+                fs::rename(dir.join("tmp"), dir.join("settle.toml")).expect("rename");
+            }
+            swaps += 1;
+        }
+        swaps
+    });
+    let (mut wrong, mut good, mut refused) = (0, 0, 0);
+    for _ in 0..2000 {
+        let spec = config::load(&case.config).expect("always a whole file under the name");
+        let hooks = settle::watch::ActionHooks::new(&[spec], false);
+        let plan = hooks.plan_summary(0);
+        if plan.iter().any(|l| l.contains("evil")) {
+            wrong += 1;
+        } else if plan.iter().any(|l| l.contains("echo good")) {
+            good += 1;
+        } else {
+            refused += 1;
+        }
+    }
+    stop.store(true, Ordering::SeqCst);
+    let swaps = swapper.join().expect("swapper");
+    eprintln!("{swaps} swaps; {good} planned ours, {refused} refused, {wrong} planned the other");
+    assert_eq!(wrong, 0, "the other file's command was planned {wrong} times");
+    assert!(good > 0 && refused > 0, "the harness saw both files: {good} ours, {refused} refused");
 }

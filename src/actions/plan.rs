@@ -12,7 +12,7 @@ use std::path::{Path, PathBuf};
 use std::time::Duration;
 
 use super::config::ActionConfig;
-use super::trust::check_config_file;
+use super::trust::{FileFacts, check_case_dir, check_facts};
 use super::{ActionError, ENV_CAP};
 use crate::judge::Verdict;
 
@@ -21,9 +21,10 @@ use crate::judge::Verdict;
 pub struct RunFacts {
     /// Run name (`{run}`, `SETTLE_RUN`).
     pub name: String,
-    /// The run's directory: the command's working directory.
+    /// The run's directory: the command's working directory (made absolute).
     pub dir: PathBuf,
-    /// Paths of the run's followed files (`SETTLE_SOURCES`).
+    /// Paths of the run's followed files (`SETTLE_SOURCES`, made absolute: the command runs
+    /// in the run's directory, not in settle's).
     pub sources: Vec<PathBuf>,
     /// Scheduler job id from the run config's `job` key. When `None`, the settle process's
     /// own `SLURM_JOB_ID`, `PBS_JOBID` or `LSB_JOBID` is used (first one set).
@@ -97,33 +98,46 @@ pub(crate) struct Invocation {
 /// Validate `actions` from `config_path` for `run`, using the settle process's environment
 /// for the inherited variables and the job-id fallback.
 ///
-/// An empty list gives an empty plan without looking at the file. Otherwise the file must
-/// pass the ownership and permission check first; any error disables all actions of the run
-/// (turn it into an audit entry with [`ActionError::finding`]) and watching goes on.
+/// `facts` describe the file the actions were read from, taken from the descriptor its
+/// text was read through ([`super::read_config`]); the file is never looked at by name
+/// again. An empty list gives an empty plan without any check. Otherwise the file must pass
+/// the ownership and permission check, the case directories (the config's and the run's)
+/// must be safe from other users, and no program may resolve inside the case directory
+/// through a relative path or a relative or empty `PATH` entry. Any error disables all
+/// actions of the run (turn it into an audit entry with [`ActionError::finding`]) and
+/// watching goes on.
 pub fn load_plan(
     actions: &[ActionConfig],
     config_path: &Path,
+    facts: &FileFacts,
     run: &RunFacts,
 ) -> Result<ActionPlan, ActionError> {
-    load_plan_with_env(actions, config_path, run, std::env::vars_os())
+    load_plan_with_env(actions, config_path, facts, run, std::env::vars_os())
 }
 
 /// [`load_plan`] with an explicit environment instead of the process's own.
 pub fn load_plan_with_env(
     actions: &[ActionConfig],
     config_path: &Path,
+    facts: &FileFacts,
     run: &RunFacts,
     env: impl IntoIterator<Item = (OsString, OsString)>,
 ) -> Result<ActionPlan, ActionError> {
     if actions.is_empty() {
         return Ok(ActionPlan::default());
     }
-    check_config_file(config_path)?;
+    check_facts(config_path, facts)?;
     let config = std::path::absolute(config_path).unwrap_or_else(|_| config_path.to_path_buf());
     let config_dir = config.parent().map(Path::to_path_buf).unwrap_or_default();
+    let run_dir = std::path::absolute(&run.dir).unwrap_or_else(|_| run.dir.clone());
+    let case = CaseDirs::new(&[&config_dir, &run_dir]);
+    for dir in &case.dirs {
+        check_case_dir(dir)?;
+    }
     let env: Vec<(OsString, OsString)> = env.into_iter().collect();
     let inherited: Vec<(OsString, OsString)> =
         env.iter().filter(|(k, _)| is_inherited(k)).cloned().collect();
+    let path_var = inherited.iter().find(|(k, _)| k == "PATH").map(|(_, v)| v.clone());
 
     let mut planned = Vec::with_capacity(actions.len());
     for (i, a) in actions.iter().enumerate() {
@@ -133,7 +147,9 @@ pub fn load_plan_with_env(
             number,
             message,
         };
-        planned.push(plan_one(a, number, &config_dir).map_err(invalid)?);
+        let p = plan_one(a, number, &config_dir).map_err(invalid)?;
+        case.check_program(&p, path_var.as_deref(), &run_dir).map_err(invalid)?;
+        planned.push(p);
     }
 
     let uses = |arg: &Arg| planned.iter().any(|p| p.args.contains(arg));
@@ -179,12 +195,113 @@ pub fn load_plan_with_env(
     Ok(ActionPlan {
         actions: planned,
         run: run.name.clone(),
-        dir: run.dir.clone(),
-        sources: run.sources.clone(),
+        dir: run_dir,
+        sources: run
+            .sources
+            .iter()
+            .map(|p| std::path::absolute(p).unwrap_or_else(|_| p.clone()))
+            .collect(),
         job: job.filter(|j| valid_job_id(j)),
         config,
         inherited,
     })
+}
+
+/// The case directories (config directory and run directory), as written and resolved.
+struct CaseDirs {
+    /// Distinct absolute directories, for the permission check.
+    dirs: Vec<PathBuf>,
+    /// Their lexical and canonical forms, for "inside" tests.
+    forms: Vec<PathBuf>,
+}
+
+impl CaseDirs {
+    fn new(dirs: &[&Path]) -> CaseDirs {
+        let mut out = CaseDirs { dirs: Vec::new(), forms: Vec::new() };
+        for d in dirs {
+            let lexical = lexical(d);
+            let canonical = std::fs::canonicalize(d).unwrap_or_else(|_| lexical.clone());
+            if !out.forms.contains(&canonical) {
+                out.dirs.push(lexical.clone());
+            }
+            for f in [lexical, canonical] {
+                if !out.forms.contains(&f) {
+                    out.forms.push(f);
+                }
+            }
+        }
+        out
+    }
+
+    /// Whether `p` (absolute) lies inside one of the case directories.
+    fn contains(&self, p: &Path) -> bool {
+        let lex = lexical(p);
+        let canonical = std::fs::canonicalize(p).unwrap_or_else(|_| lex.clone());
+        [lex, canonical].iter().any(|f| self.forms.iter().any(|d| f.starts_with(d)))
+    }
+
+    /// Refuse a program that would be taken from inside the case directory: a relative
+    /// path resolving there, or (for a bare name) an empty or relative `PATH` entry, which
+    /// the command resolves against its working directory, the run's directory.
+    fn check_program(
+        &self,
+        p: &PlannedAction,
+        path_var: Option<&OsStr>,
+        run_dir: &Path,
+    ) -> Result<(), String> {
+        let word = &p.program_word;
+        if word.contains('/') {
+            if Path::new(word).is_relative() && self.contains(&p.program) {
+                return Err(format!(
+                    "`command`: the program {word:?} is a relative path inside the case \
+                     directory ({}); a file there can be replaced by whatever writes into the \
+                     case. Give an absolute path outside the case directory",
+                    lexical(&p.program).display()
+                ));
+            }
+            return Ok(());
+        }
+        let Some(path_var) = path_var else {
+            return Ok(());
+        };
+        for entry in std::env::split_paths(path_var) {
+            if entry.is_absolute() {
+                continue;
+            }
+            let resolved = run_dir.join(&entry);
+            if self.contains(&resolved) {
+                let shown = if entry.as_os_str().is_empty() {
+                    "an empty entry".to_string()
+                } else {
+                    format!("the relative entry {:?}", entry.display().to_string())
+                };
+                return Err(format!(
+                    "`command`: {word:?} is looked up in PATH, which has {shown}; commands run \
+                     in the case directory, so that entry is {} and a file named {word:?} \
+                     there would run. Remove such entries from PATH or give the program's \
+                     absolute path",
+                    lexical(&resolved).display()
+                ));
+            }
+        }
+        Ok(())
+    }
+}
+
+/// `p` with `.` and `..` components resolved without touching the file system.
+fn lexical(p: &Path) -> PathBuf {
+    use std::path::Component;
+    let mut out = PathBuf::new();
+    for c in p.components() {
+        match c {
+            Component::CurDir => {}
+            Component::ParentDir => {
+                out.pop();
+            }
+            other => out.push(other.as_os_str()),
+        }
+    }
+    out
 }
 
 fn plan_one(a: &ActionConfig, number: usize, config_dir: &Path) -> Result<PlannedAction, String> {
@@ -370,15 +487,23 @@ impl ActionPlan {
             .collect()
     }
 
-    /// The command of action `index` for this verdict, ready to start.
+    /// The command of action `index` for this verdict, ready to start; or why it cannot be
+    /// run: a negative iteration (`[step -701]`) would make `{iteration}` an argument that
+    /// starts with `-` and reads as an option, the same guard as for run names.
     pub(crate) fn invocation(
         &self,
         index: usize,
         verdict: Verdict,
         previous: Option<Verdict>,
         iteration: i64,
-    ) -> Invocation {
+    ) -> Result<Invocation, String> {
         let a = &self.actions[index];
+        if iteration < 0 && a.args.contains(&Arg::Iteration) {
+            return Err(format!(
+                "{{iteration}} would be {iteration}, which starts with '-' and would read as \
+                 an option"
+            ));
+        }
         let args: Vec<String> = a
             .args
             .iter()
@@ -394,14 +519,14 @@ impl ActionPlan {
         let mut argv = Vec::with_capacity(args.len() + 1);
         argv.push(a.program_word.clone());
         argv.extend(args.iter().cloned());
-        Invocation {
+        Ok(Invocation {
             program: a.program.clone(),
             argv,
             args,
             env: self.child_env(verdict, previous, iteration),
             cwd: self.dir.clone(),
             timeout: a.timeout,
-        }
+        })
     }
 
     /// The complete environment of a command: the inherited allow-list plus the facts.
@@ -464,6 +589,11 @@ mod tests {
         Vec::new()
     }
 
+    /// Owner and mode of the config, read from its descriptor as `config::load` does.
+    fn ff(conf: &Path) -> FileFacts {
+        crate::actions::read_config(conf).expect("read config").1
+    }
+
     #[test]
     fn arguments_classify() {
         assert_eq!(parse_arg("{job}"), Ok(Arg::Job));
@@ -501,11 +631,13 @@ mod tests {
         let plan = load_plan_with_env(
             &[cfg(&["scancel", "{job}", "--comment", "{run}", "{verdict}", "{iteration}"])],
             &conf,
+            &ff(&conf),
             &facts(dir.path()),
             no_env(),
         )
         .expect("valid plan");
-        let inv = plan.invocation(0, Verdict::Diverging, Some(Verdict::Converging), 1450);
+        let inv =
+            plan.invocation(0, Verdict::Diverging, Some(Verdict::Converging), 1450).expect("runs");
         assert_eq!(
             inv.argv,
             vec!["scancel", "123456", "--comment", "duct-bend-07", "diverging", "1450"]
@@ -537,14 +669,143 @@ mod tests {
     }
 
     #[test]
-    fn relative_program_is_resolved_against_the_config_directory() {
+    fn relative_programs_inside_the_case_directory_are_refused() {
         let dir = tempfile::tempdir().expect("tempdir");
         let conf = private_config(dir.path());
-        let plan = load_plan_with_env(&[cfg(&["./stop.sh"])], &conf, &facts(dir.path()), no_env())
-            .expect("valid plan");
-        let inv = plan.invocation(0, Verdict::Diverging, None, 1);
-        assert_eq!(inv.program, dir.path().join("./stop.sh"));
-        assert_eq!(inv.argv, vec!["./stop.sh"]);
+        let f = facts(dir.path());
+        for word in ["./stop.sh", "bin/stop.sh", "bin/../stop.sh"] {
+            let m = load_plan_with_env(&[cfg(&[word])], &conf, &ff(&conf), &f, no_env())
+                .expect_err(word)
+                .to_string();
+            assert!(m.contains("relative path inside the case directory"), "{m}");
+            assert!(m.contains("[[action]] #1"), "{m}");
+        }
+        // Relative to the config's directory, but outside the case: allowed, made absolute.
+        let conf_dir = dir.path().join("conf");
+        std::fs::create_dir(&conf_dir).expect("mkdir");
+        let conf2 = private_config(&conf_dir);
+        let case = dir.path().join("case");
+        std::fs::create_dir(&case).expect("mkdir");
+        let plan = load_plan_with_env(
+            &[cfg(&["../bin/stop.sh"])],
+            &conf2,
+            &ff(&conf2),
+            &facts(&case),
+            no_env(),
+        )
+        .expect("outside the case directory");
+        let inv = plan.invocation(0, Verdict::Diverging, None, 1).expect("runs");
+        assert_eq!(inv.program, conf_dir.join("../bin/stop.sh"));
+        assert_eq!(inv.argv, vec!["../bin/stop.sh"]);
+        assert_eq!(inv.cwd, case);
+    }
+
+    #[test]
+    fn path_entries_resolving_in_the_case_directory_are_refused() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let conf = private_config(dir.path());
+        let f = facts(dir.path());
+        let env = |path: &str| vec![(OsString::from("PATH"), OsString::from(path))];
+        for path in ["/usr/bin::/bin", "/usr/bin:.", "bin:/usr/bin", ":/usr/bin", "/usr/bin:"] {
+            let m =
+                load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &ff(&conf), &f, env(path))
+                    .expect_err(path)
+                    .to_string();
+            assert!(m.contains("looked up in PATH"), "{path}: {m}");
+        }
+        // Absolute entries, or a relative one leading out of the case: fine.
+        for path in ["/usr/bin:/bin", "../tools:/usr/bin"] {
+            assert!(
+                load_plan_with_env(&[cfg(&["scancel"])], &conf, &ff(&conf), &f, env(path)).is_ok(),
+                "{path}"
+            );
+        }
+        // An absolute program is not looked up in PATH at all.
+        assert!(
+            load_plan_with_env(&[cfg(&["/usr/bin/scancel"])], &conf, &ff(&conf), &f, env("."))
+                .is_ok()
+        );
+    }
+
+    #[test]
+    fn a_case_directory_others_may_write_is_refused() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().expect("tempdir");
+        let conf = private_config(dir.path());
+        let f = facts(dir.path());
+        std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o775))
+            .expect("chmod");
+        let m = load_plan_with_env(&[cfg(&["true"])], &conf, &ff(&conf), &f, no_env())
+            .expect_err("group-writable case directory")
+            .to_string();
+        assert!(m.contains("the case directory"), "{m}");
+        assert!(m.contains("without the sticky bit (mode 0775)"), "{m}");
+        // The sticky bit keeps others from replacing our files.
+        std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o1777))
+            .expect("chmod");
+        assert!(load_plan_with_env(&[cfg(&["true"])], &conf, &ff(&conf), &f, no_env()).is_ok());
+        std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o700))
+            .expect("chmod");
+    }
+
+    #[test]
+    fn a_negative_iteration_is_never_an_argument() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let conf = private_config(dir.path());
+        let plan = load_plan_with_env(
+            &[cfg(&["scancel", "{iteration}"]), cfg(&["scancel", "{job}"])],
+            &conf,
+            &ff(&conf),
+            &facts(dir.path()),
+            no_env(),
+        )
+        .expect("plan");
+        let why = plan.invocation(0, Verdict::Diverging, None, -701).expect_err("option-like");
+        assert!(why.contains("{iteration} would be -701"), "{why}");
+        assert!(why.contains("read as an option"), "{why}");
+        assert_eq!(
+            plan.invocation(0, Verdict::Diverging, None, 701).expect("runs").argv,
+            vec!["scancel", "701"]
+        );
+        // An action that does not use {iteration} is not affected.
+        assert!(plan.invocation(1, Verdict::Diverging, None, -701).is_ok());
+        let env = plan.invocation(1, Verdict::Diverging, None, -701).expect("runs").env;
+        assert!(env.contains(&("SETTLE_ITERATION".into(), "-701".into())));
+    }
+
+    #[test]
+    fn sources_and_directory_are_absolute() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let conf = private_config(dir.path());
+        let cwd = std::env::current_dir().expect("cwd");
+        let rel_dir = pathdiff(dir.path(), &cwd);
+        let mut f = facts(&rel_dir);
+        f.sources = vec![rel_dir.join("log.tarn"), rel_dir.join("forces.dat")];
+        let plan =
+            load_plan_with_env(&[cfg(&["true"])], &conf, &ff(&conf), &f, no_env()).expect("plan");
+        let inv = plan.invocation(0, Verdict::Diverging, None, 1).expect("runs");
+        assert!(inv.cwd.is_absolute(), "{}", inv.cwd.display());
+        let sources =
+            inv.env.iter().find(|(k, _)| k == "SETTLE_SOURCES").expect("sources").1.clone();
+        let sources = sources.to_string_lossy().into_owned();
+        for s in sources.split(':') {
+            assert!(Path::new(s).is_absolute(), "{sources}");
+            assert!(Path::new(s).starts_with(&cwd), "{sources}");
+        }
+    }
+
+    /// `to` relative to `from` (both absolute), with `..` as needed.
+    fn pathdiff(to: &Path, from: &Path) -> PathBuf {
+        let (t, f): (Vec<_>, Vec<_>) = (to.components().collect(), from.components().collect());
+        let common = t.iter().zip(&f).take_while(|(a, b)| a == b).count();
+        let mut out = PathBuf::new();
+        for _ in common..f.len() {
+            out.push("..");
+        }
+        for c in &t[common..] {
+            out.push(c.as_os_str());
+        }
+        out
     }
 
     #[test]
@@ -553,7 +814,7 @@ mod tests {
         let conf = private_config(dir.path());
         let f = facts(dir.path());
         let err = |a: ActionConfig| {
-            load_plan_with_env(&[cfg(&["true"]), a], &conf, &f, no_env())
+            load_plan_with_env(&[cfg(&["true"]), a], &conf, &ff(&conf), &f, no_env())
                 .expect_err("invalid")
                 .to_string()
         };
@@ -579,35 +840,43 @@ mod tests {
         let conf = private_config(dir.path());
         let mut f = facts(dir.path());
         f.job = None;
-        let m = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &f, no_env())
+        let m = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &ff(&conf), &f, no_env())
             .expect_err("no job id")
             .to_string();
         assert!(m.contains("no job id is known"), "{m}");
         let env = vec![(OsString::from("SLURM_JOB_ID"), OsString::from("998877"))];
-        let plan = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &f, env)
+        let plan = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &ff(&conf), &f, env)
             .expect("job from environment");
-        assert_eq!(plan.invocation(0, Verdict::Stale, None, 0).argv, vec!["scancel", "998877"]);
+        assert_eq!(
+            plan.invocation(0, Verdict::Stale, None, 0).expect("runs").argv,
+            vec!["scancel", "998877"]
+        );
         f.job = Some("12; rm -rf ~".into());
-        let m = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &f, no_env())
+        let m = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &ff(&conf), &f, no_env())
             .expect_err("bad job id")
             .to_string();
         assert!(m.contains("is not a job id"), "{m}");
         // An invalid job id that no action uses does not matter.
-        assert!(load_plan_with_env(&[cfg(&["true"])], &conf, &f, no_env()).is_ok());
+        assert!(load_plan_with_env(&[cfg(&["true"])], &conf, &ff(&conf), &f, no_env()).is_ok());
         f.name = "--all".into();
-        let m = load_plan_with_env(&[cfg(&["echo", "{run}"])], &conf, &f, no_env())
+        let m = load_plan_with_env(&[cfg(&["echo", "{run}"])], &conf, &ff(&conf), &f, no_env())
             .expect_err("option-like run name")
             .to_string();
         assert!(m.contains("would read as an option"), "{m}");
         f.name = "a\x1b[2Jb".into();
-        assert!(load_plan_with_env(&[cfg(&["echo", "{run}"])], &conf, &f, no_env()).is_err());
+        assert!(
+            load_plan_with_env(&[cfg(&["echo", "{run}"])], &conf, &ff(&conf), &f, no_env())
+                .is_err()
+        );
     }
 
     #[test]
     fn empty_list_skips_the_file_check() {
+        let none = FileFacts { mode: 0o100666, owner: u32::MAX, regular: false };
         let plan = load_plan_with_env(
             &[],
             Path::new("/nonexistent/settle.toml"),
+            &none,
             &RunFacts::default(),
             no_env(),
         )

@@ -126,8 +126,14 @@ impl ActionRunner {
     }
 
     fn fire(&mut self, i: usize, obs: &Observation, act: bool) -> Option<Finding> {
-        let inv = self.plan.invocation(i, obs.verdict, self.previous, obs.iteration);
         let number = self.plan.actions[i].number;
+        let inv = match self.plan.invocation(i, obs.verdict, self.previous, obs.iteration) {
+            Ok(inv) => inv,
+            Err(why) => {
+                let detail = format!("refused to run action #{number}: {why}");
+                return Some(audit(obs.iteration, "refused", 0.0, sanitize_line(&detail)));
+            }
+        };
         let shown = display_argv(&inv.argv);
         if !act {
             let keys: Vec<String> =
