@@ -85,10 +85,14 @@ pub struct FollowConfig {
     pub max_line_bytes: usize,
     /// Size of one positioned read (default 1 MiB). The read buffer never grows beyond it.
     pub read_chunk: usize,
-    /// After a file was replaced under its name (rotation), keep reading the old open file
-    /// for this long before switching to the new one (default 10 s), so lines the writer
-    /// still puts into the old file are not lost.
+    /// After a file was replaced under its name (rotation, deletion and re-creation), the
+    /// old open file is read until it has been quiet (no growth) for this long before the
+    /// next one is read (default 10 s), so lines the writer still puts into the old file
+    /// are not lost. Every file the name pointed to meanwhile is kept open and read in turn.
     pub rotated_grace: Duration,
+    /// Once the next file has data, the old one only needs to be quiet for this long
+    /// (default 2 s): the writer has moved on.
+    pub rotated_quiet: Duration,
     /// A run of NUL bytes at the very end of the readable data is not consumed for this long
     /// (default 10 s): NFS clients have been seen to return NULs for freshly appended bytes
     /// that turn into real text a moment later. After the grace the run is skipped as junk.
@@ -106,6 +110,7 @@ impl Default for FollowConfig {
             max_line_bytes: 64 * 1024,
             read_chunk: 1024 * 1024,
             rotated_grace: Duration::from_secs(10),
+            rotated_quiet: Duration::from_secs(2),
             nul_grace: Duration::from_secs(10),
             progress_every: 64 * 1024 * 1024,
         }
@@ -152,8 +157,8 @@ pub enum FollowStatus {
         /// The path that vanished.
         path: PathBuf,
     },
-    /// The name now points to a new file; the old one is still read until the rotation grace
-    /// ends.
+    /// The name now points to a new file (or a glob has a later file); the old one is still
+    /// read until it has been quiet long enough, then the next ones in turn.
     Draining {
         /// The name whose old file is being drained.
         path: PathBuf,

@@ -9,22 +9,31 @@
 //!    pieces, through the line splitter. A NUL run at the very end is held back (see
 //!    [`FollowConfig::nul_grace`]).
 //! 3. Every `name_check_interval`, or sooner after [`Follower::hint_names`], open the path
-//!    again and compare identities:
+//!    again and compare identities (device + inode) with the newest file known:
 //!    * same file: keep the new descriptor if the file was idle (NFS close-to-open
 //!      revalidation of a stale cached size), offset unchanged;
 //!    * new inode whose bytes match what was read and at least as long: a migration, continue
 //!      at the same offset without a restart;
-//!    * new inode otherwise: a rotation. The old descriptor is drained for `rotated_grace`
-//!      (every line the writer still puts there is read exactly once), its unterminated last
-//!      line is flushed, then `Restart(Replaced)` and the new file from byte 0;
-//!    * name gone: keep reading the old descriptor, report "missing", retry;
-//!    * for a glob, a later file in natural order: drain the current file to its end, flush,
-//!      `Restart(NewFile)` and read the next one.
+//!    * new inode otherwise: a rotation, a deletion and re-creation. The new file is opened
+//!      at once and queued: its descriptor keeps it readable whatever happens to the name
+//!      next, so rotations faster than the old file is drained lose no file;
+//!    * name gone: keep reading the open file, report "missing", retry;
+//!    * for a glob, later files in natural order are queued by name.
+//! 4. Move to the next queued file only when the current one is read to its end and has
+//!    been quiet for `rotated_grace`, or for `rotated_quiet` once the next file has data, or
+//!    when its last write (mtime) is older than `rotated_grace` (restart files that were
+//!    finished long ago): flush its unterminated line, `Restart(Replaced)` or
+//!    `Restart(NewFile)`, then the next file from byte 0. Every identity the name pointed
+//!    to is read in order, as `tail -F` does, without its gaps.
+//! 5. A file left behind is watched for a while: bytes written to it after the follower
+//!    moved on cannot be placed in order any more and are reported in a note with a line
+//!    estimate, as is the unread rest of a file that could not be read to its end.
 //!
 //! Before the first file exists the follower is `Waiting` and tries to open it at every poll.
 
+use std::collections::VecDeque;
 use std::path::{Path, PathBuf};
-use std::time::Instant;
+use std::time::{Duration, Instant, SystemTime};
 
 use super::file::{Held, OpenError, OpenFile, mtime_of, open_path, read_at};
 use super::lines::LineSplitter;
@@ -38,12 +47,21 @@ const NUL_HOLD_MAX: usize = 64 * 1024;
 /// Notes of one repeating kind (long lines, NUL runs, read errors) shown before they are
 /// only counted in [`FollowStats`].
 const NOTES_PER_KIND: u32 = 5;
-/// Upper bound on state transitions within one poll: a restart file costs three (open,
+/// Upper bound on state transitions within one poll: a restart file costs a few (open,
 /// find its successor, finish it), so one poll reads over a thousand existing restart files,
 /// while a glob gaining files faster than they can be read cannot keep one poll busy forever.
 const MAX_STEPS: usize = 4096;
 /// Upper bound on polls in [`Follower::read_to_end`] (a writer outrunning the reader).
 const MAX_POLLS_TO_END: usize = 1000;
+/// Most replaced files waiting to be read (each holds a descriptor).
+const MAX_QUEUE: usize = 64;
+/// Most restart files of a glob waiting to be read (names only).
+const MAX_GLOB_QUEUE: usize = 4096;
+/// Most finished files watched for late writes, and for how many rotation graces.
+const MAX_RETIRED: usize = 8;
+const RETIRED_GRACES: u32 = 6;
+/// Bytes per line assumed for an estimate before any line was read.
+const DEFAULT_LINE_BYTES: u64 = 80;
 
 /// Follows one log file by name, or the files of a restart glob in natural order.
 #[derive(Debug)]
@@ -51,32 +69,54 @@ pub struct Follower {
     cfg: FollowConfig,
     spec: Spec,
     phase: Phase,
+    /// Files to read after the current one, oldest first.
+    queue: VecDeque<Next>,
+    /// Files read to their end and left behind, watched for late writes.
+    retired: Vec<Retired>,
     io: ReadCtx,
     last_name_check: Option<Instant>,
     names_hint: bool,
-    /// Restart to emit before the first line of the next file opened.
-    pending_restart: Option<SegmentReason>,
-    /// Next file to open (set by a glob transition).
-    next_path: Option<PathBuf>,
-    /// Last file opened: reopened by name after a rotation.
-    last_path: Option<PathBuf>,
-    /// The name of the open file is currently missing.
+    /// The name of the newest known file is currently missing.
     missing: bool,
     /// Why the target could not be opened, while it cannot.
     unreadable: Option<(PathBuf, String)>,
     waiting_noted: bool,
+    /// The queue was full when another file turned up (noted once).
+    queue_full_noted: bool,
     /// When a poll last consumed bytes.
     last_growth: Option<Instant>,
+    /// A one-shot read ([`Follower::read_to_end`]): files are finished at their end.
+    one_shot: bool,
 }
 
 #[derive(Debug)]
 enum Phase {
-    /// No file open: waiting for the first, or between a rotation and the new file.
+    /// No file open yet: waiting for the first.
     Closed,
-    /// Reading the file the name points to.
+    /// Reading this file (the name's current file, or an older one still being drained).
     Active(OpenFile),
-    /// Reading what remains of an old file until `until`, then `reason` and `next`.
-    Draining { old: OpenFile, until: Instant, reason: SegmentReason, next: Option<PathBuf> },
+}
+
+/// A file to read after the current one.
+#[derive(Debug)]
+struct Next {
+    path: PathBuf,
+    /// Opened when the name was seen pointing to it (a replacement): the descriptor keeps
+    /// the file readable after the name moves on. `None` for a later restart file of a glob,
+    /// opened by name when its turn comes.
+    file: Option<OpenFile>,
+    reason: SegmentReason,
+}
+
+/// A file read to its end and left behind, watched for bytes written after that.
+#[derive(Debug)]
+struct Retired {
+    file: OpenFile,
+    /// What the follower moved on to (for the note).
+    next: PathBuf,
+    /// The file was replaced under its own name (rather than followed by a restart file).
+    replaced: bool,
+    until: Instant,
 }
 
 /// What a read of one open file found besides lines.
@@ -125,15 +165,16 @@ impl Follower {
             cfg,
             spec: Spec::new(spec.into()),
             phase: Phase::Closed,
+            queue: VecDeque::new(),
+            retired: Vec::new(),
             last_name_check: None,
             names_hint: false,
-            pending_restart: None,
-            next_path: None,
-            last_path: None,
             missing: false,
             unreadable: None,
             waiting_noted: false,
+            queue_full_noted: false,
             last_growth: None,
+            one_shot: false,
         }
     }
 
@@ -149,10 +190,10 @@ impl Follower {
         for _ in 0..MAX_STEPS {
             match &mut self.phase {
                 Phase::Closed => {
-                    if !self.try_open(now, sink, &mut out) {
+                    if !self.try_open(now, sink) {
                         break;
                     }
-                    // A freshly opened glob file may already have a successor.
+                    // A freshly opened glob file may already have successors.
                     names_due |= self.spec.is_glob();
                 }
                 Phase::Active(file) => {
@@ -162,23 +203,15 @@ impl Follower {
                     }
                     if names_due {
                         names_due = false;
-                        if self.check_names(now, sink) {
-                            continue;
-                        }
+                        self.check_names(now, sink);
+                    }
+                    if !self.queue.is_empty() && self.current_finished(now) {
+                        out.lines += self.advance(now, sink, &mut out);
+                        // A glob may have more restart files than one check queues.
+                        names_due |= self.spec.is_glob() && self.queue.is_empty();
+                        continue;
                     }
                     break;
-                }
-                Phase::Draining { old, until, .. } => {
-                    let end = self.io.read(old, &self.cfg, now, sink, &mut out);
-                    let stop = !matches!(end, ReadEnd::Done);
-                    if stop {
-                        if let ReadEnd::Failed(e) = &end {
-                            self.io.error_note(&old.path, e, sink);
-                        }
-                    } else if now < *until {
-                        break;
-                    }
-                    out.lines += self.end_drain(sink);
                 }
             }
         }
@@ -189,9 +222,11 @@ impl Follower {
     }
 
     /// One-shot read (`check`, `parse`, `report`): poll until a poll finds nothing new, then
-    /// [`finish`](Self::finish). Stops after a bounded number of polls if a writer keeps
+    /// [`finish`](Self::finish). Each file is finished at its end (no waiting for a rotated
+    /// file to go quiet). Stops after a bounded number of polls if a writer keeps
     /// outrunning the reader. Returns the total of all polls.
     pub fn read_to_end(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> PollOutcome {
+        self.one_shot = true;
         let mut total = PollOutcome::default();
         for _ in 0..MAX_POLLS_TO_END {
             let o = self.poll(sink);
@@ -227,15 +262,16 @@ impl Follower {
     /// What the follower is doing now.
     pub fn status(&self) -> FollowStatus {
         match &self.phase {
+            Phase::Active(f) if !self.queue.is_empty() => {
+                FollowStatus::Draining { path: f.path.clone() }
+            }
             Phase::Active(f) if self.missing => FollowStatus::Missing { path: f.path.clone() },
             Phase::Active(f) => FollowStatus::Following { path: f.path.clone() },
-            Phase::Draining { old, .. } => FollowStatus::Draining { path: old.path.clone() },
-            Phase::Closed => match (&self.unreadable, &self.last_path) {
-                (Some((path, error)), _) => {
+            Phase::Closed => match &self.unreadable {
+                Some((path, error)) => {
                     FollowStatus::Unreadable { path: path.clone(), error: error.clone() }
                 }
-                (None, Some(path)) => FollowStatus::Missing { path: path.clone() },
-                (None, None) => FollowStatus::Waiting { spec: self.spec.original().to_owned() },
+                None => FollowStatus::Waiting { spec: self.spec.original().to_owned() },
             },
         }
     }
@@ -248,11 +284,10 @@ impl Follower {
         s
     }
 
-    /// The file whose lines are being handed out (the old one while draining), if any.
+    /// The file whose lines are being handed out (an old one while draining), if any.
     pub fn current_path(&self) -> Option<&Path> {
         match &self.phase {
             Phase::Active(f) => Some(&f.path),
-            Phase::Draining { old, .. } => Some(&old.path),
             Phase::Closed => None,
         }
     }
@@ -273,21 +308,22 @@ impl Follower {
     pub fn offset(&self) -> u64 {
         match &self.phase {
             Phase::Active(f) => f.offset,
-            Phase::Draining { old, .. } => old.offset,
             Phase::Closed => 0,
         }
     }
 
     /// Bytes of heap the follower holds for reading (read buffer, carry, fingerprints):
-    /// bounded by `read_chunk + max_line_bytes` plus a few KiB whatever the input.
+    /// bounded by `read_chunk + max_line_bytes` plus a few KiB per open file whatever the
+    /// input.
     pub fn memory_bytes(&self) -> usize {
-        let fp = match &self.phase {
-            Phase::Active(f) | Phase::Draining { old: f, .. } => {
-                f.prefix.capacity() + f.tail.capacity()
-            }
+        let fp = |f: &OpenFile| f.prefix.capacity() + f.tail.capacity();
+        let current = match &self.phase {
+            Phase::Active(f) => fp(f),
             Phase::Closed => 0,
         };
-        self.io.buf.capacity() + self.io.splitter.capacity() + fp
+        let queued: usize = self.queue.iter().filter_map(|n| n.file.as_ref()).map(fp).sum();
+        let retired: usize = self.retired.iter().map(|r| fp(&r.file)).sum();
+        self.io.buf.capacity() + self.io.splitter.capacity() + current + queued + retired
     }
 
     /// The configuration in use (after clamping zero sizes to 1).
@@ -337,22 +373,14 @@ impl Follower {
         true
     }
 
-    /// Open the next target while no file is open. Returns whether one was opened.
-    fn try_open(
-        &mut self,
-        now: Instant,
-        sink: &mut dyn FnMut(FollowItem<'_>),
-        out: &mut PollOutcome,
-    ) -> bool {
-        let target = match (&self.next_path, &self.last_path) {
-            (Some(p), _) | (None, Some(p)) => Some(p.clone()),
-            (None, None) => match self.spec.matches() {
-                Ok(m) => m.into_iter().next(),
-                Err(e) => {
-                    self.set_unreadable(self.spec.original().to_owned(), e.to_string(), sink);
-                    return false;
-                }
-            },
+    /// Open the first file while none is open. Returns whether one was opened.
+    fn try_open(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) -> bool {
+        let target = match self.spec.matches() {
+            Ok(m) => m.into_iter().next(),
+            Err(e) => {
+                self.set_unreadable(self.spec.original().to_owned(), e.to_string(), sink);
+                return false;
+            }
         };
         let Some(target) = target else {
             self.note_waiting(sink);
@@ -360,20 +388,14 @@ impl Follower {
         };
         match open_path(&target) {
             Ok((file, meta)) => {
-                if self.waiting_noted || self.last_path.is_some() {
+                if self.waiting_noted || self.unreadable.is_some() {
                     sink(FollowItem::Note(format!("following {}", target.display())));
                 }
                 self.waiting_noted = false;
                 self.unreadable = None;
                 self.missing = false;
-                self.next_path = None;
-                self.last_path = Some(target.clone());
                 self.io.stats.files += 1;
                 self.io.splitter.reset();
-                if let Some(reason) = self.pending_restart.take() {
-                    sink(FollowItem::Restart(reason));
-                    out.restarted = true;
-                }
                 self.phase = Phase::Active(OpenFile::new(file, &meta, target, now));
                 true
             }
@@ -391,8 +413,7 @@ impl Follower {
     fn note_waiting(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) {
         if !self.waiting_noted {
             self.waiting_noted = true;
-            let what = self.next_path.as_ref().or(self.last_path.as_ref());
-            let path = what.map_or(self.spec.original(), |p| p.as_path());
+            let path = self.spec.original();
             sink(FollowItem::Note(format!("waiting for {} to appear", path.display())));
         }
     }
@@ -410,17 +431,70 @@ impl Follower {
         }
     }
 
-    /// The name check for the active file. Returns true when the phase changed.
-    fn check_names(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) -> bool {
+    /// Average bytes per line read so far (for estimates of unread lines).
+    fn line_bytes(&self) -> u64 {
+        let s = &self.io.stats;
+        s.bytes_read.checked_div(s.lines).map_or(DEFAULT_LINE_BYTES, |b| b.max(1))
+    }
+
+    /// `1234 bytes (about 15 lines)`.
+    fn estimate(&self, bytes: u64) -> String {
+        let lines = bytes.div_ceil(self.line_bytes());
+        format!("{bytes} bytes (about {lines} line{})", if lines == 1 { "" } else { "s" })
+    }
+
+    /// Queue a file to read after the others; false (noted once) when the queue is full.
+    fn enqueue(&mut self, next: Next, sink: &mut dyn FnMut(FollowItem<'_>)) -> bool {
+        let open = self.queue.iter().filter(|n| n.file.is_some()).count();
+        let full = if next.file.is_some() {
+            open >= MAX_QUEUE
+        } else {
+            self.queue.len() - open >= MAX_GLOB_QUEUE
+        };
+        if full {
+            if !self.queue_full_noted {
+                self.queue_full_noted = true;
+                sink(FollowItem::Note(format!(
+                    "{} files are waiting to be read; {} and files after it are not queued \
+                     until some are read, and may be lost if they are replaced meanwhile",
+                    self.queue.len(),
+                    next.path.display()
+                )));
+            }
+            return false;
+        }
+        self.queue.push_back(next);
+        true
+    }
+
+    /// The name check: look for later restart files (glob) and for a new file under the
+    /// newest known name; queue what is new. Never changes which file is being read.
+    fn check_names(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) {
         self.last_name_check = Some(now);
         self.names_hint = false;
-        let Phase::Active(file) = &mut self.phase else {
-            return false;
+        self.check_retired(now, sink);
+        if self.spec.is_glob() {
+            self.check_glob(sink);
+        }
+        self.check_newest_name(now, sink);
+    }
+
+    /// Queue the restart files after the newest known one, in natural order (one listing of
+    /// the directory per name check).
+    fn check_glob(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) {
+        let Phase::Active(file) = &self.phase else {
+            return;
         };
-        if self.spec.is_glob()
-            && let Ok(Some(next)) = self.spec.next_after(&file.path)
-        {
-            if let Ok((_, meta)) = open_path(&next)
+        let newest = self.queue.back().map_or(&file.path, |n| &n.path);
+        let Ok(later) = self.spec.all_after(newest) else {
+            return;
+        };
+        for next in later {
+            let Phase::Active(file) = &mut self.phase else {
+                return;
+            };
+            if self.queue.is_empty()
+                && let Ok((_, meta)) = open_path(&next)
                 && file.same_identity(&meta)
             {
                 // The current file was renamed to a later name (`run.log` → `run.log.1`
@@ -431,23 +505,40 @@ impl Follower {
                     next.display(),
                     file.offset
                 )));
-                file.path = next.clone();
-                self.last_path = Some(next);
+                file.path = next;
                 self.missing = false;
-                return false;
+                continue;
             }
-            // Revalidate the finished file once more so its last bytes are not lost to a
-            // stale cached size, then drain it with no grace.
-            if let Ok((f, meta)) = open_path(&file.path)
+            if self.queue.is_empty()
+                && let Ok((f, meta)) = open_path(&file.path)
                 && file.same_identity(&meta)
             {
+                // Revalidate the current file once more so its last bytes are not lost to a
+                // stale cached size (NFS).
                 file.adopt(f, &meta);
             }
             sink(FollowItem::Note(format!("next restart file {}", next.display())));
-            self.start_drain(now, SegmentReason::NewFile { path: next.clone() }, Some(next));
-            return true;
+            let reason = SegmentReason::NewFile { path: next.clone() };
+            if !self.enqueue(Next { path: next, file: None, reason }, sink) {
+                return;
+            }
         }
-        match open_path(&file.path) {
+    }
+
+    /// Open the newest known name again: same file (revalidate), migration, a new file
+    /// (queue it, opened now), or missing.
+    fn check_newest_name(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) {
+        let is_current = self.queue.is_empty();
+        let Phase::Active(current) = &mut self.phase else {
+            return;
+        };
+        let newest: &mut OpenFile = match self.queue.back_mut() {
+            None => current,
+            Some(Next { file: Some(f), .. }) => f,
+            // A restart file not opened yet: it is opened by name when its turn comes.
+            Some(Next { file: None, .. }) => return,
+        };
+        match open_path(&newest.path) {
             Err(e) => {
                 if !self.missing {
                     self.missing = true;
@@ -457,69 +548,183 @@ impl Follower {
                     };
                     sink(FollowItem::Note(format!(
                         "{} {why}; still reading the open file, retrying by name",
-                        file.path.display()
+                        newest.path.display()
                     )));
                 }
-                false
             }
             Ok((f, meta)) => {
                 let was_missing = std::mem::replace(&mut self.missing, false);
-                if file.same_identity(&meta) {
+                if newest.same_identity(&meta) {
                     if was_missing {
-                        sink(FollowItem::Note(format!("{} is back", file.path.display())));
+                        sink(FollowItem::Note(format!("{} is back", newest.path.display())));
                     }
-                    let idle = now.duration_since(file.last_change) >= self.cfg.name_check_interval;
-                    if idle || file.broken {
-                        file.adopt(f, &meta);
+                    let idle =
+                        now.duration_since(newest.last_change) >= self.cfg.name_check_interval;
+                    if idle || newest.broken {
+                        newest.adopt(f, &meta);
                         self.io.stats.reopens += 1;
                     }
-                    return false;
+                    return;
                 }
-                if !file.broken && file.content_matches(&f, meta.len()) {
+                if is_current
+                    && !newest.broken
+                    && newest.offset > 0
+                    && newest.content_matches(&f, meta.len())
+                {
                     sink(FollowItem::Note(format!(
                         "{} moved to a new inode with the same content; continuing at byte {}",
-                        file.path.display(),
-                        file.offset
+                        newest.path.display(),
+                        newest.offset
                     )));
-                    file.adopt(f, &meta);
+                    newest.adopt(f, &meta);
                     self.io.stats.migrations += 1;
-                    return false;
+                    return;
                 }
-                self.io.stats.replacements += 1;
-                let grace = if file.broken { 0.0 } else { self.cfg.rotated_grace.as_secs_f64() };
+                let path = newest.path.clone();
                 sink(FollowItem::Note(format!(
-                    "{} replaced by a new file; reading the rest of the old one for {grace:.1} s, \
-                     then the new one from the start",
-                    file.path.display()
+                    "{} replaced by a new file; reading the rest of the old one first, then \
+                     the new one from the start",
+                    path.display()
                 )));
-                let until = if file.broken { now } else { now + self.cfg.rotated_grace };
-                self.start_drain(until, SegmentReason::Replaced, None);
-                true
+                let file = OpenFile::new(f, &meta, path.clone(), now);
+                let next = Next { path, file: Some(file), reason: SegmentReason::Replaced };
+                if self.enqueue(next, sink) {
+                    self.io.stats.replacements += 1;
+                }
             }
         }
     }
 
-    fn start_drain(&mut self, until: Instant, reason: SegmentReason, next: Option<PathBuf>) {
-        if let Phase::Active(old) = std::mem::replace(&mut self.phase, Phase::Closed) {
-            self.phase = Phase::Draining { old, until, reason, next };
+    /// Whether the current file is done: read to its end and quiet long enough (see the
+    /// module header), or unreadable. Only asked while another file is queued.
+    fn current_finished(&self, now: Instant) -> bool {
+        let Phase::Active(file) = &self.phase else {
+            return false;
+        };
+        if file.broken {
+            return true;
         }
-    }
-
-    /// The drained file is done: flush its unterminated line and queue the restart.
-    /// Returns the number of lines flushed.
-    fn end_drain(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> u64 {
-        let mut flushed = 0;
-        if let Phase::Draining { reason, next, .. } =
-            std::mem::replace(&mut self.phase, Phase::Closed)
+        let at_end = file.held.is_none() && file.seen.is_some_and(|(size, _)| size == file.offset);
+        if !at_end {
+            return false;
+        }
+        if self.one_shot {
+            return true;
+        }
+        let quiet = now.duration_since(file.last_change);
+        if quiet >= self.cfg.rotated_grace {
+            return true;
+        }
+        let last_write = file.seen.map(|(_, (s, ns))| {
+            SystemTime::UNIX_EPOCH
+                + Duration::new(u64::try_from(s).unwrap_or(0), u32::try_from(ns).unwrap_or(0))
+        });
+        if last_write
+            .and_then(|t| SystemTime::now().duration_since(t).ok())
+            .is_some_and(|age| age >= self.cfg.rotated_grace)
         {
-            flushed = self.io.flush_partial(sink);
-            self.pending_restart = Some(reason);
-            if next.is_some() {
-                self.next_path = next;
-            }
-            self.missing = false;
+            return true;
         }
+        quiet >= self.cfg.rotated_quiet && self.next_has_data()
+    }
+
+    /// The next queued file already holds data (the writer moved on to it).
+    fn next_has_data(&self) -> bool {
+        match self.queue.front() {
+            Some(Next { file: Some(f), .. }) => f.file.metadata().is_ok_and(|m| m.len() > 0),
+            Some(Next { path, file: None, .. }) => {
+                std::fs::metadata(path).is_ok_and(|m| m.len() > 0)
+            }
+            None => false,
+        }
+    }
+
+    /// Leave the finished current file: note what could not be read of it, flush its
+    /// unterminated line, keep watching it for late writes, and start the next queued file
+    /// (a restart before its first line). Returns the number of lines flushed.
+    fn advance(
+        &mut self,
+        now: Instant,
+        sink: &mut dyn FnMut(FollowItem<'_>),
+        out: &mut PollOutcome,
+    ) -> u64 {
+        let Phase::Active(old) = std::mem::replace(&mut self.phase, Phase::Closed) else {
+            return 0;
+        };
+        if old.broken {
+            let size = old.file.metadata().map(|m| m.len()).ok().or(old.seen.map(|s| s.0));
+            let rest = size.map_or(String::from("an unknown number of bytes"), |s| {
+                self.estimate(s.saturating_sub(old.offset))
+            });
+            sink(FollowItem::Note(format!(
+                "could not read the rest of {} after byte {}: {rest} not read",
+                old.path.display(),
+                old.offset
+            )));
+        }
+        let flushed = self.io.flush_partial(sink);
+        while let Some(next) = self.queue.pop_front() {
+            let file = match next.file {
+                Some(f) => f,
+                None => match open_path(&next.path) {
+                    Ok((f, meta)) => OpenFile::new(f, &meta, next.path.clone(), now),
+                    Err(e) => {
+                        sink(FollowItem::Note(format!(
+                            "{} could not be opened when its turn came ({e}); skipped",
+                            next.path.display()
+                        )));
+                        continue;
+                    }
+                },
+            };
+            self.io.stats.files += 1;
+            self.io.splitter.reset();
+            let replaced = next.reason == SegmentReason::Replaced;
+            sink(FollowItem::Restart(next.reason));
+            out.restarted = true;
+            if self.retired.len() >= MAX_RETIRED {
+                self.retired.remove(0);
+            }
+            let until = now + self.cfg.rotated_grace * RETIRED_GRACES;
+            self.retired.push(Retired { file: old, next: next.path.clone(), replaced, until });
+            self.phase = Phase::Active(file);
+            if self.queue.is_empty() {
+                self.queue_full_noted = false;
+            }
+            return flushed;
+        }
+        // Nothing left to move to (every queued file vanished): keep the old one.
+        self.phase = Phase::Active(old);
         flushed
+    }
+
+    /// Files left behind that grew since: those bytes came after the follower moved on and
+    /// cannot be placed in order any more; say so with an estimate. Stop watching after a
+    /// while.
+    fn check_retired(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) {
+        let per_line = self.line_bytes();
+        self.retired.retain_mut(|r| {
+            if let Ok(m) = r.file.file.metadata()
+                && m.len() > r.file.offset
+            {
+                let bytes = m.len() - r.file.offset;
+                let lines = bytes.div_ceil(per_line);
+                let (what, next) = if r.replaced {
+                    (
+                        format!("the previous file named {}", r.file.path.display()),
+                        "the new one".into(),
+                    )
+                } else {
+                    (r.file.path.display().to_string(), r.next.display().to_string())
+                };
+                sink(FollowItem::Note(format!(
+                    "{what} grew by {bytes} bytes (about {lines} lines) after settle had moved \
+                     on to {next}; those lines are not read"
+                )));
+                r.file.offset = m.len();
+            }
+            now < r.until
+        });
     }
 }
 
@@ -546,7 +751,7 @@ impl ReadCtx {
         if !changed && file.held.is_none() {
             return ReadEnd::Done;
         }
-        if changed {
+        if changed && (file.seen.is_some() || seen != file.at_open) {
             file.last_change = now;
         }
         if size < file.offset {
