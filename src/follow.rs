@@ -66,6 +66,17 @@ pub use lines::{Line, LineSplitter};
 pub use spec::natural_cmp;
 pub use waker::{Wake, WakeSender, Waker, WatchBackend};
 
+/// First words of the notes a follower gives about the state of its file (the headless
+/// watcher tells a source's state from them while it has no records).
+pub mod note {
+    /// `waiting for PATH to appear`: nothing under the name yet.
+    pub const WAITING: &str = "waiting for ";
+    /// `cannot read PATH: ERROR; retrying`: the name exists but cannot be opened or listed.
+    pub const UNREADABLE: &str = "cannot read ";
+    /// `following PATH`: the file was opened after waiting or failing.
+    pub const FOLLOWING: &str = "following ";
+}
+
 /// How a [`Follower`] polls and how much memory it may use.
 ///
 /// The defaults suit a login node watching a few logs on a parallel file system: about one

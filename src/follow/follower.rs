@@ -38,7 +38,7 @@ use std::time::{Duration, Instant, SystemTime};
 use super::file::{Held, OpenError, OpenFile, mtime_of, open_path, read_at};
 use super::lines::LineSplitter;
 use super::spec::Spec;
-use super::{FollowConfig, FollowItem, FollowStats, FollowStatus, PollOutcome};
+use super::{FollowConfig, FollowItem, FollowStats, FollowStatus, PollOutcome, note};
 use crate::run::SegmentReason;
 
 /// A trailing NUL run longer than this is a hole, not a not-yet-visible append: it is
@@ -389,7 +389,7 @@ impl Follower {
         match open_path(&target) {
             Ok((file, meta)) => {
                 if self.waiting_noted || self.unreadable.is_some() {
-                    sink(FollowItem::Note(format!("following {}", target.display())));
+                    sink(FollowItem::Note(format!("{}{}", note::FOLLOWING, target.display())));
                 }
                 self.waiting_noted = false;
                 self.unreadable = None;
@@ -414,7 +414,7 @@ impl Follower {
         if !self.waiting_noted {
             self.waiting_noted = true;
             let path = self.spec.original();
-            sink(FollowItem::Note(format!("waiting for {} to appear", path.display())));
+            sink(FollowItem::Note(format!("{}{} to appear", note::WAITING, path.display())));
         }
     }
 
@@ -426,7 +426,11 @@ impl Follower {
     ) {
         let fresh = self.unreadable.as_ref() != Some(&(path.clone(), error.clone()));
         if fresh {
-            sink(FollowItem::Note(format!("cannot read {}: {error}; retrying", path.display())));
+            sink(FollowItem::Note(format!(
+                "{}{}: {error}; retrying",
+                note::UNREADABLE,
+                path.display()
+            )));
             self.unreadable = Some((path, error));
         }
     }

@@ -31,6 +31,10 @@
 //! | `eta_iterations` | estimated iterations until the slowest residual reaches its target (converging only), or `null` |
 //! | `status`, `detail` | `action` lines only: the audit statistic (`exit_code`, `dry_run`, `timeout_s`, `refused`, ...) and its sentence |
 
+mod state;
+
+pub use state::{RunState, STOPPED_NOTE, StateReport, json_state_line, run_state, state_line};
+
 use std::time::{Duration, Instant, SystemTime, UNIX_EPOCH};
 
 use serde::Serialize;
