@@ -411,3 +411,26 @@ fn sigterm_prints_the_state_not_a_made_up_verdict_within_a_second() {
     assert!(last.ends_with("(final)"), "{text}");
     assert!(!text.contains("converging"), "{text}");
 }
+
+/// An error names its cause once (issue: `not UTF-8 text (byte 47): not UTF-8 text (byte
+/// 47)`, `os error 2 … os error 2`), whichever error type carried it.
+#[test]
+fn errors_name_their_cause_once() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("settle.toml"), b"name = \"x\xff\"\n").unwrap();
+    let o = Command::new(BIN).arg("watch").arg(dir.path()).output().unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(1));
+    assert_eq!(
+        err.trim_end(),
+        format!(
+            "settle: cannot read run config {}: not UTF-8 text (byte 9)",
+            dir.path().join("settle.toml").display()
+        )
+    );
+    let missing = dir.path().join("no-such-dir");
+    let o = Command::new(BIN).arg("--parsers").arg(&missing).args(["watch", "x.log"]).output();
+    let err = String::from_utf8_lossy(&o.unwrap().stderr).into_owned();
+    assert_eq!(err.matches("os error 2").count(), 1, "{err}");
+    assert!(err.starts_with("settle: loading parser definitions: "), "{err}");
+}

@@ -99,8 +99,12 @@ pub fn read_config(path: &Path) -> std::io::Result<(String, FileFacts)> {
     if !facts.regular {
         return Err(std::io::Error::new(std::io::ErrorKind::InvalidInput, "not a regular file"));
     }
-    let mut text = String::new();
-    file.read_to_string(&mut text)?;
+    let mut bytes = Vec::new();
+    file.read_to_end(&mut bytes)?;
+    let text = String::from_utf8(bytes).map_err(|e| {
+        let at = e.utf8_error().valid_up_to();
+        std::io::Error::new(std::io::ErrorKind::InvalidData, format!("not UTF-8 text (byte {at})"))
+    })?;
     Ok((text, facts))
 }
 
