@@ -97,7 +97,8 @@ struct LiveArgs {
     #[arg(long, value_name = "SECONDS", default_value_t = 60.0)]
     heartbeat: f64,
     /// When headless mode stops by itself: when every run has ended (end-of-run mark,
-    /// crash after divergence, or stale), also as soon as one diverges, or never.
+    /// crash after divergence, or stale; a run without records when it went stale or no
+    /// parser recognises its file: exit code 16), also as soon as one diverges, or never.
     #[arg(long, value_enum, default_value_t = settle::watch::ExitWhen::Ended)]
     exit_when: settle::watch::ExitWhen,
     /// Colour: auto honours NO_COLOR (when set and non-empty).

@@ -172,7 +172,8 @@ impl LiveHooks for ActionHooks {
 /// When the headless watcher stops on its own.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 pub enum ExitWhen {
-    /// When every run has ended: end-of-run mark, a crash after divergence, or stale.
+    /// When every run has ended: end-of-run mark, a crash after divergence, or stale; a
+    /// run without records when it went stale or its file was given up (exit code 16).
     Ended,
     /// Like `ended`, and also as soon as a run is diverging.
     Diverging,

@@ -434,3 +434,39 @@ fn errors_name_their_cause_once() {
     assert_eq!(err.matches("os error 2").count(), 1, "{err}");
     assert!(err.starts_with("settle: loading parser definitions: "), "{err}");
 }
+
+/// Checklist item 23: `settle watch --headless … | head -1` ends quietly when the reader
+/// goes away: exit code 0, nothing on stderr (no EPIPE panic).
+#[test]
+fn a_closed_pipe_ends_headless_quietly() {
+    let s = samples();
+    let mut child = Command::new(BIN)
+        .args(["watch", "--headless", "--poll", "0.1", "--heartbeat", "0.1", "--exit-when"])
+        .args(["never"])
+        .arg(s.join("duct-bend-07"))
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut out = child.stdout.take().unwrap();
+    let mut first = [0u8; 64];
+    let n = out.read(&mut first).unwrap();
+    assert!(n > 0);
+    drop(out);
+    let start = Instant::now();
+    let status = loop {
+        if let Some(st) = child.try_wait().unwrap() {
+            break st;
+        }
+        if start.elapsed() > Duration::from_secs(5) {
+            let _ = child.kill();
+            panic!("still running with its reader gone");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    let mut err = String::new();
+    child.stderr.take().unwrap().read_to_string(&mut err).unwrap();
+    assert_eq!(status.code(), Some(0), "{err}");
+    assert!(err.is_empty(), "{err}");
+}

@@ -1,5 +1,6 @@
 //! Headless output of `settle watch --headless`: one plain status line or one JSON object
-//! per line, and the rule for when to print.
+//! per line, and the rule for when to print; the state lines of runs without a verdict are
+//! in [`state`].
 //!
 //! Pure formatting: the caller owns the loop, the clock and the writer. Text lines hold no
 //! colour and no control characters (C0/C1 controls and DEL become `^X` or `\u{..}`, tabs
@@ -20,9 +21,9 @@
 //! | key | value |
 //! | --- | --- |
 //! | `time` | UTC, RFC 3339 to the second (`2026-12-01T10:04:11Z`) |
-//! | `event` | `change` (first judgement, verdict or a criterion's met flag changed), `heartbeat`, `action`, `end` |
+//! | `event` | `change` (first judgement, verdict or a criterion's met flag changed; a new state), `heartbeat`, `action`, `end` |
 //! | `run` | run name |
-//! | `verdict` | verdict word (absent in `action` lines) |
+//! | `verdict` | verdict word (absent in `action` and state lines) |
 //! | `since` | iteration the verdict holds since, or `null` |
 //! | `iteration` | last iteration seen (for `action`: iteration at which it fired) |
 //! | `grew_s_ago` | seconds since the log last grew, or `null` |
@@ -30,6 +31,8 @@
 //! | `causes` | list of `{kind, series, detail}` of the findings that decided the verdict |
 //! | `eta_iterations` | estimated iterations until the slowest residual reaches its target (converging only), or `null` |
 //! | `status`, `detail` | `action` lines only: the audit statistic (`exit_code`, `dry_run`, `timeout_s`, `refused`, ...) and its sentence |
+//! | `read_iteration` | last iteration read from the log (ahead of `iteration` while the judge is throttled), or `null` |
+//! | `state`, `detail`, `percent_read` | state lines only (no `verdict`): `waiting`, `reading`, `unreadable`, `no-parser` or `stale`, the reason, and the share of a large read done (see [`RunState`]) |
 
 mod state;
 
@@ -155,11 +158,28 @@ pub fn status_line(
     last_growth_age: Option<Duration>,
     now: SystemTime,
 ) -> String {
+    status_line_read(run, j, None, last_growth_age, now)
+}
+
+/// [`status_line`] that also says how far the log was read when the judgement lags behind
+/// it (`it 1450 (read to 1462)`): the judge is throttled with many runs, but the watcher is
+/// not stuck.
+pub fn status_line_read(
+    run: &str,
+    j: &Judgement,
+    read_iteration: Option<i64>,
+    last_growth_age: Option<Duration>,
+    now: SystemTime,
+) -> String {
     let mut head = format!("{} {} {}", rfc3339(now), run, j.verdict);
     if let (Some(s), true) = (j.since, j.verdict != Verdict::Converging) {
         head.push_str(&format!(" since it {s}"));
     }
-    let mut parts = vec![head, format!("it {}", j.iterations)];
+    let it = match read_iteration {
+        Some(r) if r > j.iterations => format!("it {} (read to {r})", j.iterations),
+        _ => format!("it {}", j.iterations),
+    };
+    let mut parts = vec![head, it];
     if let Some(age) = last_growth_age {
         parts.push(format!("grew {} ago", fmt_age(age)));
     }
@@ -224,6 +244,7 @@ struct JsonStatus<'a> {
     criteria: Vec<JsonCriterion<'a>>,
     causes: Vec<JsonCause<'a>>,
     eta_iterations: Option<f64>,
+    read_iteration: Option<i64>,
 }
 
 #[derive(Serialize)]
@@ -240,6 +261,18 @@ struct JsonAction<'a> {
 pub fn json_line(
     run: &str,
     j: &Judgement,
+    last_growth_age: Option<Duration>,
+    now: SystemTime,
+    event: HeadlessEvent,
+) -> String {
+    json_line_read(run, j, None, last_growth_age, now, event)
+}
+
+/// [`json_line`] with the last iteration read (`read_iteration`, `null` when unknown).
+pub fn json_line_read(
+    run: &str,
+    j: &Judgement,
+    read_iteration: Option<i64>,
     last_growth_age: Option<Duration>,
     now: SystemTime,
     event: HeadlessEvent,
@@ -277,6 +310,7 @@ pub fn json_line(
             })
             .collect(),
         eta_iterations: eta(j).map(f64::round),
+        read_iteration,
     };
     to_json(&line)
 }
@@ -594,6 +628,26 @@ mod tests {
     }
 
     #[test]
+    fn a_lagging_judgement_says_how_far_the_log_was_read() {
+        let j = stalled();
+        let line = status_line_read("duct-bend-07", &j, Some(4882), None, at());
+        assert!(line.contains(" | it 4870 (read to 4882) | "), "{line}");
+        let line = status_line_read("duct-bend-07", &j, Some(4870), None, at());
+        assert!(line.contains(" | it 4870 | "), "{line}");
+        let v: serde_json::Value = serde_json::from_str(&json_line_read(
+            "r",
+            &j,
+            Some(4882),
+            None,
+            at(),
+            HeadlessEvent::Heartbeat,
+        ))
+        .expect("json");
+        assert_eq!(v["iteration"], 4870);
+        assert_eq!(v["read_iteration"], 4882);
+    }
+
+    #[test]
     fn json_line_parses_back_with_stable_keys() {
         let j = stalled();
         let line = json_line(
@@ -617,6 +671,7 @@ mod tests {
             "criteria",
             "causes",
             "eta_iterations",
+            "read_iteration",
         ];
         let mut sorted = keys.clone();
         sorted.sort();

@@ -7,8 +7,11 @@
 //! no parser, a large first read in progress, stale without records; see
 //! [`crate::run::headless::RunState`]), on change and as a heartbeat. A verdict is never
 //! printed for a run without records. Runs are judged only when they have new data, at most
-//! once per refresh interval (stretched so judging all runs costs about 5 % of a core), and
-//! not during a large first read.
+//! once per refresh interval, stretched so that judging all *growing* runs (new data, or
+//! new data within the last minute) costs about 5 % of a core (each run's cost is the
+//! median of its last five judgements; all growing runs share one interval), and not during
+//! a large first read. While the judge lags,
+//! lines say how far the log was read (`it 1450 (read to 1462)`).
 //!
 //! Exit codes: with `--exit-when ended` (or `diverging`) the loop stops when every run has
 //! ended and returns the most severe run's code: a verdict's code, or [`NO_DATA_EXIT`] for
@@ -84,14 +87,41 @@ impl StatePrint {
     }
 }
 
+/// A run that grew within this window counts among the runs sharing the judging budget.
+const GROWING_WINDOW: Duration = Duration::from_secs(60);
+/// Judging costs remembered per run; their median is the run's cost.
+const COST_SAMPLES: usize = 5;
+
 /// Per-run bookkeeping of the loop.
 struct Track {
     verdict_print: HeadlessState,
     state_print: StatePrint,
     dirty: bool,
     last_judged: Option<Instant>,
-    cost: Duration,
+    /// The latest judging times (wall clock, so a judgement stretched by a busy machine
+    /// counts as costly; the median keeps one such outlier from stretching the gap).
+    costs: Vec<Duration>,
+    /// When data last arrived after the run's first judgement (the first read does not
+    /// make a run "growing").
+    grew_at: Option<Instant>,
     done: bool,
+}
+
+impl Track {
+    fn cost(&self) -> Duration {
+        let mut c = self.costs.clone();
+        c.sort();
+        c.get(c.len() / 2).copied().unwrap_or_default()
+    }
+
+    fn judged(&mut self, cost: Duration, now: Instant) {
+        if self.costs.len() == COST_SAMPLES {
+            self.costs.remove(0);
+        }
+        self.costs.push(cost);
+        self.dirty = false;
+        self.last_judged = Some(now);
+    }
 }
 
 /// The headless loop: apply batches, judge at most once per `refresh` per run, print on
@@ -114,7 +144,8 @@ pub fn run_headless(
             state_print: StatePrint::default(),
             dirty: true,
             last_judged: None,
-            cost: Duration::ZERO,
+            costs: Vec::with_capacity(COST_SAMPLES),
+            grew_at: None,
             done: false,
         })
         .collect();
@@ -144,7 +175,11 @@ pub fn run_headless(
                         )
                     {
                         ingest::apply(src, act, batch.items);
-                        track[batch.run].dirty = true;
+                        let t = &mut track[batch.run];
+                        t.dirty = true;
+                        if t.last_judged.is_some() {
+                            t.grew_at = Some(Instant::now());
+                        }
                     }
                 }
                 Msg::Signal(sig) => stop = Some(128 + sig),
@@ -182,7 +217,24 @@ fn step(
 ) -> io::Result<()> {
     let now = Instant::now();
     let wall = SystemTime::now();
-    let active = runs.iter().filter(|r| r.store.last_iteration().is_some()).count();
+    // The runs sharing the judging budget: those with new data, or new data within the last
+    // minute. Runs that stopped growing are not judged again and take no share. All of them
+    // get the same gap, from their summed cost (each the median of its last judgements), so
+    // judging takes about 5 % of a core whatever their sizes, and one slow judgement does
+    // not hold one run back for minutes.
+    let (mut growing, mut total) = (0u32, Duration::ZERO);
+    for (r, t) in runs.iter().zip(track.iter()) {
+        let recent = t.grew_at.is_some_and(|g| now.duration_since(g) < GROWING_WINDOW);
+        if r.store.last_iteration().is_some() && (t.dirty || recent) {
+            growing += 1;
+            total += t.cost();
+        }
+    }
+    let gap = if growing == 0 {
+        opts.refresh
+    } else {
+        tui::app::judge_gap(opts.refresh, total / growing, growing as usize)
+    };
     for (i, run) in runs.iter_mut().enumerate() {
         let t = &mut track[i];
         let grown = age(run, wall);
@@ -194,15 +246,12 @@ fn step(
             continue;
         }
         t.state_print.clear();
-        let gap = tui::app::judge_gap(opts.refresh, t.cost, active);
         let due = t.last_judged.is_none_or(|j| now.duration_since(j) >= gap);
         let mut judged = false;
         if t.dirty && due {
             let begun = Instant::now();
             run.set_judgement(judge::judge(&run.store.judge_input(), &run.criteria));
-            t.cost = begun.elapsed();
-            t.dirty = false;
-            t.last_judged = Some(now);
+            t.judged(begun.elapsed(), now);
             judged = true;
         }
         let was_stale = run.stale;
@@ -215,11 +264,12 @@ fn step(
             }
         }
         let j = shown(run);
+        let read = run.store.last_iteration();
         if let Some(reason) = t.verdict_print.should_print(&j, now) {
             let line = if opts.json {
-                headless::json_line(&run.store.name, &j, grown, wall, reason.event())
+                headless::json_line_read(&run.store.name, &j, read, grown, wall, reason.event())
             } else {
-                headless::status_line(&run.store.name, &j, grown, wall)
+                headless::status_line_read(&run.store.name, &j, read, grown, wall)
             };
             emit(out, &line)?;
         }
@@ -265,9 +315,9 @@ fn finish(
             continue;
         }
         // Re-judge new data unless a signal leaves no time for it.
-        let affordable = signal.is_none() || t.cost <= budget;
+        let affordable = signal.is_none() || t.cost() <= budget;
         if (t.dirty || run.judged_records.is_none()) && affordable {
-            budget = budget.saturating_sub(t.cost);
+            budget = budget.saturating_sub(t.cost());
             run.set_judgement(judge::judge(&run.store.judge_input(), &run.criteria));
         }
         let j = shown(run);
