@@ -20,7 +20,11 @@
 //!   long-line truncation), a pure state machine;
 //! * `spec`: a path or a file-name glob, natural ordering of restart files;
 //! * `file`: one open file: identity, offset, fingerprint, positioned reads;
-//! * `follower`: [`Follower`], the per-source state machine driven by [`Follower::poll`];
+//! * `reader`: reading one open file (truncation and rewrite checks, reads up to the
+//!   reported size, held NUL runs, progress, limited notes);
+//! * `follower`: [`Follower`], the per-source state machine driven by [`Follower::poll`]:
+//!   which file to read; its `rotation` part queues every file the name pointed to and
+//!   decides when to move on;
 //! * `waker`: [`Waker`], directory watches that wake the ingest loop early.
 //!
 //! A typical ingest loop:
@@ -53,6 +57,7 @@
 mod file;
 mod follower;
 pub mod lines;
+mod reader;
 mod spec;
 mod waker;
 
