@@ -13,7 +13,11 @@
 //!   integer). Text from a log never reaches the argument vector; facts reach the command
 //!   through `SETTLE_*` environment variables, each capped at 4 KiB.
 //! * **Trusted file only.** A config that is group- or world-writable, or owned by another
-//!   user, gets no actions ([`trust`]); watching goes on.
+//!   user, gets no actions; neither does one in a case directory that others may write
+//!   (without the sticky bit). The file's owner and mode come from the descriptor its text
+//!   was read from, so a swap under its name cannot slip in another file ([`trust`]). A
+//!   relative program path, or a `PATH` entry that is empty or relative, that would resolve
+//!   inside the case directory is refused ([`plan`]). Watching goes on.
 //! * **Hygiene.** Cleared environment plus an allow-list, the run's directory as working
 //!   directory, stdin from `/dev/null`, output captured (first 4 KiB), own process group,
 //!   timeout then the group is killed ([`exec`]).
@@ -42,7 +46,7 @@ pub use config::{ActionConfig, OnSpec, TimeoutSpec};
 pub use exec::Outcome;
 pub use plan::{ActionPlan, RunFacts, load_plan, load_plan_with_env, valid_job_id};
 pub use runner::{ActionRecord, ActionRunner, Observation};
-pub use trust::{check_config_file, read_trusted_config};
+pub use trust::{FileFacts, check_facts, read_config};
 
 use crate::judge::{Finding, FindingKind};
 
@@ -71,6 +75,8 @@ pub enum ActionError {
     Io { path: PathBuf, message: String },
     #[error("refusing actions: cannot determine the current user id: {0}")]
     Uid(String),
+    #[error("refusing actions: the case directory {} is unsafe: {reason}", path.display())]
+    UnsafeDir { path: PathBuf, reason: String },
     #[error("{}: {message}", path.display())]
     Config { path: PathBuf, message: String },
     #[error("{}: [[action]] #{number}: {message}", path.display())]

@@ -20,7 +20,11 @@
 //!   long-line truncation), a pure state machine;
 //! * `spec`: a path or a file-name glob, natural ordering of restart files;
 //! * `file`: one open file: identity, offset, fingerprint, positioned reads;
-//! * `follower`: [`Follower`], the per-source state machine driven by [`Follower::poll`];
+//! * `reader`: reading one open file (truncation and rewrite checks, reads up to the
+//!   reported size, held NUL runs, progress, limited notes);
+//! * `follower`: [`Follower`], the per-source state machine driven by [`Follower::poll`]:
+//!   which file to read; its `rotation` part queues every file the name pointed to and
+//!   decides when to move on;
 //! * `waker`: [`Waker`], directory watches that wake the ingest loop early.
 //!
 //! A typical ingest loop:
@@ -53,6 +57,7 @@
 mod file;
 mod follower;
 pub mod lines;
+mod reader;
 mod spec;
 mod waker;
 
@@ -65,6 +70,17 @@ pub use follower::Follower;
 pub use lines::{Line, LineSplitter};
 pub use spec::natural_cmp;
 pub use waker::{Wake, WakeSender, Waker, WatchBackend};
+
+/// First words of the notes a follower gives about the state of its file (the headless
+/// watcher tells a source's state from them while it has no records).
+pub mod note {
+    /// `waiting for PATH to appear`: nothing under the name yet.
+    pub const WAITING: &str = "waiting for ";
+    /// `cannot read PATH: ERROR; retrying`: the name exists but cannot be opened or listed.
+    pub const UNREADABLE: &str = "cannot read ";
+    /// `following PATH`: the file was opened after waiting or failing.
+    pub const FOLLOWING: &str = "following ";
+}
 
 /// How a [`Follower`] polls and how much memory it may use.
 ///
@@ -85,10 +101,14 @@ pub struct FollowConfig {
     pub max_line_bytes: usize,
     /// Size of one positioned read (default 1 MiB). The read buffer never grows beyond it.
     pub read_chunk: usize,
-    /// After a file was replaced under its name (rotation), keep reading the old open file
-    /// for this long before switching to the new one (default 10 s), so lines the writer
-    /// still puts into the old file are not lost.
+    /// After a file was replaced under its name (rotation, deletion and re-creation), the
+    /// old open file is read until it has been quiet (no growth) for this long before the
+    /// next one is read (default 10 s), so lines the writer still puts into the old file
+    /// are not lost. Every file the name pointed to meanwhile is kept open and read in turn.
     pub rotated_grace: Duration,
+    /// Once the next file has data, the old one only needs to be quiet for this long
+    /// (default 2 s): the writer has moved on.
+    pub rotated_quiet: Duration,
     /// A run of NUL bytes at the very end of the readable data is not consumed for this long
     /// (default 10 s): NFS clients have been seen to return NULs for freshly appended bytes
     /// that turn into real text a moment later. After the grace the run is skipped as junk.
@@ -106,6 +126,7 @@ impl Default for FollowConfig {
             max_line_bytes: 64 * 1024,
             read_chunk: 1024 * 1024,
             rotated_grace: Duration::from_secs(10),
+            rotated_quiet: Duration::from_secs(2),
             nul_grace: Duration::from_secs(10),
             progress_every: 64 * 1024 * 1024,
         }
@@ -152,8 +173,8 @@ pub enum FollowStatus {
         /// The path that vanished.
         path: PathBuf,
     },
-    /// The name now points to a new file; the old one is still read until the rotation grace
-    /// ends.
+    /// The name now points to a new file (or a glob has a later file); the old one is still
+    /// read until it has been quiet long enough, then the next ones in turn.
     Draining {
         /// The name whose old file is being drained.
         path: PathBuf,

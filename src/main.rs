@@ -119,7 +119,8 @@ struct LiveArgs {
     #[arg(long, value_name = "SECONDS", default_value_t = 60.0)]
     heartbeat: f64,
     /// When headless mode stops by itself: when every run has ended (end-of-run mark,
-    /// crash after divergence, or stale), also as soon as one diverges, or never.
+    /// crash after divergence, or stale; a run without records when it went stale or no
+    /// parser recognises its file: exit code 16), also as soon as one diverges, or never.
     #[arg(long, value_enum, default_value_t = settle::watch::ExitWhen::Ended)]
     exit_when: settle::watch::ExitWhen,
     /// Colour: auto honours NO_COLOR (when set and non-empty).
@@ -356,10 +357,29 @@ fn main() -> ExitCode {
     match run(cli) {
         Ok(code) => ExitCode::from(code),
         Err(e) => {
-            let _ = writeln!(std::io::stderr(), "settle: {e:#}");
+            let _ = writeln!(std::io::stderr(), "settle: {}", error_text(&e));
             ExitCode::from(1)
         }
     }
+}
+
+/// An error and its causes, `: `-separated, each cause shown once: a cause whose text an
+/// outer message already contains (a library error that names its cause in its message
+/// *and* reports it as its source) is left out, so `… (os error 2): … (os error 2)` cannot
+/// happen whichever error type made it.
+fn error_text(e: &anyhow::Error) -> String {
+    let mut out = String::new();
+    for cause in e.chain() {
+        let text = cause.to_string();
+        if text.is_empty() || out.contains(&text) {
+            continue;
+        }
+        if !out.is_empty() {
+            out.push_str(": ");
+        }
+        out.push_str(&text);
+    }
+    out
 }
 
 fn run(cli: Cli) -> Result<u8> {
@@ -940,4 +960,29 @@ fn watch_specs(mut specs: Vec<RunSpec>, live: &LiveArgs, registry: Arc<Registry>
     shutdown.store(true, Ordering::Relaxed);
     drop(ingest);
     Ok(u8::try_from(code).unwrap_or(1))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::error_text;
+
+    #[derive(Debug, thiserror::Error)]
+    #[error("cannot read run config c/settle.toml: {source}")]
+    struct Named {
+        source: std::io::Error,
+    }
+
+    #[test]
+    fn each_cause_is_shown_once() {
+        let io = std::io::Error::from(std::io::ErrorKind::NotFound);
+        let shown = io.to_string();
+        let e = anyhow::Error::new(Named { source: io }).context("loading the run");
+        assert_eq!(
+            error_text(&e),
+            format!("loading the run: cannot read run config c/settle.toml: {shown}")
+        );
+        // Causes not named by the outer message are kept, in order.
+        let e = anyhow::anyhow!("inner").context("middle").context("outer");
+        assert_eq!(error_text(&e), "outer: middle: inner");
+    }
 }

@@ -68,12 +68,43 @@ pub struct LiveRun {
     /// Set by the live loop: the log stopped growing for longer than the stale limit and no
     /// end-of-run mark was seen.
     pub stale: bool,
+    /// Records in the store when `judgement` was made (`None` before the first judgement);
+    /// set by [`LiveRun::set_judgement`]. Actions act only on a judgement that saw every
+    /// record in the store.
+    pub judged_records: Option<u64>,
 }
 
 impl LiveRun {
     pub fn new(store: RunStore, criteria: Criteria) -> Self {
         let activity = vec![SourceActivity::default(); store.sources.len()];
         LiveRun { store, activity, criteria, ..Default::default() }
+    }
+
+    /// Records ingested so far (sum over the sources).
+    pub fn records(&self) -> u64 {
+        self.store.sources.iter().map(|s| s.records() as u64).sum()
+    }
+
+    /// Store a judgement of the data now in the store.
+    pub fn set_judgement(&mut self, judgement: Judgement) {
+        self.judged_records = Some(self.records());
+        self.judgement = judgement;
+    }
+
+    /// The latest judgement saw every record now in the store (false before the first).
+    pub fn judgement_current(&self) -> bool {
+        self.judged_records == Some(self.records())
+    }
+
+    /// A source is in the middle of a large read (its first read of an existing log, or a
+    /// re-read from the start): between progress marks, or holding records whose read has
+    /// not finished yet (a finished read reports the growth time, a progress mark does not).
+    pub fn bulk_reading(&self) -> bool {
+        self.store
+            .sources
+            .iter()
+            .zip(&self.activity)
+            .any(|(s, a)| a.progress.is_some() || (s.records() > 0 && a.last_growth.is_none()))
     }
 
     /// The verdict to show and act on: `stale` overrides everything except `diverging`.

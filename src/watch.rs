@@ -1,22 +1,24 @@
 //! The `watch` command's glue: building live runs and their followers, the headless loop
-//! (status lines or JSON lines for batch jobs and pipes), and the bridge from verdicts to
-//! opt-in actions. The panels themselves live in `tui`; this module only wires.
+//! ([`headless`]: status lines or JSON lines for batch jobs and pipes), and the bridge from
+//! verdicts to opt-in actions. The panels themselves live in `tui`; this module only wires.
 
-use std::io::{self, Write};
+pub mod headless;
+
+pub use headless::{HeadlessOptions, NO_DATA_EXIT, run_headless};
+
+use std::io;
 use std::path::PathBuf;
 use std::sync::Arc;
 use std::sync::atomic::AtomicBool;
-use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender};
-use std::time::{Duration, Instant, SystemTime};
+use std::sync::mpsc::{Receiver, Sender};
+use std::time::Duration;
 
 use crate::actions::{self, ActionRunner, Observation, RunFacts};
 use crate::follow::FollowConfig;
-use crate::judge::{self, Finding, FindingKind, Judgement, Verdict};
+use crate::judge::{Finding, Verdict};
 use crate::parser::Registry;
 use crate::record::Severity;
 use crate::run::config::RunSpec;
-use crate::run::headless::{self, HeadlessEvent, HeadlessState};
-use crate::run::ingest;
 use crate::run::pipeline::{self, LiveSource, PipelineError, SourceReader};
 use crate::run::{RunStore, SourceStore};
 use crate::tui::{self, LiveHooks, LiveRun, Msg};
@@ -54,11 +56,6 @@ pub fn start_ingest(
     pipeline::spawn_live(sources, poll, tx, Msg::Ingest, Msg::WorkerPanic, shutdown)
 }
 
-/// Records ingested so far for a run (sum over its sources).
-fn records(store: &RunStore) -> u64 {
-    store.sources.iter().map(|s| s.records() as u64).sum()
-}
-
 /// Opt-in actions of every run, driven by verdicts (`LiveHooks` for the panels; called
 /// directly by the headless loop).
 pub struct ActionHooks {
@@ -77,13 +74,23 @@ impl ActionHooks {
         for spec in specs {
             let (runner, notes) = match (&spec.config_path, spec.actions.is_empty()) {
                 (Some(path), false) => {
+                    // Loaded by `config::load`: the facts of the file the text came from.
+                    let Some(file) = spec.config_facts else {
+                        let e = actions::ActionError::Io {
+                            path: path.clone(),
+                            message: "its owner and mode were not read with its text".into(),
+                        };
+                        runners.push(None);
+                        pending.push(vec![e.finding()]);
+                        continue;
+                    };
                     let facts = RunFacts {
                         name: spec.name.clone(),
                         dir: spec.dir.clone(),
                         sources: spec.sources.iter().map(|s| s.path.clone()).collect(),
                         job: spec.job.clone(),
                     };
-                    match actions::load_plan(&spec.actions, path, &facts) {
+                    match actions::load_plan(&spec.actions, path, &file, &facts) {
                         Ok(plan) => (Some(ActionRunner::new(plan)), Vec::new()),
                         Err(e) => (None, vec![e.finding()]),
                     }
@@ -96,24 +103,41 @@ impl ActionHooks {
         ActionHooks { runners, pending, act }
     }
 
-    /// Feed one judgement of run `run`; returns audit findings (dry runs, executions,
-    /// refusals, finished commands).
-    pub fn observe(
-        &mut self,
-        run: usize,
-        verdict: Verdict,
-        store: &RunStore,
-        final_data: bool,
-    ) -> Vec<Finding> {
+    /// Feed the latest judgement of run `run` (after it was judged, or when its `stale` state
+    /// changed); returns audit findings (dry runs, executions, refusals, finished commands).
+    ///
+    /// The hold counts the records the judgement saw, never records ingested since. A
+    /// judgement older than the data in the store, or made while a large read is in progress
+    /// (the first read of an existing log), is pending: it neither counts nor fires.
+    pub fn observe(&mut self, run: usize, data: &LiveRun) -> Vec<Finding> {
         let mut out = std::mem::take(&mut self.pending[run]);
+        let Some(judged) = data.judged_records else {
+            return out;
+        };
         if let Some(r) = self.runners.get_mut(run).and_then(Option::as_mut) {
-            let mut obs =
-                Observation::new(verdict, store.last_iteration().unwrap_or(0), records(store));
-            obs.data_final = final_data;
+            let mut obs = Observation::new(data.verdict(), data.judgement.iterations, judged);
+            obs.data_final = data_final(data);
+            obs.pending = data.bulk_reading() || !data.judgement_current();
             out.extend(r.observe(&obs, self.act));
             out.extend(r.poll_finished());
         }
         out
+    }
+
+    /// Refusals and load errors of run `run` not reported yet (the headless watcher prints
+    /// them at once; otherwise they come with the first judgement).
+    pub fn take_notices(&mut self, run: usize) -> Vec<Finding> {
+        self.pending.get_mut(run).map(std::mem::take).unwrap_or_default()
+    }
+
+    /// One line per planned action of run `run` (empty when it has none or they were
+    /// refused): what would fire, on which verdicts, with which command.
+    pub fn plan_summary(&self, run: usize) -> Vec<String> {
+        self.runners
+            .get(run)
+            .and_then(Option::as_ref)
+            .map(|r| r.plan().summary())
+            .unwrap_or_default()
     }
 
     /// Results of commands that finished since the last call.
@@ -141,29 +165,20 @@ impl ActionHooks {
 
 impl LiveHooks for ActionHooks {
     fn on_judged(&mut self, run: usize, data: &LiveRun) -> Vec<Finding> {
-        self.observe(run, data.verdict(), &data.store, data_final(data))
+        self.observe(run, data)
     }
 }
 
 /// When the headless watcher stops on its own.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 pub enum ExitWhen {
-    /// When every run has ended: end-of-run mark, a crash after divergence, or stale.
+    /// When every run has ended: end-of-run mark, a crash after divergence, or stale; a
+    /// run without records when it went stale or its file was given up (exit code 16).
     Ended,
     /// Like `ended`, and also as soon as a run is diverging.
     Diverging,
     /// Never: until interrupted.
     Never,
-}
-
-/// Options of the headless loop.
-#[derive(Debug, Clone)]
-pub struct HeadlessOptions {
-    pub json: bool,
-    pub heartbeat: Duration,
-    pub refresh: Duration,
-    pub stale_limit: Duration,
-    pub exit_when: ExitWhen,
 }
 
 /// Severity order of verdicts for the exit code of several runs (worst first).
@@ -203,185 +218,24 @@ fn data_final(run: &LiveRun) -> bool {
     }
     let crashed =
         run.store.sources.iter().any(|s| s.events.iter().any(|e| e.severity == Severity::Error));
-    let v = run.verdict();
-    run.store.ended() || v == Verdict::Stale || (v == Verdict::Diverging && crashed)
-}
-
-/// A run needs no more watching under `exit_when`.
-fn is_done(run: &LiveRun, exit_when: ExitWhen) -> bool {
-    match exit_when {
-        ExitWhen::Never => false,
-        ExitWhen::Ended => data_final(run),
-        ExitWhen::Diverging => data_final(run) || run.verdict() == Verdict::Diverging,
-    }
-}
-
-/// Write a line; a closed pipe ends the loop quietly.
-fn emit(out: &mut dyn Write, line: &str) -> io::Result<()> {
-    out.write_all(line.as_bytes())?;
-    out.write_all(b"\n")?;
-    out.flush()
-}
-
-fn age(run: &LiveRun, now: SystemTime) -> Option<Duration> {
-    run.activity.iter().filter_map(|a| a.last_growth).max().and_then(|t| now.duration_since(t).ok())
-}
-
-/// The judgement as shown: `stale` applied over the judged verdict.
-fn shown(run: &LiveRun) -> Judgement {
-    let mut j = run.judgement.clone();
-    j.verdict = run.verdict();
-    j
-}
-
-/// The headless loop: apply batches, judge at most once per `refresh` per run, print on
-/// change and on the heartbeat, run actions, and exit with the worst verdict's code.
-///
-/// Blocks in `recv_timeout`; with no data it wakes about once a second to check stale runs
-/// and heartbeats.
-pub fn run_headless(
-    mut runs: Vec<LiveRun>,
-    rx: Receiver<Msg>,
-    opts: &HeadlessOptions,
-    hooks: &mut ActionHooks,
-    out: &mut dyn Write,
-) -> io::Result<i32> {
-    let mut states: Vec<HeadlessState> =
-        runs.iter().map(|_| HeadlessState::new(opts.heartbeat)).collect();
-    let mut dirty = vec![true; runs.len()];
-    let mut last_judged: Vec<Option<Instant>> = vec![None; runs.len()];
-    let mut costs: Vec<Duration> = vec![Duration::ZERO; runs.len()];
-    let mut announced_end = vec![false; runs.len()];
-    let tick = Duration::from_millis(1000).min(opts.refresh.max(Duration::from_millis(50)));
-    let result = loop {
-        // Block for the first message, then take everything already queued before judging.
-        let mut next = match rx.recv_timeout(tick) {
-            Ok(m) => Some(m),
-            Err(RecvTimeoutError::Timeout) => None,
-            Err(RecvTimeoutError::Disconnected) => break None,
-        };
-        let mut stop = None;
-        while let Some(msg) = next.take() {
-            match msg {
-                Msg::Ingest(batch) => {
-                    if let Some(run) = runs.get_mut(batch.run)
-                        && let (Some(src), Some(act)) = (
-                            run.store.sources.get_mut(batch.source),
-                            run.activity.get_mut(batch.source),
-                        )
-                    {
-                        ingest::apply(src, act, batch.items);
-                        dirty[batch.run] = true;
-                    }
-                }
-                Msg::Signal(sig) => stop = Some(128 + sig),
-                Msg::WorkerPanic(msg) => {
-                    let _ = writeln!(io::stderr(), "settle: internal error: {msg}");
-                    stop = Some(101);
-                }
-                Msg::InputClosed | Msg::Input(_) => {}
-            }
-            if stop.is_some() {
-                break;
-            }
-            next = rx.try_recv().ok();
-        }
-        if stop.is_some() {
-            break stop;
-        }
-        let now = Instant::now();
-        let wall = SystemTime::now();
-        let active = runs.iter().filter(|r| r.store.last_iteration().is_some()).count();
-        for (i, run) in runs.iter_mut().enumerate() {
-            let gap = tui::app::judge_gap(opts.refresh, costs[i], active);
-            let due = last_judged[i].is_none_or(|t| now.duration_since(t) >= gap);
-            if dirty[i] && due && run.store.last_iteration().is_some() {
-                let started = Instant::now();
-                run.judgement = judge::judge(&run.store.judge_input(), &run.criteria);
-                costs[i] = started.elapsed();
-                dirty[i] = false;
-                last_judged[i] = Some(now);
-            }
-            if run.store.last_iteration().is_none() {
-                continue;
-            }
-            let grown = age(run, wall);
-            run.stale = !run.store.ended() && grown.is_some_and(|a| a > opts.stale_limit);
-            let j = shown(run);
-            for f in hooks.observe(i, j.verdict, &run.store, data_final(run)) {
-                print_finding(out, opts, &run.store.name, &f, wall)?;
-            }
-            if let Some(reason) = states[i].should_print(&j, now) {
-                let line = if opts.json {
-                    headless::json_line(&run.store.name, &j, grown, wall, reason.event())
-                } else {
-                    headless::status_line(&run.store.name, &j, grown, wall)
-                };
-                emit(out, &line)?;
-            }
-        }
-        for (i, f) in hooks.poll() {
-            print_finding(out, opts, &runs[i].store.name, &f, wall)?;
-        }
-        for (i, run) in runs.iter().enumerate() {
-            if !announced_end[i]
-                && run.store.last_iteration().is_some()
-                && is_done(run, opts.exit_when)
-            {
-                announced_end[i] = true;
-            }
-        }
-        if !runs.is_empty() && announced_end.iter().all(|&e| e) {
-            break None;
-        }
-    };
-    let wall = SystemTime::now();
-    for (i, f) in hooks.wait(Duration::from_secs(5)) {
-        print_finding(out, opts, &runs[i].store.name, &f, wall)?;
-    }
-    for run in &mut runs {
-        if run.store.last_iteration().is_some() {
-            run.judgement = judge::judge(&run.store.judge_input(), &run.criteria);
-        }
-        let j = shown(run);
-        let line = if opts.json {
-            headless::json_line(&run.store.name, &j, age(run, wall), wall, HeadlessEvent::End)
-        } else {
-            format!("{} (final)", headless::status_line(&run.store.name, &j, age(run, wall), wall))
-        };
-        emit(out, &line)?;
-    }
-    Ok(result.unwrap_or_else(|| worst(runs.iter().map(LiveRun::verdict)).exit_code()))
-}
-
-fn print_finding(
-    out: &mut dyn Write,
-    opts: &HeadlessOptions,
-    run: &str,
-    f: &Finding,
-    now: SystemTime,
-) -> io::Result<()> {
-    if f.kind != FindingKind::Action {
-        return Ok(());
-    }
-    let line = if opts.json {
-        headless::json_action_line(run, f, now)
-    } else {
-        headless::action_line(run, f, now)
-    };
-    emit(out, &line)
+    run.store.ended() || run.stale || (run.verdict() == Verdict::Diverging && crashed)
 }
 
 /// Forward SIGTERM, SIGHUP, SIGINT and SIGQUIT to the loop as [`Msg::Signal`] (headless
-/// mode; the panels install their own handling).
+/// mode; the panels install their own handling). The first signal also arms the exit
+/// deadline, so the process ends within a second whatever the loop is doing (it prints its
+/// final lines well before); a second signal ends it at once.
 pub fn forward_signals(tx: Sender<Msg>) -> io::Result<()> {
     use signal_hook::consts::{SIGHUP, SIGINT, SIGQUIT, SIGTERM};
     let mut signals = signal_hook::iterator::Signals::new([SIGTERM, SIGHUP, SIGINT, SIGQUIT])?;
     std::thread::Builder::new().name("settle-signals".into()).spawn(move || {
+        let mut seen = false;
         for sig in signals.forever() {
-            if tx.send(Msg::Signal(sig)).is_err() {
-                break;
+            if std::mem::replace(&mut seen, true) {
+                std::process::exit(128 + sig);
             }
+            let _ = tx.send(Msg::Signal(sig));
+            tui::terminal::arm_exit_deadline(128 + sig);
         }
     })?;
     Ok(())

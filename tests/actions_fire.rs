@@ -9,8 +9,8 @@ use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
 use settle::actions::{
-    ActionConfig, ActionError, ActionRunner, Observation, OnSpec, RunFacts, TimeoutSpec,
-    load_plan_with_env,
+    ActionConfig, ActionError, ActionRunner, FileFacts, Observation, OnSpec, RunFacts, TimeoutSpec,
+    load_plan_with_env, read_config,
 };
 use settle::judge::{FindingKind, Verdict};
 
@@ -48,9 +48,15 @@ impl Case {
         vec![("PATH".into(), path), ("HOME".into(), self.path().as_os_str().to_owned())]
     }
 
+    /// Owner and mode of the config, from the descriptor its text is read through.
+    fn file(&self) -> FileFacts {
+        read_config(&self.config).expect("read config").1
+    }
+
     fn runner(&self, name: &str, actions: &[ActionConfig]) -> ActionRunner {
-        let plan = load_plan_with_env(actions, &self.config, &self.facts(name), self.env())
-            .expect("valid plan");
+        let plan =
+            load_plan_with_env(actions, &self.config, &self.file(), &self.facts(name), self.env())
+                .expect("valid plan");
         ActionRunner::new(plan)
     }
 }
@@ -303,6 +309,7 @@ fn group_writable_config_is_refused() {
     let err = load_plan_with_env(
         &[action("diverging", &["true"], 3)],
         &case.config,
+        &case.file(),
         &case.facts("r"),
         case.env(),
     )
@@ -321,13 +328,16 @@ fn group_writable_config_is_refused() {
         load_plan_with_env(
             &[action("x", &["true"], 3)],
             &case.config,
+            &case.file(),
             &case.facts("r"),
             case.env()
         )
         .is_err()
     );
     // A refusal is about actions only; no actions means no check.
-    assert!(load_plan_with_env(&[], &case.config, &case.facts("r"), case.env()).is_ok());
+    assert!(
+        load_plan_with_env(&[], &case.config, &case.file(), &case.facts("r"), case.env()).is_ok()
+    );
 }
 
 #[test]
@@ -338,6 +348,7 @@ fn foreign_owner_is_refused_when_we_can_arrange_one() {
         let err = load_plan_with_env(
             &[action("diverging", &["true"], 3)],
             &case.config,
+            &case.file(),
             &case.facts("r"),
             case.env(),
         )
@@ -368,8 +379,14 @@ fn environment_is_cleared_to_the_allow_list() {
     }
     let mut facts = case.facts("r");
     facts.job = None;
-    let plan = load_plan_with_env(&[action("diverging", &["env"], 1)], &case.config, &facts, env)
-        .expect("plan");
+    let plan = load_plan_with_env(
+        &[action("diverging", &["env"], 1)],
+        &case.config,
+        &case.file(),
+        &facts,
+        env,
+    )
+    .expect("plan");
     let mut r = ActionRunner::new(plan);
     feed(&mut r, Verdict::Diverging, 0, 1, true);
     assert_eq!(r.wait_finished(Duration::from_secs(3)).len(), 1);
@@ -469,4 +486,285 @@ fn processes_left_behind_are_killed_at_the_timeout() {
         std::thread::sleep(Duration::from_millis(20));
     }
     assert!(!alive(pid), "left-behind {pid} survived");
+}
+
+// ---------------------------------------------------------------------------------------
+// Replays: actions must act on judged data only (issue: `hold` counted records that only
+// passed through ingest while the judge was throttled, and a first bulk read fired on its
+// early segment).
+
+mod replay {
+    use std::io::Write;
+    use std::path::Path;
+    use std::sync::Arc;
+    use std::sync::mpsc::{self, Sender};
+    use std::thread;
+    use std::time::Duration;
+
+    use settle::follow::FollowConfig;
+    use settle::parser::Registry;
+    use settle::run::config;
+    use settle::tui::Msg;
+    use settle::watch::{self, ActionHooks, ExitWhen, HeadlessOptions};
+
+    /// One step of our invented solver tarn: three residuals (all `nan` when `nan`).
+    fn step(i: usize, res: f64, nan: bool) -> String {
+        let v = if nan { "nan".to_string() } else { format!("{res:.4e}") };
+        format!(
+            "[step {i:6}]  cfl 2.00e+00\n  Ux       res {v}   lin   5 sweeps\n  Uy       res {v}   \
+             lin   4 sweeps\n  p        res {v}   lin  21 sweeps\n  continuity  imbalance \
+             6.8850e-02\n  forces   drag 4.4930e-01  lift 7.0826e-02  dp 6.3645e+02\n  wall 2.14 \
+             s\n"
+        )
+    }
+
+    const BANNER: &str = "tarn 3.1.4 - incompressible RANS solver (k-omega SST)\ncase       : \
+                          replay\n--------------------------------------------------------------\n";
+
+    /// Two NaN steps, as a solver blowing up at its first iterations prints them.
+    fn nan_start() -> String {
+        format!("{BANNER}{}{}", step(1, 1.0, true), step(2, 1.0, true))
+    }
+
+    /// The restart from a checkpoint, then `n` healthy steps (residuals falling a decade
+    /// every 20 steps).
+    fn healthy_after_restart(n: usize) -> Vec<String> {
+        let mut v = vec!["restarting from checkpoint at step 0\n".to_string()];
+        v.extend((1..=n).map(|i| step(i, 10f64.powf(-(i as f64) / 20.0), false)));
+        v
+    }
+
+    /// A case directory with `settle.toml`: the log and one action on `diverging` with
+    /// hold = 3 (dry run: its audit line says what would run).
+    fn case(dir: &Path) {
+        std::fs::write(
+            dir.join("settle.toml"),
+            "[[source]]\npath = \"tarn.log\"\nparser = \"tarn\"\n\n[[action]]\non = \
+             \"diverging\"\ncommand = [\"scancel\", \"{verdict}\", \"{iteration}\"]\nhold = 3\n",
+        )
+        .expect("config");
+        use std::os::unix::fs::PermissionsExt;
+        std::fs::set_permissions(dir.join("settle.toml"), std::fs::Permissions::from_mode(0o644))
+            .expect("chmod");
+    }
+
+    fn append(path: &Path, text: &str) {
+        let mut f =
+            std::fs::OpenOptions::new().create(true).append(true).open(path).expect("open log");
+        f.write_all(text.as_bytes()).expect("append");
+    }
+
+    /// Run the headless watcher on `dir` in a thread; `feed` writes the log and calls its
+    /// argument to have a real follower and parser read what is new and send it, one batch
+    /// per progress mark of a large read with the given pause after each (as the ingest
+    /// thread does), then the rest. Returns everything the watcher printed.
+    fn replay(
+        dir: &Path,
+        follow: FollowConfig,
+        feed: impl FnOnce(&mut dyn FnMut(Duration)),
+    ) -> String {
+        let spec = config::load(&dir.join("settle.toml")).expect("config");
+        let specs = vec![spec];
+        let registry = Arc::new(Registry::builtin());
+        let (runs, mut sources) = watch::prepare(&specs, &registry, &follow).expect("prepare");
+        let mut hooks = ActionHooks::new(&specs, false);
+        let (tx, rx) = mpsc::channel::<Msg>();
+        let opts = HeadlessOptions {
+            json: false,
+            heartbeat: Duration::from_secs(60),
+            refresh: Duration::from_secs(1),
+            stale_limit: Duration::from_secs(300),
+            exit_when: ExitWhen::Never,
+        };
+        let watcher = thread::spawn(move || {
+            let mut out = Vec::new();
+            let code = watch::run_headless(runs, rx, &opts, &mut hooks, &mut out);
+            (code.expect("headless loop"), String::from_utf8_lossy(&out).into_owned())
+        });
+        let send = |tx: &Sender<Msg>, items| {
+            tx.send(Msg::Ingest(settle::run::ingest::IngestBatch { run: 0, source: 0, items }))
+                .expect("watcher listening");
+        };
+        let reader = &mut sources[0].reader;
+        let mut read = |pause: Duration| {
+            let rest = reader
+                .read_chunked(false, &mut |chunk| {
+                    send(&tx, chunk);
+                    thread::sleep(pause);
+                })
+                .expect("read");
+            send(&tx, rest);
+        };
+        feed(&mut read);
+        drop(tx);
+        watcher.join().expect("watcher thread").1
+    }
+
+    /// Two NaN records are judged `diverging`; then a restart and 50 healthy records arrive
+    /// within one refresh interval (the judge is throttled). The next judgement says
+    /// `converging` (as `settle check` does on the same file): nothing may fire.
+    #[test]
+    fn nan_start_then_restart_and_healthy_records_fire_nothing() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        case(dir.path());
+        let log = dir.path().join("tarn.log");
+        let out = replay(dir.path(), FollowConfig::default(), |read| {
+            append(&log, &nan_start());
+            read(Duration::ZERO);
+            // The first judgement (diverging) happens at once.
+            thread::sleep(Duration::from_millis(300));
+            for piece in healthy_after_restart(50).chunks(5) {
+                append(&log, &piece.concat());
+                read(Duration::ZERO);
+                thread::sleep(Duration::from_millis(30));
+            }
+            // Let the throttled judge see the new data.
+            thread::sleep(Duration::from_millis(1500));
+        });
+        assert!(out.lines().next().is_some_and(|l| l.contains(" diverging")), "{out}");
+        assert!(!out.contains("action |"), "an action fired on a stale verdict:\n{out}");
+        let last = out.lines().last().expect("final line");
+        assert!(last.contains(" converging") && last.ends_with("(final)"), "{out}");
+    }
+
+    /// The first read of a large existing log whose early segment has NaNs: the log is
+    /// already complete (2000 NaN steps, restart, 1500 healthy steps) when watching starts,
+    /// and is read in chunks (progress marks every 32 KiB here, 64 MiB by default, paced
+    /// so that the NaN segment alone spans more than one refresh interval). Judgements of
+    /// the early chunks say `diverging`, more than once; nothing may fire before the whole
+    /// file is read, and the whole file has converged.
+    #[test]
+    fn first_bulk_read_with_an_early_nan_segment_fires_nothing() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        case(dir.path());
+        let log = dir.path().join("tarn.log");
+        append(&log, BANNER);
+        append(&log, &(1..=2000).map(|i| step(i, 1.0, true)).collect::<String>());
+        append(&log, &healthy_after_restart(1500).concat());
+        let follow =
+            FollowConfig { progress_every: 32 * 1024, read_chunk: 16 * 1024, ..Default::default() };
+        let out = replay(dir.path(), follow, |read| {
+            // About 27 chunks over 3.3 s: the judge sees several partial prefixes.
+            read(Duration::from_millis(120));
+            thread::sleep(Duration::from_millis(1500));
+        });
+        assert!(!out.contains("action |"), "an action fired during the first read:\n{out}");
+        let last = out.lines().last().expect("final line");
+        assert!(last.contains(" converged since") && last.ends_with("(final)"), "{out}");
+    }
+
+    fn records(n: i64, from: i64) -> Vec<settle::run::ingest::IngestItem> {
+        use settle::record::{Output, Record, Role, SeriesInfo};
+        use settle::run::ingest::IngestItem;
+        let mut items = Vec::new();
+        if from == 1 {
+            items.push(IngestItem::Output(Output::Series(SeriesInfo {
+                id: 0,
+                name: "p".into(),
+                role: Role::Residual,
+            })));
+        }
+        for it in from..from + n {
+            items.push(IngestItem::Output(Output::Record(Record {
+                iteration: Some(it),
+                values: vec![(0, 1.0)],
+                ..Default::default()
+            })));
+        }
+        items.push(IngestItem::Grew(std::time::SystemTime::now()));
+        items
+    }
+
+    /// The panels call the hooks when a run turns stale without a new judgement. A verdict
+    /// judged before the latest records arrived must not fire then, even though `stale`
+    /// waives the hold; once a judgement has seen every record it may.
+    #[test]
+    fn a_judgement_older_than_the_data_never_fires() {
+        use settle::judge::{Judgement, Verdict};
+        use settle::run::ingest::apply;
+        let dir = tempfile::tempdir().expect("tempdir");
+        case(dir.path());
+        let specs = vec![config::load(&dir.path().join("settle.toml")).expect("config")];
+        let registry = Arc::new(Registry::builtin());
+        let (mut runs, _) =
+            watch::prepare(&specs, &registry, &FollowConfig::default()).expect("prepare");
+        let mut hooks = ActionHooks::new(&specs, false);
+        let run = &mut runs[0];
+        let ingest = |run: &mut settle::tui::LiveRun, items| {
+            apply(&mut run.store.sources[0], &mut run.activity[0], items)
+        };
+        ingest(run, records(2, 1));
+        run.set_judgement(Judgement { verdict: Verdict::Diverging, ..Default::default() });
+        assert!(hooks.observe(0, run).is_empty(), "first sight: 1 of 3");
+        // 50 records arrive; no judgement yet; then the run turns stale.
+        ingest(run, records(50, 3));
+        run.stale = true;
+        assert!(!run.judgement_current());
+        assert!(hooks.observe(0, run).is_empty(), "fired on a judgement of 2 of 52 records");
+        // Judged now (still diverging: stale does not override it) and stale: final data.
+        run.set_judgement(Judgement { verdict: Verdict::Diverging, ..Default::default() });
+        let f = hooks.observe(0, run);
+        assert_eq!(f.len(), 1, "{f:?}");
+        assert!(f[0].detail.starts_with("would run scancel diverging"), "{}", f[0].detail);
+    }
+}
+
+/// The trust check races a file swap (issue: a swap between reading the config by name and
+/// checking it by name made settle run the other file's command in 3 of 60 starts). A
+/// thread swaps `settle.toml` between our private file (command `echo good`) and one that
+/// others may write (mode 0666, command `echo evil`: it stands for another user's file and
+/// must always be refused), by atomic renames of hard links, while settle starts 2000 times
+/// as `watch` does (`config::load`, then the actions' trust check). Both files must have
+/// been seen, and the other command never planned.
+#[test]
+fn a_config_swapped_while_loading_never_plans_the_other_command() {
+    use settle::run::config;
+    use std::sync::Arc;
+    use std::sync::atomic::{AtomicBool, Ordering};
+    let case = Case::new();
+    let d = case.path().to_path_buf();
+    let body = |word: &str| {
+        format!(
+            "[[source]]\npath = \"tarn.log\"\n\n[[action]]\non = \"diverging\"\ncommand = \
+             [\"echo\", \"{word}\"]\n"
+        )
+    };
+    fs::write(d.join("good"), body("good")).expect("write");
+    fs::set_permissions(d.join("good"), fs::Permissions::from_mode(0o644)).expect("chmod");
+    fs::write(d.join("evil"), body("evil")).expect("write");
+    fs::set_permissions(d.join("evil"), fs::Permissions::from_mode(0o666)).expect("chmod");
+    fs::remove_file(&case.config).expect("rm");
+    fs::hard_link(d.join("good"), &case.config).expect("link");
+    let stop = Arc::new(AtomicBool::new(false));
+    let (flag, dir) = (stop.clone(), d.clone());
+    let swapper = std::thread::spawn(move || {
+        let mut swaps = 0u64;
+        while !flag.load(Ordering::SeqCst) {
+            for f in ["evil", "good"] {
+                let _ = fs::remove_file(dir.join("tmp"));
+                fs::hard_link(dir.join(f), dir.join("tmp")).expect("link");
+                fs::rename(dir.join("tmp"), dir.join("settle.toml")).expect("rename");
+            }
+            swaps += 1;
+        }
+        swaps
+    });
+    let (mut wrong, mut good, mut refused) = (0, 0, 0);
+    for _ in 0..2000 {
+        let spec = config::load(&case.config).expect("always a whole file under the name");
+        let hooks = settle::watch::ActionHooks::new(&[spec], false);
+        let plan = hooks.plan_summary(0);
+        if plan.iter().any(|l| l.contains("evil")) {
+            wrong += 1;
+        } else if plan.iter().any(|l| l.contains("echo good")) {
+            good += 1;
+        } else {
+            refused += 1;
+        }
+    }
+    stop.store(true, Ordering::SeqCst);
+    let swaps = swapper.join().expect("swapper");
+    eprintln!("{swaps} swaps; {good} planned ours, {refused} refused, {wrong} planned the other");
+    assert_eq!(wrong, 0, "the other file's command was planned {wrong} times");
+    assert!(good > 0 && refused > 0, "the harness saw both files: {good} ours, {refused} refused");
 }

@@ -37,6 +37,7 @@ fn cfg() -> FollowConfig {
         poll_interval: Duration::from_millis(20),
         name_check_interval: Duration::from_millis(50),
         rotated_grace: Duration::from_millis(200),
+        rotated_quiet: Duration::from_millis(100),
         nul_grace: Duration::from_millis(300),
         ..FollowConfig::default()
     }
@@ -806,18 +807,41 @@ fn glob_gaining_a_file() {
     assert_eq!(h.f.stats().files, 2);
 }
 
-/// Existing restart files are read in natural order (`.2` before `.10`) in one poll, as a
-/// one-shot `check` needs.
+/// Existing restart files are read in natural order (`.2` before `.10`) in one poll when
+/// their last writes are older than the rotation grace (a watch started on a run that
+/// restarted before), and at once by a one-shot read whatever their age.
 #[test]
 fn glob_existing_files_in_natural_order() {
     let dir = tempfile::tempdir().expect("temp dir");
+    let old = std::time::SystemTime::now() - Duration::from_secs(3600);
     for n in ["10", "2", "1"] {
-        fs::write(dir.path().join(format!("run.log.{n}")), format!("from {n}\n")).expect("write");
+        let p = dir.path().join(format!("run.log.{n}"));
+        fs::write(&p, format!("from {n}\n")).expect("write");
+        File::options().write(true).open(&p).expect("open").set_modified(old).expect("mtime");
     }
     fs::write(dir.path().join("other.log"), b"not me\n").expect("write");
     let mut h = H::new(dir.path().join("run.log.*"), cfg());
     h.poll();
     h.finish();
+    let path = |n: &str| dir.path().join(format!("run.log.{n}"));
+    let want = [
+        l("from 1"),
+        It::R(SegmentReason::NewFile { path: path("2") }),
+        l("from 2"),
+        It::R(SegmentReason::NewFile { path: path("10") }),
+        l("from 10"),
+    ];
+    assert_eq!(h.flow(), want);
+    // Freshly written files: a live poll waits for them to go quiet; a one-shot read does not.
+    for n in ["10", "2", "1"] {
+        fs::write(dir.path().join(format!("run.log.{n}")), format!("from {n}\n")).expect("write");
+    }
+    let mut h = H::new(dir.path().join("run.log.*"), cfg());
+    h.poll();
+    assert_eq!(h.flow(), [l("from 1")]);
+    let mut h = H::new(dir.path().join("run.log.*"), cfg());
+    let items = &mut h.items;
+    h.f.read_to_end(&mut |it| items.push(own(it)));
     let path = |n: &str| dir.path().join(format!("run.log.{n}"));
     assert_eq!(
         h.flow(),
@@ -940,12 +964,13 @@ fn waker_wakes_on_a_write() {
     assert!(waker.take_names_dirty());
 }
 
-/// A one-shot read of many restart files: all of them, in natural order, with a restart
-/// before each later file and the final unterminated line flushed.
+/// A one-shot read of many restart files (more than one name check queues): all of them,
+/// in natural order, with a restart before each later file and the final unterminated line
+/// flushed.
 #[test]
 fn read_to_end_over_many_restart_files() {
     let dir = tempfile::tempdir().expect("temp dir");
-    for n in 1..=60 {
+    for n in 1..=200 {
         fs::write(dir.path().join(format!("run.log.{n}")), format!("part {n}\nend {n}"))
             .expect("write");
     }
@@ -953,7 +978,7 @@ fn read_to_end_over_many_restart_files() {
     let items = &mut h.items;
     let total = h.f.read_to_end(&mut |it| items.push(own(it)));
     let mut want = Vec::new();
-    for n in 1..=60 {
+    for n in 1..=200 {
         if n > 1 {
             let path = dir.path().join(format!("run.log.{n}"));
             want.push(It::R(SegmentReason::NewFile { path }));
@@ -962,6 +987,205 @@ fn read_to_end_over_many_restart_files() {
         want.push(l(&format!("end {n}")));
     }
     assert_eq!(h.flow(), want);
-    assert_eq!(total.lines, 120);
-    assert_eq!(h.f.stats().files, 60);
+    assert_eq!(total.lines, 400);
+    assert_eq!(h.f.stats().files, 200);
+}
+
+// ---------------------------------------------------------------------------------------
+// Rotation harnesses: files rotated or re-created faster than the old one is drained
+// (`tail -F` follows every one of these by name; the follower must lose and double nothing).
+// Times are scaled to a 1 s rotation grace (10 s by default): "3 rotations within 3 s"
+// becomes 3 within 0.3 s, "6 s apart" becomes 0.6 s apart.
+
+/// How the writer moves to a new file.
+#[derive(Clone, Copy, PartialEq)]
+enum Rotation {
+    /// `mv log log.N`, then a new `log` (the writer reopens it).
+    Rename,
+    /// `rm log`, then a new `log` at once.
+    Delete,
+}
+
+/// What a harness counted.
+#[derive(Debug)]
+struct Tally {
+    written: usize,
+    lost: usize,
+    doubled: usize,
+    out_of_order: usize,
+    notes: Vec<String>,
+}
+
+/// A writer puts `per_file` numbered lines into `log` over about `file_time`, then rotates,
+/// `files` times in all; a follower polls meanwhile (name checks every 50 ms, as directory
+/// events bring them forward in `watch`). Returns what was lost, doubled or out of order.
+fn rotation_harness(files: usize, per_file: usize, file_time: Duration, how: Rotation) -> Tally {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let log = dir.path().join("run.log");
+    File::create(&log).expect("create");
+    let config = FollowConfig { rotated_grace: Duration::from_secs(1), ..cfg() };
+    let mut h = H::new(&log, config);
+    h.poll();
+    let done = Arc::new(AtomicBool::new(false));
+    let (flag, path) = (done.clone(), log.clone());
+    let writer = thread::spawn(move || {
+        let bursts = 10;
+        for f in 0..files {
+            let mut w = OpenOptions::new().create(true).append(true).open(&path).expect("open");
+            for b in 0..bursts {
+                let mut text = String::new();
+                for i in b * per_file / bursts..(b + 1) * per_file / bursts {
+                    text.push_str(&format!("f{f} {i}\n"));
+                }
+                w.write_all(text.as_bytes()).expect("write");
+                thread::sleep(file_time / bursts as u32);
+            }
+            drop(w);
+            if f + 1 < files {
+                match how {
+                    Rotation::Rename => {
+                        fs::rename(&path, path.with_extension(format!("log.{}", f + 1)))
+                            .expect("mv")
+                    }
+                    Rotation::Delete => fs::remove_file(&path).expect("rm"),
+                }
+            }
+        }
+        flag.store(true, Ordering::SeqCst);
+    });
+    let want: Vec<String> =
+        (0..files).flat_map(|f| (0..per_file).map(move |i| format!("f{f} {i}"))).collect();
+    let start = Instant::now();
+    while start.elapsed() < Duration::from_secs(20) {
+        h.poll();
+        if done.load(Ordering::SeqCst) && h.lines().len() >= want.len() {
+            break;
+        }
+        thread::sleep(Duration::from_millis(20));
+    }
+    writer.join().expect("writer");
+    // A little longer, in case anything is still to come (it must not: nothing doubles).
+    for _ in 0..5 {
+        h.poll();
+        thread::sleep(Duration::from_millis(20));
+    }
+    tally(&want, &h.lines(), h.notes())
+}
+
+fn tally(want: &[String], got: &[String], notes: Vec<String>) -> Tally {
+    use std::collections::HashMap;
+    let mut seen: HashMap<&str, usize> = HashMap::new();
+    for g in got {
+        *seen.entry(g.as_str()).or_default() += 1;
+    }
+    let lost = want.iter().filter(|w| !seen.contains_key(w.as_str())).count();
+    let doubled = seen.values().map(|&n| n.saturating_sub(1)).sum();
+    let rank: HashMap<&str, usize> =
+        want.iter().enumerate().map(|(i, w)| (w.as_str(), i)).collect();
+    let order: Vec<usize> = got.iter().filter_map(|g| rank.get(g.as_str()).copied()).collect();
+    let out_of_order = order.windows(2).filter(|w| w[1] < w[0]).count();
+    Tally { written: want.len(), lost, doubled, out_of_order, notes }
+}
+
+fn assert_clean(name: &str, t: &Tally) {
+    eprintln!(
+        "{name}: {} lines written, {} lost, {} doubled, {} out of order",
+        t.written, t.lost, t.doubled, t.out_of_order
+    );
+    assert!(
+        t.lost == 0 && t.doubled == 0 && t.out_of_order == 0,
+        "{name}: {t:?}; notes:\n{}",
+        t.notes.join("\n")
+    );
+}
+
+/// Three rotations within 0.3 s (the "3 within 3 s" at a tenth of the grace).
+#[test]
+fn rotations_faster_than_the_grace_lose_nothing() {
+    let t = rotation_harness(4, 2000, Duration::from_millis(100), Rotation::Rename);
+    assert_clean("3 rotations within 0.3 s", &t);
+}
+
+/// Rotations 0.6 s apart (the "6 s apart" with a 10 s grace).
+#[test]
+fn rotations_inside_the_grace_lose_nothing() {
+    let t = rotation_harness(4, 800, Duration::from_millis(600), Rotation::Rename);
+    assert_clean("rotations 0.6 s apart", &t);
+}
+
+/// Delete and re-create with no gap, eight times.
+#[test]
+fn delete_and_recreate_without_a_gap_loses_nothing() {
+    let t = rotation_harness(8, 1000, Duration::from_millis(150), Rotation::Delete);
+    assert_clean("delete and re-create, no gap", &t);
+}
+
+/// A restart glob: `run.log.2` appears (with its first lines) while `run.log.1` is still
+/// being finished; 100 lines are appended to `run.log.1` 160 ms later (several name checks
+/// after `run.log.2` was seen, within the rotation quiet time). All of them are read,
+/// before the restart into `run.log.2`.
+#[test]
+fn glob_lines_appended_after_the_next_file_appeared_are_kept() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let one = dir.path().join("run.log.1");
+    let two = dir.path().join("run.log.2");
+    let first: Vec<String> = numbered("one", 0..100);
+    fs::write(&one, text_of(&first)).expect("write");
+    let config = FollowConfig {
+        rotated_grace: Duration::from_secs(1),
+        rotated_quiet: Duration::from_millis(500),
+        ..cfg()
+    };
+    let mut h = H::new(dir.path().join("run.log.*"), config);
+    h.poll();
+    fs::write(&two, text_of(&numbered("two", 0..50))).expect("write");
+    // Several name checks see `run.log.2` before the late lines come.
+    for _ in 0..8 {
+        h.poll();
+        thread::sleep(Duration::from_millis(20));
+    }
+    append(&one, &text_of(&numbered("one", 100..200)));
+    assert!(h.poll_until(Duration::from_secs(3), |h| h.has_line("two 49")));
+    append(&two, &text_of(&numbered("two", 50..100)));
+    assert!(h.poll_until(Duration::from_secs(3), |h| h.has_line("two 99")));
+    let mut want: Vec<It> = numbered("one", 0..200).iter().map(|s| l(s)).collect();
+    want.push(It::R(SegmentReason::NewFile { path: two.clone() }));
+    want.extend(numbered("two", 0..100).iter().map(|s| l(s)));
+    let t =
+        tally(&[numbered("one", 0..200), numbered("two", 0..100)].concat(), &h.lines(), h.notes());
+    assert_clean("glob, lines appended after the next file appeared", &t);
+    assert!(h.flow() == want, "the restart must come after every line of run.log.1");
+}
+
+/// Lines written to a rotated file after the follower moved on (both writers active, the
+/// old one after a pause longer than the quiet time) cannot be placed in order any more:
+/// they are not read, and a note says so with a line estimate.
+#[test]
+fn late_lines_in_a_left_file_are_noted_with_an_estimate() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let p = dir.path().join("run.log");
+    let mut old = OpenOptions::new().create(true).append(true).open(&p).expect("open");
+    old.write_all(&text_of(&numbered("old", 0..10))).expect("write");
+    let mut h = H::new(&p, cfg());
+    h.poll();
+    fs::rename(&p, dir.path().join("run.log.1")).expect("mv");
+    fs::write(&p, text_of(&numbered("new", 0..5))).expect("new file");
+    assert!(h.poll_until(Duration::from_secs(2), |h| h.has_line("new 4")));
+    // The old writer wakes up: 20 lines of 7 bytes (140 bytes; the estimate uses the 6
+    // bytes per line read so far: 24 lines).
+    old.write_all(&text_of(&numbered("old", 10..30))).expect("write");
+    assert!(h.poll_until(Duration::from_secs(2), |h| {
+        h.notes().iter().any(|n| n.contains("after settle had moved on"))
+    }));
+    let note = h.notes().into_iter().find(|n| n.contains("after settle had moved on")).unwrap();
+    assert!(
+        note.starts_with(&format!("the previous file named {} grew by 140 bytes", p.display())),
+        "{note}"
+    );
+    assert!(note.contains("(about 24 lines) after settle had moved on to the new one"), "{note}");
+    assert!(note.contains("those lines are not read"), "{note}");
+    let mut want: Vec<It> = numbered("old", 0..10).iter().map(|s| l(s)).collect();
+    want.push(It::R(SegmentReason::Replaced));
+    want.extend(numbered("new", 0..5).iter().map(|s| l(s)));
+    assert_eq!(h.flow(), want);
 }

@@ -245,3 +245,228 @@ fn panels_under_a_pty_show_the_verdict_change() {
     // The alternate screen was left on exit.
     assert!(screen.contains("\x1b[?1049l"), "alternate screen left");
 }
+
+// ---------------------------------------------------------------------------------------
+// Headless watching never fails silently: every source state is a line with its reason,
+// heartbeats go on, `--exit-when` ends on them with exit code 16, and a signal never
+// prints a verdict for a run that has no records.
+
+/// Start `settle watch --headless ARGS`, let it run until it exits or `limit` passes (then
+/// SIGTERM it), and return its exit code, output and how long it ran.
+fn headless_run(args: &[&str], limit: Duration) -> (Option<i32>, String, Duration) {
+    let mut child = Command::new(BIN)
+        .args(["watch", "--headless", "--poll", "0.1", "--refresh", "0.2"])
+        .args(args)
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let start = Instant::now();
+    let status = loop {
+        if let Some(st) = child.try_wait().unwrap() {
+            break Some(st);
+        }
+        if start.elapsed() > limit {
+            break None;
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    let status = status.unwrap_or_else(|| {
+        let pid = child.id().to_string();
+        let _ = Command::new("kill").args(["-TERM", &pid]).status();
+        let until = Instant::now() + Duration::from_secs(3);
+        loop {
+            if let Some(st) = child.try_wait().unwrap() {
+                break st;
+            }
+            if Instant::now() > until {
+                let _ = child.kill();
+                break child.wait().unwrap();
+            }
+            std::thread::sleep(Duration::from_millis(20));
+        }
+    });
+    let mut text = String::new();
+    child.stdout.take().unwrap().read_to_string(&mut text).unwrap();
+    (status.code(), text, start.elapsed())
+}
+
+#[test]
+fn a_missing_file_is_a_waiting_line_then_stale_and_ends_with_16() {
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("nonexist.log");
+    let (code, text, took) = headless_run(
+        &["--stale", "2s", "--heartbeat", "0.5", log.to_str().unwrap()],
+        Duration::from_secs(8),
+    );
+    let lines: Vec<&str> = text.lines().collect();
+    let first = lines.first().copied().unwrap_or_default();
+    assert!(
+        first.contains(" waiting | no records | why: waiting for ")
+            && first.contains("nonexist.log to appear"),
+        "{text}"
+    );
+    // Heartbeats while waiting (every 0.5 s for 2 s).
+    assert!(lines.iter().filter(|l| l.contains(" waiting | ")).count() >= 3, "{text}");
+    assert!(
+        lines.iter().any(|l| l.contains(" stale | no records | why: no record for ")),
+        "{text}"
+    );
+    let last = lines.last().copied().unwrap_or_default();
+    assert!(last.contains(" stale | ") && last.ends_with("(final)"), "{text}");
+    assert!(!text.contains("converging"), "no verdict for a run without records: {text}");
+    assert_eq!(code, Some(16), "{text}");
+    assert!(took < Duration::from_secs(5), "took {took:?}");
+}
+
+#[test]
+fn an_unrecognised_file_is_a_no_parser_line_and_ends_with_16() {
+    let dir = tempfile::tempdir().unwrap();
+    // Small: no parser yet, reading goes on (JSON lines this time).
+    let small = dir.path().join("notes.txt");
+    std::fs::write(&small, "hello\nworld\n").unwrap();
+    let (code, text, _) =
+        headless_run(&["--json", "--stale", "1h", small.to_str().unwrap()], Duration::from_secs(2));
+    let lines = json_lines(&text);
+    assert_eq!(lines[0]["state"], "no-parser", "{text}");
+    assert!(lines[0]["detail"].as_str().unwrap().contains("no parser definition recognises"));
+    assert!(lines.iter().all(|l| l.get("verdict").is_none()), "{text}");
+    assert_eq!(lines.last().unwrap()["event"], "end", "{text}");
+    assert_eq!(code, Some(143), "ended by SIGTERM: {text}");
+    // Over 64 KiB of text nobody recognises: the source is given up, the watch ends.
+    let big = dir.path().join("prose.txt");
+    let para = "The quick brown fox jumps over the lazy dog again and again.\n";
+    std::fs::write(&big, para.repeat(70 * 1024 / para.len())).unwrap();
+    let (code, text, took) = headless_run(&[big.to_str().unwrap()], Duration::from_secs(8));
+    assert!(text.contains(" no-parser | no records | why: stopped reading: "), "{text}");
+    assert!(text.lines().last().unwrap_or_default().ends_with("(final)"), "{text}");
+    assert_eq!(code, Some(16), "{text}");
+    assert!(took < Duration::from_secs(5), "took {took:?}");
+}
+
+/// A FIFO where the log should be cannot be followed (permissions would do too, but not
+/// for root): an `unreadable` line with the reason, and reading is retried.
+#[test]
+fn an_unreadable_file_is_an_unreadable_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("tarn.log");
+    let made = Command::new("mkfifo").arg(&log).status().expect("mkfifo (coreutils)");
+    assert!(made.success());
+    let (_, text, _) =
+        headless_run(&["--stale", "1h", log.to_str().unwrap()], Duration::from_millis(1500));
+    let first = text.lines().next().unwrap_or_default();
+    assert!(first.contains(" unreadable | no records | why: cannot read "), "{text}");
+    assert!(first.contains("tarn.log: not a regular file; retrying"), "{text}");
+    assert!(!text.contains("converging"), "{text}");
+}
+
+#[test]
+fn sigterm_prints_the_state_not_a_made_up_verdict_within_a_second() {
+    let dir = tempfile::tempdir().unwrap();
+    let log = dir.path().join("nonexist.log");
+    let mut child = Command::new(BIN)
+        .args(["watch", "--headless", "--poll", "0.1", "--stale", "1h"])
+        .arg(&log)
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut out = child.stdout.take().unwrap();
+    let (tx, rx) = std::sync::mpsc::channel();
+    let reader = std::thread::spawn(move || {
+        let mut text = String::new();
+        let mut byte = [0u8; 1];
+        while let Ok(1) = out.read(&mut byte) {
+            text.push(byte[0] as char);
+            if byte[0] == b'\n' {
+                let _ = tx.send(());
+            }
+        }
+        text
+    });
+    let pid = child.id().to_string();
+    if rx.recv_timeout(Duration::from_secs(3)).is_err() {
+        let _ = child.kill();
+        let _ = child.wait();
+        panic!("no line within 3 s: {}", reader.join().unwrap());
+    }
+    let sent = Instant::now();
+    Command::new("kill").args(["-TERM", &pid]).status().unwrap();
+    let status = loop {
+        if let Some(st) = child.try_wait().unwrap() {
+            break st;
+        }
+        if sent.elapsed() > Duration::from_secs(5) {
+            let _ = child.kill();
+            panic!("SIGTERM ignored");
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    };
+    let took = sent.elapsed();
+    let text = reader.join().unwrap();
+    assert_eq!(status.code(), Some(143), "{text}");
+    assert!(took < Duration::from_secs(1), "SIGTERM to exit: {took:?}");
+    let last = text.lines().last().unwrap_or_default();
+    assert!(last.contains(" waiting | no records | why: waiting for "), "{text}");
+    assert!(last.ends_with("(final)"), "{text}");
+    assert!(!text.contains("converging"), "{text}");
+}
+
+/// An error names its cause once (issue: `not UTF-8 text (byte 47): not UTF-8 text (byte
+/// 47)`, `os error 2 … os error 2`), whichever error type carried it.
+#[test]
+fn errors_name_their_cause_once() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("settle.toml"), b"name = \"x\xff\"\n").unwrap();
+    let o = Command::new(BIN).arg("watch").arg(dir.path()).output().unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(1));
+    assert_eq!(
+        err.trim_end(),
+        format!(
+            "settle: cannot read run config {}: not UTF-8 text (byte 9)",
+            dir.path().join("settle.toml").display()
+        )
+    );
+    let missing = dir.path().join("no-such-dir");
+    let o = Command::new(BIN).arg("--parsers").arg(&missing).args(["watch", "x.log"]).output();
+    let err = String::from_utf8_lossy(&o.unwrap().stderr).into_owned();
+    assert_eq!(err.matches("os error 2").count(), 1, "{err}");
+    assert!(err.starts_with("settle: loading parser definitions: "), "{err}");
+}
+
+/// Checklist item 23: `settle watch --headless … | head -1` ends quietly when the reader
+/// goes away: exit code 0, nothing on stderr (no EPIPE panic).
+#[test]
+fn a_closed_pipe_ends_headless_quietly() {
+    let s = samples();
+    let mut child = Command::new(BIN)
+        .args(["watch", "--headless", "--poll", "0.1", "--heartbeat", "0.1", "--exit-when"])
+        .args(["never"])
+        .arg(s.join("duct-bend-07"))
+        .stdin(Stdio::null())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut out = child.stdout.take().unwrap();
+    let mut first = [0u8; 64];
+    let n = out.read(&mut first).unwrap();
+    assert!(n > 0);
+    drop(out);
+    let start = Instant::now();
+    let status = loop {
+        if let Some(st) = child.try_wait().unwrap() {
+            break st;
+        }
+        if start.elapsed() > Duration::from_secs(5) {
+            let _ = child.kill();
+            panic!("still running with its reader gone");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    let mut err = String::new();
+    child.stderr.take().unwrap().read_to_string(&mut err).unwrap();
+    assert_eq!(status.code(), Some(0), "{err}");
+    assert!(err.is_empty(), "{err}");
+}

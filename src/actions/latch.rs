@@ -1,10 +1,12 @@
 //! When an action fires: the hold count and the once-per-transition latch (pure state).
 //!
-//! * **Hold.** The verdict must be in the action's `on` set for `hold` consecutive *new
+//! * **Hold.** The verdict must be in the action's `on` set for `hold` consecutive *judged
 //!   records*. The judgement that first shows the verdict counts as one record (we cannot
 //!   know where inside its batch the change happened); each later judgement adds the number
-//!   of records that arrived since the previous one. A judgement with no new records adds
-//!   nothing, so re-judging the same data never fires anything.
+//!   of records it saw beyond the previous one. A judgement with no new records adds
+//!   nothing, so re-judging the same data never fires anything. Records that were ingested
+//!   but not judged yet never count: the caller passes the record count the judgement saw,
+//!   and marks a judgement older than the data as pending.
 //! * **Final data waives the hold.** When no further records can come (the solver's
 //!   end-of-run mark, a log stale past the stale limit, `check` at end of file, or the
 //!   verdict `stale` itself) the hold could never be reached, so the verdict in hand
@@ -12,8 +14,10 @@
 //! * **Latch.** An action fires at most once while the verdict stays in its `on` set. It
 //!   re-arms only when a judgement shows a verdict outside the set; coming back then needs
 //!   the full hold again, so a flapping verdict cannot fire on every flap.
-//! * **Re-reading.** While a rotated or truncated file is re-read, judgements neither count
-//!   nor fire nor re-arm (RELIABILITY §6: never fire while re-reading a rotated file).
+//! * **Pending.** While a large read is in progress (the first read of an existing log, a
+//!   re-read from the start), or when records arrived that the judgement has not seen,
+//!   judgements neither count nor fire nor re-arm (RELIABILITY §6: never fire while
+//!   re-reading a rotated file).
 //! * A record count going backwards (the store was rebuilt) restarts the hold at one.
 
 /// Hold and latch state of one action.
@@ -37,9 +41,9 @@ impl Latch {
         inside: bool,
         records_seen: u64,
         data_final: bool,
-        rereading: bool,
+        pending: bool,
     ) -> bool {
-        if rereading {
+        if pending {
             self.last_records = records_seen;
             return false;
         }
@@ -122,7 +126,7 @@ mod tests {
     }
 
     #[test]
-    fn rereading_freezes_everything() {
+    fn pending_freezes_everything() {
         let mut l = Latch::new(2);
         assert!(!l.step(true, 1, false, false));
         // Records during the re-read neither count nor fire, and leaving does not re-arm.

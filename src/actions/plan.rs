@@ -11,8 +11,12 @@ use std::os::unix::ffi::{OsStrExt, OsStringExt};
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
+mod confine;
+
+use confine::CaseDirs;
+
 use super::config::ActionConfig;
-use super::trust::check_config_file;
+use super::trust::{FileFacts, check_case_dir, check_facts};
 use super::{ActionError, ENV_CAP};
 use crate::judge::Verdict;
 
@@ -21,9 +25,10 @@ use crate::judge::Verdict;
 pub struct RunFacts {
     /// Run name (`{run}`, `SETTLE_RUN`).
     pub name: String,
-    /// The run's directory: the command's working directory.
+    /// The run's directory: the command's working directory (made absolute).
     pub dir: PathBuf,
-    /// Paths of the run's followed files (`SETTLE_SOURCES`).
+    /// Paths of the run's followed files (`SETTLE_SOURCES`, made absolute: the command runs
+    /// in the run's directory, not in settle's).
     pub sources: Vec<PathBuf>,
     /// Scheduler job id from the run config's `job` key. When `None`, the settle process's
     /// own `SLURM_JOB_ID`, `PBS_JOBID` or `LSB_JOBID` is used (first one set).
@@ -97,33 +102,46 @@ pub(crate) struct Invocation {
 /// Validate `actions` from `config_path` for `run`, using the settle process's environment
 /// for the inherited variables and the job-id fallback.
 ///
-/// An empty list gives an empty plan without looking at the file. Otherwise the file must
-/// pass the ownership and permission check first; any error disables all actions of the run
-/// (turn it into an audit entry with [`ActionError::finding`]) and watching goes on.
+/// `facts` describe the file the actions were read from, taken from the descriptor its
+/// text was read through ([`super::read_config`]); the file is never looked at by name
+/// again. An empty list gives an empty plan without any check. Otherwise the file must pass
+/// the ownership and permission check, the case directories (the config's and the run's)
+/// must be safe from other users, and no program may resolve inside the case directory
+/// through a relative path or a relative or empty `PATH` entry. Any error disables all
+/// actions of the run (turn it into an audit entry with [`ActionError::finding`]) and
+/// watching goes on.
 pub fn load_plan(
     actions: &[ActionConfig],
     config_path: &Path,
+    facts: &FileFacts,
     run: &RunFacts,
 ) -> Result<ActionPlan, ActionError> {
-    load_plan_with_env(actions, config_path, run, std::env::vars_os())
+    load_plan_with_env(actions, config_path, facts, run, std::env::vars_os())
 }
 
 /// [`load_plan`] with an explicit environment instead of the process's own.
 pub fn load_plan_with_env(
     actions: &[ActionConfig],
     config_path: &Path,
+    facts: &FileFacts,
     run: &RunFacts,
     env: impl IntoIterator<Item = (OsString, OsString)>,
 ) -> Result<ActionPlan, ActionError> {
     if actions.is_empty() {
         return Ok(ActionPlan::default());
     }
-    check_config_file(config_path)?;
+    check_facts(config_path, facts)?;
     let config = std::path::absolute(config_path).unwrap_or_else(|_| config_path.to_path_buf());
     let config_dir = config.parent().map(Path::to_path_buf).unwrap_or_default();
+    let run_dir = std::path::absolute(&run.dir).unwrap_or_else(|_| run.dir.clone());
+    let case = CaseDirs::new(&[&config_dir, &run_dir]);
+    for dir in &case.dirs {
+        check_case_dir(dir)?;
+    }
     let env: Vec<(OsString, OsString)> = env.into_iter().collect();
     let inherited: Vec<(OsString, OsString)> =
         env.iter().filter(|(k, _)| is_inherited(k)).cloned().collect();
+    let path_var = inherited.iter().find(|(k, _)| k == "PATH").map(|(_, v)| v.clone());
 
     let mut planned = Vec::with_capacity(actions.len());
     for (i, a) in actions.iter().enumerate() {
@@ -133,7 +151,9 @@ pub fn load_plan_with_env(
             number,
             message,
         };
-        planned.push(plan_one(a, number, &config_dir).map_err(invalid)?);
+        let p = plan_one(a, number, &config_dir).map_err(invalid)?;
+        case.check_program(&p, path_var.as_deref(), &run_dir).map_err(invalid)?;
+        planned.push(p);
     }
 
     let uses = |arg: &Arg| planned.iter().any(|p| p.args.contains(arg));
@@ -179,8 +199,12 @@ pub fn load_plan_with_env(
     Ok(ActionPlan {
         actions: planned,
         run: run.name.clone(),
-        dir: run.dir.clone(),
-        sources: run.sources.clone(),
+        dir: run_dir,
+        sources: run
+            .sources
+            .iter()
+            .map(|p| std::path::absolute(p).unwrap_or_else(|_| p.clone()))
+            .collect(),
         job: job.filter(|j| valid_job_id(j)),
         config,
         inherited,
@@ -370,15 +394,23 @@ impl ActionPlan {
             .collect()
     }
 
-    /// The command of action `index` for this verdict, ready to start.
+    /// The command of action `index` for this verdict, ready to start; or why it cannot be
+    /// run: a negative iteration (`[step -701]`) would make `{iteration}` an argument that
+    /// starts with `-` and reads as an option, the same guard as for run names.
     pub(crate) fn invocation(
         &self,
         index: usize,
         verdict: Verdict,
         previous: Option<Verdict>,
         iteration: i64,
-    ) -> Invocation {
+    ) -> Result<Invocation, String> {
         let a = &self.actions[index];
+        if iteration < 0 && a.args.contains(&Arg::Iteration) {
+            return Err(format!(
+                "{{iteration}} would be {iteration}, which starts with '-' and would read as \
+                 an option"
+            ));
+        }
         let args: Vec<String> = a
             .args
             .iter()
@@ -394,14 +426,14 @@ impl ActionPlan {
         let mut argv = Vec::with_capacity(args.len() + 1);
         argv.push(a.program_word.clone());
         argv.extend(args.iter().cloned());
-        Invocation {
+        Ok(Invocation {
             program: a.program.clone(),
             argv,
             args,
             env: self.child_env(verdict, previous, iteration),
             cwd: self.dir.clone(),
             timeout: a.timeout,
-        }
+        })
     }
 
     /// The complete environment of a command: the inherited allow-list plus the facts.
@@ -430,198 +462,4 @@ impl ActionPlan {
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::actions::config::{OnSpec, TimeoutSpec};
-
-    fn cfg(command: &[&str]) -> ActionConfig {
-        ActionConfig {
-            on: OnSpec::One("diverging".into()),
-            command: command.iter().map(|s| s.to_string()).collect(),
-            hold: None,
-            timeout: None,
-        }
-    }
-
-    fn private_config(dir: &Path) -> PathBuf {
-        use std::os::unix::fs::PermissionsExt;
-        let p = dir.join("settle.toml");
-        std::fs::write(&p, "# test\n").expect("write config");
-        std::fs::set_permissions(&p, std::fs::Permissions::from_mode(0o644)).expect("chmod");
-        p
-    }
-
-    fn facts(dir: &Path) -> RunFacts {
-        RunFacts {
-            name: "duct-bend-07".into(),
-            dir: dir.to_path_buf(),
-            sources: vec![dir.join("log.tarn")],
-            job: Some("123456".into()),
-        }
-    }
-
-    fn no_env() -> Vec<(OsString, OsString)> {
-        Vec::new()
-    }
-
-    #[test]
-    fn arguments_classify() {
-        assert_eq!(parse_arg("{job}"), Ok(Arg::Job));
-        assert_eq!(parse_arg("{iteration}"), Ok(Arg::Iteration));
-        assert_eq!(parse_arg("--signal=TERM"), Ok(Arg::Literal("--signal=TERM".into())));
-        assert_eq!(parse_arg("{print $1}"), Ok(Arg::Literal("{print $1}".into())));
-        assert_eq!(parse_arg("{}"), Ok(Arg::Literal("{}".into())));
-        assert!(parse_arg("{jobid}").is_err_and(|m| m.contains("unknown placeholder {jobid}")));
-        assert!(parse_arg("--job={job}").is_err_and(|m| m.contains("whole arguments")));
-        assert!(parse_arg("a\0b").is_err_and(|m| m.contains("NUL")));
-    }
-
-    #[test]
-    fn job_ids() {
-        for ok in ["1", "123456", "4711.pbs01", "4711.pbs01.example-site"] {
-            assert!(valid_job_id(ok), "{ok}");
-        }
-        for bad in ["", "-1", "12 34", "12;rm", "abc", "12.", "12..x", ".x", "1$(x)", "12_3"] {
-            assert!(!valid_job_id(bad), "{bad}");
-        }
-        assert!(!valid_job_id(&"9".repeat(65)));
-        let env = |k: &str| match k {
-            "PBS_JOBID" => Some("77.srv".to_string()),
-            "SLURM_JOB_ID" => Some(String::new()),
-            _ => None,
-        };
-        assert_eq!(job_from_env(env), Some("77.srv".into()));
-        assert_eq!(job_from_env(|_| None), None);
-    }
-
-    #[test]
-    fn plan_substitutes_whole_arguments_only() {
-        let dir = tempfile::tempdir().expect("tempdir");
-        let conf = private_config(dir.path());
-        let plan = load_plan_with_env(
-            &[cfg(&["scancel", "{job}", "--comment", "{run}", "{verdict}", "{iteration}"])],
-            &conf,
-            &facts(dir.path()),
-            no_env(),
-        )
-        .expect("valid plan");
-        let inv = plan.invocation(0, Verdict::Diverging, Some(Verdict::Converging), 1450);
-        assert_eq!(
-            inv.argv,
-            vec!["scancel", "123456", "--comment", "duct-bend-07", "diverging", "1450"]
-        );
-        assert_eq!(inv.program, PathBuf::from("scancel"));
-        assert_eq!(inv.cwd, dir.path());
-        assert_eq!(inv.timeout, Duration::from_secs(30));
-        let keys: Vec<String> =
-            inv.env.iter().map(|(k, _)| k.to_string_lossy().into_owned()).collect();
-        assert_eq!(
-            keys,
-            vec![
-                "SETTLE_CONFIG",
-                "SETTLE_ITERATION",
-                "SETTLE_JOB",
-                "SETTLE_PREVIOUS_VERDICT",
-                "SETTLE_RUN",
-                "SETTLE_SOURCES",
-                "SETTLE_VERDICT"
-            ]
-        );
-        assert_eq!(
-            plan.summary(),
-            vec![
-                "#1 on diverging (hold 3 records, timeout 30 s): scancel {job} --comment {run} \
-                 {verdict} {iteration}"
-            ]
-        );
-    }
-
-    #[test]
-    fn relative_program_is_resolved_against_the_config_directory() {
-        let dir = tempfile::tempdir().expect("tempdir");
-        let conf = private_config(dir.path());
-        let plan = load_plan_with_env(&[cfg(&["./stop.sh"])], &conf, &facts(dir.path()), no_env())
-            .expect("valid plan");
-        let inv = plan.invocation(0, Verdict::Diverging, None, 1);
-        assert_eq!(inv.program, dir.path().join("./stop.sh"));
-        assert_eq!(inv.argv, vec!["./stop.sh"]);
-    }
-
-    #[test]
-    fn validation_errors_name_file_action_and_key() {
-        let dir = tempfile::tempdir().expect("tempdir");
-        let conf = private_config(dir.path());
-        let f = facts(dir.path());
-        let err = |a: ActionConfig| {
-            load_plan_with_env(&[cfg(&["true"]), a], &conf, &f, no_env())
-                .expect_err("invalid")
-                .to_string()
-        };
-        let mut a = cfg(&["true"]);
-        a.on = OnSpec::One("exploding".into());
-        let m = err(a);
-        assert!(m.starts_with(&format!("{}: [[action]] #2: `on`", conf.display())), "{m}");
-        assert!(m.contains("unknown verdict \"exploding\""), "{m}");
-        let mut a = cfg(&["true"]);
-        a.hold = Some(0);
-        assert!(err(a).contains("`hold` must be at least 1"));
-        let mut a = cfg(&["true"]);
-        a.timeout = Some(TimeoutSpec::Text("forever".into()));
-        assert!(err(a).contains("`timeout`"));
-        assert!(err(cfg(&[])).contains("`command` is empty"));
-        assert!(err(cfg(&["{run}"])).contains("must be written out"));
-        assert!(err(cfg(&["echo", "run={run}"])).contains("whole arguments"));
-    }
-
-    #[test]
-    fn job_and_run_name_checks() {
-        let dir = tempfile::tempdir().expect("tempdir");
-        let conf = private_config(dir.path());
-        let mut f = facts(dir.path());
-        f.job = None;
-        let m = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &f, no_env())
-            .expect_err("no job id")
-            .to_string();
-        assert!(m.contains("no job id is known"), "{m}");
-        let env = vec![(OsString::from("SLURM_JOB_ID"), OsString::from("998877"))];
-        let plan = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &f, env)
-            .expect("job from environment");
-        assert_eq!(plan.invocation(0, Verdict::Stale, None, 0).argv, vec!["scancel", "998877"]);
-        f.job = Some("12; rm -rf ~".into());
-        let m = load_plan_with_env(&[cfg(&["scancel", "{job}"])], &conf, &f, no_env())
-            .expect_err("bad job id")
-            .to_string();
-        assert!(m.contains("is not a job id"), "{m}");
-        // An invalid job id that no action uses does not matter.
-        assert!(load_plan_with_env(&[cfg(&["true"])], &conf, &f, no_env()).is_ok());
-        f.name = "--all".into();
-        let m = load_plan_with_env(&[cfg(&["echo", "{run}"])], &conf, &f, no_env())
-            .expect_err("option-like run name")
-            .to_string();
-        assert!(m.contains("would read as an option"), "{m}");
-        f.name = "a\x1b[2Jb".into();
-        assert!(load_plan_with_env(&[cfg(&["echo", "{run}"])], &conf, &f, no_env()).is_err());
-    }
-
-    #[test]
-    fn empty_list_skips_the_file_check() {
-        let plan = load_plan_with_env(
-            &[],
-            Path::new("/nonexistent/settle.toml"),
-            &RunFacts::default(),
-            no_env(),
-        )
-        .expect("no actions, no check");
-        assert!(plan.is_empty());
-    }
-
-    #[test]
-    fn caps() {
-        assert_eq!(cap_str("abc", 5), "abc");
-        assert_eq!(cap_str("aé", 2), "a");
-        let paths: Vec<PathBuf> = vec!["/a/b".into(), "/c".into(), "/dd".into()];
-        assert_eq!(join_paths_capped(&paths, 100), OsString::from("/a/b:/c:/dd"));
-        assert_eq!(join_paths_capped(&paths, 8), OsString::from("/a/b:/c"));
-        assert_eq!(join_paths_capped(&paths, 3), OsString::from(""));
-    }
-}
+mod tests;

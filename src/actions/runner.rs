@@ -25,18 +25,21 @@ pub struct Observation {
     pub verdict: Verdict,
     /// Last iteration seen (`{iteration}`, `SETTLE_ITERATION`).
     pub iteration: i64,
-    /// Records ingested for this run so far (monotonic; counts for the hold).
+    /// Records the judgement saw (the store's record count when it was judged; counts for
+    /// the hold). Never the count of records ingested since: those are not judged yet.
     pub records_seen: u64,
     /// No further records can come: the solver's end-of-run mark, a log stale past the
     /// stale limit, or `check` at end of file. Waives the hold (see the latch rules).
     pub data_final: bool,
-    /// A rotated or truncated file is being re-read: the judgement neither counts nor fires.
-    pub rereading: bool,
+    /// The judgement cannot be acted on yet: a large read (the first read of an existing
+    /// log, or a re-read from the start) is in progress, or records arrived that the
+    /// judgement has not seen. It neither counts, nor fires, nor re-arms.
+    pub pending: bool,
 }
 
 impl Observation {
     pub fn new(verdict: Verdict, iteration: i64, records_seen: u64) -> Observation {
-        Observation { verdict, iteration, records_seen, data_final: false, rereading: false }
+        Observation { verdict, iteration, records_seen, data_final: false, pending: false }
     }
 }
 
@@ -107,7 +110,7 @@ impl ActionRunner {
     /// "would run" entry; with `act` true it starts in the background. Returns the audit
     /// entries produced now (dry runs, skips, thread failures).
     pub fn observe(&mut self, obs: &Observation, act: bool) -> Vec<Finding> {
-        if !obs.rereading && self.current != Some(obs.verdict) {
+        if !obs.pending && self.current != Some(obs.verdict) {
             self.previous = self.current;
             self.current = Some(obs.verdict);
         }
@@ -115,7 +118,7 @@ impl ActionRunner {
         let mut out = Vec::new();
         for i in 0..self.plan.actions.len() {
             let inside = self.plan.actions[i].on.contains(&obs.verdict);
-            if self.latches[i].step(inside, obs.records_seen, data_final, obs.rereading) {
+            if self.latches[i].step(inside, obs.records_seen, data_final, obs.pending) {
                 out.extend(self.fire(i, obs, act));
             }
         }
@@ -123,8 +126,14 @@ impl ActionRunner {
     }
 
     fn fire(&mut self, i: usize, obs: &Observation, act: bool) -> Option<Finding> {
-        let inv = self.plan.invocation(i, obs.verdict, self.previous, obs.iteration);
         let number = self.plan.actions[i].number;
+        let inv = match self.plan.invocation(i, obs.verdict, self.previous, obs.iteration) {
+            Ok(inv) => inv,
+            Err(why) => {
+                let detail = format!("refused to run action #{number}: {why}");
+                return Some(audit(obs.iteration, "refused", 0.0, sanitize_line(&detail)));
+            }
+        };
         let shown = display_argv(&inv.argv);
         if !act {
             let keys: Vec<String> =

@@ -87,6 +87,9 @@ pub(crate) struct OpenFile {
     pub seen: Option<(u64, (i64, i64))>,
     /// When size or mtime last changed (or the file was opened).
     pub last_change: Instant,
+    /// Size and mtime when the file was opened: a first read that finds them unchanged is
+    /// not a change (a file opened at a rotation and read later keeps its quiet time).
+    pub at_open: (u64, (i64, i64)),
     /// The first consumed bytes, up to [`PREFIX_LEN`].
     pub prefix: Vec<u8>,
     /// The last consumed bytes, up to [`TAIL_LEN`], ending at `offset`.
@@ -108,6 +111,7 @@ impl OpenFile {
             offset: 0,
             seen: None,
             last_change: now,
+            at_open: (meta.len(), mtime_of(meta)),
             prefix: Vec::new(),
             tail: Vec::new(),
             held: None,

@@ -9,41 +9,56 @@
 //!    pieces, through the line splitter. A NUL run at the very end is held back (see
 //!    [`FollowConfig::nul_grace`]).
 //! 3. Every `name_check_interval`, or sooner after [`Follower::hint_names`], open the path
-//!    again and compare identities:
+//!    again and compare identities (device + inode) with the newest file known:
 //!    * same file: keep the new descriptor if the file was idle (NFS close-to-open
 //!      revalidation of a stale cached size), offset unchanged;
 //!    * new inode whose bytes match what was read and at least as long: a migration, continue
 //!      at the same offset without a restart;
-//!    * new inode otherwise: a rotation. The old descriptor is drained for `rotated_grace`
-//!      (every line the writer still puts there is read exactly once), its unterminated last
-//!      line is flushed, then `Restart(Replaced)` and the new file from byte 0;
-//!    * name gone: keep reading the old descriptor, report "missing", retry;
-//!    * for a glob, a later file in natural order: drain the current file to its end, flush,
-//!      `Restart(NewFile)` and read the next one.
+//!    * new inode otherwise: a rotation, a deletion and re-creation. The new file is opened
+//!      at once and queued: its descriptor keeps it readable whatever happens to the name
+//!      next, so rotations faster than the old file is drained lose no file;
+//!    * name gone: keep reading the open file, report "missing", retry;
+//!    * for a glob, later files in natural order are queued by name.
+//! 4. Move to the next queued file only when the current one is read to its end and has
+//!    been quiet for `rotated_grace`, or for `rotated_quiet` once the next file has data, or
+//!    when its last write (mtime) is older than `rotated_grace` (restart files that were
+//!    finished long ago): flush its unterminated line, `Restart(Replaced)` or
+//!    `Restart(NewFile)`, then the next file from byte 0. Every identity the name pointed
+//!    to is read in order, as `tail -F` does, without its gaps.
+//! 5. A file left behind is watched for a while: bytes written to it after the follower
+//!    moved on cannot be placed in order any more and are reported in a note with a line
+//!    estimate, as is the unread rest of a file that could not be read to its end.
 //!
 //! Before the first file exists the follower is `Waiting` and tries to open it at every poll.
 
+use std::collections::VecDeque;
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
-use super::file::{Held, OpenError, OpenFile, mtime_of, open_path, read_at};
+use super::file::{OpenError, OpenFile, open_path};
 use super::lines::LineSplitter;
+use super::reader::{ReadCtx, ReadEnd};
 use super::spec::Spec;
-use super::{FollowConfig, FollowItem, FollowStats, FollowStatus, PollOutcome};
+use super::{FollowConfig, FollowItem, FollowStats, FollowStatus, PollOutcome, note};
 use crate::run::SegmentReason;
 
-/// A trailing NUL run longer than this is a hole, not a not-yet-visible append: it is
-/// skipped at once instead of being held back.
-const NUL_HOLD_MAX: usize = 64 * 1024;
-/// Notes of one repeating kind (long lines, NUL runs, read errors) shown before they are
-/// only counted in [`FollowStats`].
-const NOTES_PER_KIND: u32 = 5;
-/// Upper bound on state transitions within one poll: a restart file costs three (open,
+mod rotation;
+
+/// Upper bound on state transitions within one poll: a restart file costs a few (open,
 /// find its successor, finish it), so one poll reads over a thousand existing restart files,
 /// while a glob gaining files faster than they can be read cannot keep one poll busy forever.
 const MAX_STEPS: usize = 4096;
 /// Upper bound on polls in [`Follower::read_to_end`] (a writer outrunning the reader).
 const MAX_POLLS_TO_END: usize = 1000;
+/// Most replaced files waiting to be read (each holds a descriptor).
+const MAX_QUEUE: usize = 64;
+/// Most restart files of a glob waiting to be read (names only).
+const MAX_GLOB_QUEUE: usize = 4096;
+/// Most finished files watched for late writes, and for how many rotation graces.
+const MAX_RETIRED: usize = 8;
+const RETIRED_GRACES: u32 = 6;
+/// Bytes per line assumed for an estimate before any line was read.
+const DEFAULT_LINE_BYTES: u64 = 80;
 
 /// Follows one log file by name, or the files of a restart glob in natural order.
 #[derive(Debug)]
@@ -51,56 +66,54 @@ pub struct Follower {
     cfg: FollowConfig,
     spec: Spec,
     phase: Phase,
+    /// Files to read after the current one, oldest first.
+    queue: VecDeque<Next>,
+    /// Files read to their end and left behind, watched for late writes.
+    retired: Vec<Retired>,
     io: ReadCtx,
     last_name_check: Option<Instant>,
     names_hint: bool,
-    /// Restart to emit before the first line of the next file opened.
-    pending_restart: Option<SegmentReason>,
-    /// Next file to open (set by a glob transition).
-    next_path: Option<PathBuf>,
-    /// Last file opened: reopened by name after a rotation.
-    last_path: Option<PathBuf>,
-    /// The name of the open file is currently missing.
+    /// The name of the newest known file is currently missing.
     missing: bool,
     /// Why the target could not be opened, while it cannot.
     unreadable: Option<(PathBuf, String)>,
     waiting_noted: bool,
+    /// The queue was full when another file turned up (noted once).
+    queue_full_noted: bool,
     /// When a poll last consumed bytes.
     last_growth: Option<Instant>,
+    /// A one-shot read ([`Follower::read_to_end`]): files are finished at their end.
+    one_shot: bool,
 }
 
 #[derive(Debug)]
 enum Phase {
-    /// No file open: waiting for the first, or between a rotation and the new file.
+    /// No file open yet: waiting for the first.
     Closed,
-    /// Reading the file the name points to.
+    /// Reading this file (the name's current file, or an older one still being drained).
     Active(OpenFile),
-    /// Reading what remains of an old file until `until`, then `reason` and `next`.
-    Draining { old: OpenFile, until: Instant, reason: SegmentReason, next: Option<PathBuf> },
 }
 
-/// What a read of one open file found besides lines.
-enum ReadEnd {
-    /// Read to the reported size (or nothing new).
-    Done,
-    /// Size below the offset.
-    Truncated { size: u64 },
-    /// Same or larger size, but the bytes already read changed.
-    Rewritten,
-    /// `fstat` or `pread` failed.
-    Failed(std::io::Error),
-}
-
-/// The reading machinery shared by all phases (kept apart from `Phase` so a file in the
-/// phase and the buffers can be borrowed together).
+/// A file to read after the current one.
 #[derive(Debug)]
-struct ReadCtx {
-    splitter: LineSplitter,
-    buf: Vec<u8>,
-    stats: FollowStats,
-    notes_long: u32,
-    notes_junk: u32,
-    notes_error: u32,
+struct Next {
+    path: PathBuf,
+    /// Opened when the name was seen pointing to it (a replacement): the descriptor keeps
+    /// the file readable after the name moves on. `None` for a later restart file of a glob,
+    /// opened by name when its turn comes.
+    file: Option<OpenFile>,
+    reason: SegmentReason,
+}
+
+/// A file read to its end and left behind, watched for bytes written after that.
+#[derive(Debug)]
+struct Retired {
+    file: OpenFile,
+    /// What the follower moved on to (for the note).
+    next: PathBuf,
+    /// The file was replaced under its own name (rather than followed by a restart file).
+    replaced: bool,
+    until: Instant,
 }
 
 impl Follower {
@@ -125,15 +138,16 @@ impl Follower {
             cfg,
             spec: Spec::new(spec.into()),
             phase: Phase::Closed,
+            queue: VecDeque::new(),
+            retired: Vec::new(),
             last_name_check: None,
             names_hint: false,
-            pending_restart: None,
-            next_path: None,
-            last_path: None,
             missing: false,
             unreadable: None,
             waiting_noted: false,
+            queue_full_noted: false,
             last_growth: None,
+            one_shot: false,
         }
     }
 
@@ -149,10 +163,10 @@ impl Follower {
         for _ in 0..MAX_STEPS {
             match &mut self.phase {
                 Phase::Closed => {
-                    if !self.try_open(now, sink, &mut out) {
+                    if !self.try_open(now, sink) {
                         break;
                     }
-                    // A freshly opened glob file may already have a successor.
+                    // A freshly opened glob file may already have successors.
                     names_due |= self.spec.is_glob();
                 }
                 Phase::Active(file) => {
@@ -162,23 +176,15 @@ impl Follower {
                     }
                     if names_due {
                         names_due = false;
-                        if self.check_names(now, sink) {
-                            continue;
-                        }
+                        self.check_names(now, sink);
+                    }
+                    if !self.queue.is_empty() && self.current_finished(now) {
+                        out.lines += self.advance(now, sink, &mut out);
+                        // A glob may have more restart files than one check queues.
+                        names_due |= self.spec.is_glob() && self.queue.is_empty();
+                        continue;
                     }
                     break;
-                }
-                Phase::Draining { old, until, .. } => {
-                    let end = self.io.read(old, &self.cfg, now, sink, &mut out);
-                    let stop = !matches!(end, ReadEnd::Done);
-                    if stop {
-                        if let ReadEnd::Failed(e) = &end {
-                            self.io.error_note(&old.path, e, sink);
-                        }
-                    } else if now < *until {
-                        break;
-                    }
-                    out.lines += self.end_drain(sink);
                 }
             }
         }
@@ -189,9 +195,11 @@ impl Follower {
     }
 
     /// One-shot read (`check`, `parse`, `report`): poll until a poll finds nothing new, then
-    /// [`finish`](Self::finish). Stops after a bounded number of polls if a writer keeps
+    /// [`finish`](Self::finish). Each file is finished at its end (no waiting for a rotated
+    /// file to go quiet). Stops after a bounded number of polls if a writer keeps
     /// outrunning the reader. Returns the total of all polls.
     pub fn read_to_end(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> PollOutcome {
+        self.one_shot = true;
         let mut total = PollOutcome::default();
         for _ in 0..MAX_POLLS_TO_END {
             let o = self.poll(sink);
@@ -227,15 +235,16 @@ impl Follower {
     /// What the follower is doing now.
     pub fn status(&self) -> FollowStatus {
         match &self.phase {
+            Phase::Active(f) if !self.queue.is_empty() => {
+                FollowStatus::Draining { path: f.path.clone() }
+            }
             Phase::Active(f) if self.missing => FollowStatus::Missing { path: f.path.clone() },
             Phase::Active(f) => FollowStatus::Following { path: f.path.clone() },
-            Phase::Draining { old, .. } => FollowStatus::Draining { path: old.path.clone() },
-            Phase::Closed => match (&self.unreadable, &self.last_path) {
-                (Some((path, error)), _) => {
+            Phase::Closed => match &self.unreadable {
+                Some((path, error)) => {
                     FollowStatus::Unreadable { path: path.clone(), error: error.clone() }
                 }
-                (None, Some(path)) => FollowStatus::Missing { path: path.clone() },
-                (None, None) => FollowStatus::Waiting { spec: self.spec.original().to_owned() },
+                None => FollowStatus::Waiting { spec: self.spec.original().to_owned() },
             },
         }
     }
@@ -248,11 +257,10 @@ impl Follower {
         s
     }
 
-    /// The file whose lines are being handed out (the old one while draining), if any.
+    /// The file whose lines are being handed out (an old one while draining), if any.
     pub fn current_path(&self) -> Option<&Path> {
         match &self.phase {
             Phase::Active(f) => Some(&f.path),
-            Phase::Draining { old, .. } => Some(&old.path),
             Phase::Closed => None,
         }
     }
@@ -273,21 +281,22 @@ impl Follower {
     pub fn offset(&self) -> u64 {
         match &self.phase {
             Phase::Active(f) => f.offset,
-            Phase::Draining { old, .. } => old.offset,
             Phase::Closed => 0,
         }
     }
 
     /// Bytes of heap the follower holds for reading (read buffer, carry, fingerprints):
-    /// bounded by `read_chunk + max_line_bytes` plus a few KiB whatever the input.
+    /// bounded by `read_chunk + max_line_bytes` plus a few KiB per open file whatever the
+    /// input.
     pub fn memory_bytes(&self) -> usize {
-        let fp = match &self.phase {
-            Phase::Active(f) | Phase::Draining { old: f, .. } => {
-                f.prefix.capacity() + f.tail.capacity()
-            }
+        let fp = |f: &OpenFile| f.prefix.capacity() + f.tail.capacity();
+        let current = match &self.phase {
+            Phase::Active(f) => fp(f),
             Phase::Closed => 0,
         };
-        self.io.buf.capacity() + self.io.splitter.capacity() + fp
+        let queued: usize = self.queue.iter().filter_map(|n| n.file.as_ref()).map(fp).sum();
+        let retired: usize = self.retired.iter().map(|r| fp(&r.file)).sum();
+        self.io.buf.capacity() + self.io.splitter.capacity() + current + queued + retired
     }
 
     /// The configuration in use (after clamping zero sizes to 1).
@@ -337,22 +346,14 @@ impl Follower {
         true
     }
 
-    /// Open the next target while no file is open. Returns whether one was opened.
-    fn try_open(
-        &mut self,
-        now: Instant,
-        sink: &mut dyn FnMut(FollowItem<'_>),
-        out: &mut PollOutcome,
-    ) -> bool {
-        let target = match (&self.next_path, &self.last_path) {
-            (Some(p), _) | (None, Some(p)) => Some(p.clone()),
-            (None, None) => match self.spec.matches() {
-                Ok(m) => m.into_iter().next(),
-                Err(e) => {
-                    self.set_unreadable(self.spec.original().to_owned(), e.to_string(), sink);
-                    return false;
-                }
-            },
+    /// Open the first file while none is open. Returns whether one was opened.
+    fn try_open(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) -> bool {
+        let target = match self.spec.matches() {
+            Ok(m) => m.into_iter().next(),
+            Err(e) => {
+                self.set_unreadable(self.spec.original().to_owned(), e.to_string(), sink);
+                return false;
+            }
         };
         let Some(target) = target else {
             self.note_waiting(sink);
@@ -360,20 +361,14 @@ impl Follower {
         };
         match open_path(&target) {
             Ok((file, meta)) => {
-                if self.waiting_noted || self.last_path.is_some() {
-                    sink(FollowItem::Note(format!("following {}", target.display())));
+                if self.waiting_noted || self.unreadable.is_some() {
+                    sink(FollowItem::Note(format!("{}{}", note::FOLLOWING, target.display())));
                 }
                 self.waiting_noted = false;
                 self.unreadable = None;
                 self.missing = false;
-                self.next_path = None;
-                self.last_path = Some(target.clone());
                 self.io.stats.files += 1;
                 self.io.splitter.reset();
-                if let Some(reason) = self.pending_restart.take() {
-                    sink(FollowItem::Restart(reason));
-                    out.restarted = true;
-                }
                 self.phase = Phase::Active(OpenFile::new(file, &meta, target, now));
                 true
             }
@@ -391,9 +386,8 @@ impl Follower {
     fn note_waiting(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) {
         if !self.waiting_noted {
             self.waiting_noted = true;
-            let what = self.next_path.as_ref().or(self.last_path.as_ref());
-            let path = what.map_or(self.spec.original(), |p| p.as_path());
-            sink(FollowItem::Note(format!("waiting for {} to appear", path.display())));
+            let path = self.spec.original();
+            sink(FollowItem::Note(format!("{}{} to appear", note::WAITING, path.display())));
         }
     }
 
@@ -405,320 +399,19 @@ impl Follower {
     ) {
         let fresh = self.unreadable.as_ref() != Some(&(path.clone(), error.clone()));
         if fresh {
-            sink(FollowItem::Note(format!("cannot read {}: {error}; retrying", path.display())));
+            sink(FollowItem::Note(format!(
+                "{}{}: {error}; retrying",
+                note::UNREADABLE,
+                path.display()
+            )));
             self.unreadable = Some((path, error));
         }
     }
-
-    /// The name check for the active file. Returns true when the phase changed.
-    fn check_names(&mut self, now: Instant, sink: &mut dyn FnMut(FollowItem<'_>)) -> bool {
-        self.last_name_check = Some(now);
-        self.names_hint = false;
-        let Phase::Active(file) = &mut self.phase else {
-            return false;
-        };
-        if self.spec.is_glob()
-            && let Ok(Some(next)) = self.spec.next_after(&file.path)
-        {
-            if let Ok((_, meta)) = open_path(&next)
-                && file.same_identity(&meta)
-            {
-                // The current file was renamed to a later name (`run.log` → `run.log.1`
-                // under `run.log*`): same file, same offset, no restart.
-                sink(FollowItem::Note(format!(
-                    "{} renamed to {}; continuing at byte {}",
-                    file.path.display(),
-                    next.display(),
-                    file.offset
-                )));
-                file.path = next.clone();
-                self.last_path = Some(next);
-                self.missing = false;
-                return false;
-            }
-            // Revalidate the finished file once more so its last bytes are not lost to a
-            // stale cached size, then drain it with no grace.
-            if let Ok((f, meta)) = open_path(&file.path)
-                && file.same_identity(&meta)
-            {
-                file.adopt(f, &meta);
-            }
-            sink(FollowItem::Note(format!("next restart file {}", next.display())));
-            self.start_drain(now, SegmentReason::NewFile { path: next.clone() }, Some(next));
-            return true;
-        }
-        match open_path(&file.path) {
-            Err(e) => {
-                if !self.missing {
-                    self.missing = true;
-                    let why = match e {
-                        OpenError::NotFound => String::from("is missing"),
-                        other => format!("cannot be opened ({other})"),
-                    };
-                    sink(FollowItem::Note(format!(
-                        "{} {why}; still reading the open file, retrying by name",
-                        file.path.display()
-                    )));
-                }
-                false
-            }
-            Ok((f, meta)) => {
-                let was_missing = std::mem::replace(&mut self.missing, false);
-                if file.same_identity(&meta) {
-                    if was_missing {
-                        sink(FollowItem::Note(format!("{} is back", file.path.display())));
-                    }
-                    let idle = now.duration_since(file.last_change) >= self.cfg.name_check_interval;
-                    if idle || file.broken {
-                        file.adopt(f, &meta);
-                        self.io.stats.reopens += 1;
-                    }
-                    return false;
-                }
-                if !file.broken && file.content_matches(&f, meta.len()) {
-                    sink(FollowItem::Note(format!(
-                        "{} moved to a new inode with the same content; continuing at byte {}",
-                        file.path.display(),
-                        file.offset
-                    )));
-                    file.adopt(f, &meta);
-                    self.io.stats.migrations += 1;
-                    return false;
-                }
-                self.io.stats.replacements += 1;
-                let grace = if file.broken { 0.0 } else { self.cfg.rotated_grace.as_secs_f64() };
-                sink(FollowItem::Note(format!(
-                    "{} replaced by a new file; reading the rest of the old one for {grace:.1} s, \
-                     then the new one from the start",
-                    file.path.display()
-                )));
-                let until = if file.broken { now } else { now + self.cfg.rotated_grace };
-                self.start_drain(until, SegmentReason::Replaced, None);
-                true
-            }
-        }
-    }
-
-    fn start_drain(&mut self, until: Instant, reason: SegmentReason, next: Option<PathBuf>) {
-        if let Phase::Active(old) = std::mem::replace(&mut self.phase, Phase::Closed) {
-            self.phase = Phase::Draining { old, until, reason, next };
-        }
-    }
-
-    /// The drained file is done: flush its unterminated line and queue the restart.
-    /// Returns the number of lines flushed.
-    fn end_drain(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> u64 {
-        let mut flushed = 0;
-        if let Phase::Draining { reason, next, .. } =
-            std::mem::replace(&mut self.phase, Phase::Closed)
-        {
-            flushed = self.io.flush_partial(sink);
-            self.pending_restart = Some(reason);
-            if next.is_some() {
-                self.next_path = next;
-            }
-            self.missing = false;
-        }
-        flushed
-    }
-}
-
-impl ReadCtx {
-    /// `fstat` `file` and read whatever grew, handing lines to `sink`.
-    fn read(
-        &mut self,
-        file: &mut OpenFile,
-        cfg: &FollowConfig,
-        now: Instant,
-        sink: &mut dyn FnMut(FollowItem<'_>),
-        out: &mut PollOutcome,
-    ) -> ReadEnd {
-        if file.broken {
-            return ReadEnd::Done;
-        }
-        let meta = match file.file.metadata() {
-            Ok(m) => m,
-            Err(e) => return ReadEnd::Failed(e),
-        };
-        let size = meta.len();
-        let seen = (size, mtime_of(&meta));
-        let changed = file.seen != Some(seen);
-        if !changed && file.held.is_none() {
-            return ReadEnd::Done;
-        }
-        if changed {
-            file.last_change = now;
-        }
-        if size < file.offset {
-            return ReadEnd::Truncated { size };
-        }
-        if changed && file.offset > 0 && !file.content_matches(&file.file, size) {
-            return ReadEnd::Rewritten;
-        }
-        file.seen = Some(seen);
-        let total = size;
-        let (start, junk_before) = (file.offset, self.splitter.junk_bytes());
-        let big = total - file.offset > cfg.progress_every;
-        let mut next_progress = file.offset + cfg.progress_every;
-        let mut last_progress = file.offset;
-        while file.offset < size {
-            let want =
-                usize::try_from(size - file.offset).unwrap_or(usize::MAX).min(cfg.read_chunk);
-            if self.buf.len() < want {
-                // Grow to what is needed now (small logs keep a small buffer), never past
-                // `read_chunk`.
-                let target = want.max(self.buf.len() * 2).max(64 * 1024).min(cfg.read_chunk);
-                self.buf.resize(target.max(want), 0);
-            }
-            let n = match read_at(&file.file, &mut self.buf[..want], file.offset) {
-                Ok(0) => break,
-                Ok(n) => n,
-                Err(e) => return ReadEnd::Failed(e),
-            };
-            let chunk = &self.buf[..n];
-            let mut consume = n;
-            if file.offset + n as u64 == size {
-                let trailing = chunk.iter().rev().take_while(|&&b| b == 0).count();
-                if trailing > 0 && trailing <= NUL_HOLD_MAX {
-                    let at = file.offset + (n - trailing) as u64;
-                    let since = match file.held {
-                        Some(h) if h.offset == at => h.since,
-                        _ => now,
-                    };
-                    if now.duration_since(since) < cfg.nul_grace {
-                        file.held = Some(Held { offset: at, since });
-                        consume = n - trailing;
-                    } else {
-                        file.held = None;
-                    }
-                } else {
-                    file.held = None;
-                }
-            } else {
-                file.held = None;
-            }
-            let data = &chunk[..consume];
-            out.lines += feed_lines(
-                &mut self.splitter,
-                data,
-                &mut self.stats,
-                &mut self.notes_long,
-                &file.path,
-                cfg.max_line_bytes,
-                sink,
-            );
-            file.consumed(data);
-            self.stats.bytes_read += consume as u64;
-            out.bytes += consume as u64;
-            if consume < n {
-                break;
-            }
-            if big && file.offset >= next_progress {
-                sink(FollowItem::Progress { read: file.offset, total });
-                last_progress = file.offset;
-                next_progress = file.offset + cfg.progress_every;
-            }
-        }
-        if big && last_progress != file.offset {
-            sink(FollowItem::Progress { read: file.offset, total });
-        }
-        let junk = self.splitter.junk_bytes() - junk_before;
-        if junk > 0 {
-            let path = file.path.display().to_string();
-            limited_note(&mut self.notes_junk, "NUL-byte", sink, || {
-                format!(
-                    "{path}: skipped {junk} NUL bytes (binary junk or a hole) after byte {start}"
-                )
-            });
-        }
-        ReadEnd::Done
-    }
-
-    /// Hand out the unterminated line, if any (end of data or end of a drained file).
-    /// Returns the number of lines handed out (0 or 1).
-    fn flush_partial(&mut self, sink: &mut dyn FnMut(FollowItem<'_>)) -> u64 {
-        let stats = &mut self.stats;
-        let notes = &mut self.notes_long;
-        let mut n = 0;
-        self.splitter.finish(&mut |line| {
-            n += 1;
-            stats.lines += 1;
-            sink(FollowItem::Line(line.bytes));
-            if line.truncated {
-                limited_note(notes, "long-line", sink, || {
-                    format!(
-                        "long line truncated (the final line was over {} bytes)",
-                        line.bytes.len()
-                    )
-                });
-            }
-        });
-        n
-    }
-
-    fn error_note(
-        &mut self,
-        path: &Path,
-        e: &std::io::Error,
-        sink: &mut dyn FnMut(FollowItem<'_>),
-    ) {
-        self.stats.read_errors += 1;
-        limited_note(&mut self.notes_error, "read-error", sink, || {
-            format!("read error on {}: {e}; re-opening at the next name check", path.display())
-        });
-    }
-}
-
-/// Feed `data` through the splitter, handing lines to `sink`.
-/// Returns the number of lines.
-fn feed_lines(
-    splitter: &mut LineSplitter,
-    data: &[u8],
-    stats: &mut FollowStats,
-    notes_long: &mut u32,
-    path: &Path,
-    max: usize,
-    sink: &mut dyn FnMut(FollowItem<'_>),
-) -> u64 {
-    let mut lines = 0;
-    splitter.feed(data, &mut |line| {
-        lines += 1;
-        stats.lines += 1;
-        sink(FollowItem::Line(line.bytes));
-        if line.truncated {
-            let n = stats.lines;
-            limited_note(notes_long, "long-line", sink, || {
-                format!(
-                    "{}: long line truncated (line {n} of this follower was over {max} bytes; \
-                     kept its first {max}, skipped the rest)",
-                    path.display()
-                )
-            });
-        }
-    });
-    lines
-}
-
-/// Emit a note of a repeating kind, at most [`NOTES_PER_KIND`] times, then one saying the
-/// rest are only counted.
-fn limited_note(
-    count: &mut u32,
-    kind: &str,
-    sink: &mut dyn FnMut(FollowItem<'_>),
-    text: impl FnOnce() -> String,
-) {
-    if *count < NOTES_PER_KIND {
-        sink(FollowItem::Note(text()));
-    } else if *count == NOTES_PER_KIND {
-        sink(FollowItem::Note(format!(
-            "further {kind} notes suppressed; the follower statistics keep counting"
-        )));
-    }
-    *count = count.saturating_add(1);
 }
 
 #[cfg(test)]
 mod tests {
+    use super::super::reader::{NOTES_PER_KIND, limited_note};
     use super::*;
 
     fn collect(f: &mut Follower) -> Vec<String> {

@@ -76,16 +76,17 @@ impl Spec {
         Ok(names.into_iter().map(|n| self.dir.join(n)).collect())
     }
 
-    /// The first match that sorts after `current` (the next restart file), if any.
-    pub(crate) fn next_after(&self, current: &Path) -> io::Result<Option<PathBuf>> {
+    /// Every match that sorts after `current` (the later restart files), in natural order.
+    pub(crate) fn all_after(&self, current: &Path) -> io::Result<Vec<PathBuf>> {
         if self.pattern.is_none() {
-            return Ok(None);
+            return Ok(Vec::new());
         }
         let cur = file_name_str(current);
         Ok(self
             .matches()?
             .into_iter()
-            .find(|p| natural_cmp(&file_name_str(p), &cur) == Ordering::Greater))
+            .filter(|p| natural_cmp(&file_name_str(p), &cur) == Ordering::Greater)
+            .collect())
     }
 
     /// The directory whose events should wake the follower: the spec's directory, or its
@@ -186,9 +187,11 @@ mod tests {
         let names: Vec<String> =
             s.matches().expect("list").iter().map(|p| file_name_str(p)).collect();
         assert_eq!(names, ["run.log.1", "run.log.2", "run.log.10"]);
-        let next = s.next_after(&dir.path().join("run.log.2")).expect("list");
-        assert_eq!(next, Some(dir.path().join("run.log.10")));
-        assert_eq!(s.next_after(&dir.path().join("run.log.10")).expect("list"), None);
+        let next = s.all_after(&dir.path().join("run.log.2")).expect("list");
+        assert_eq!(next, [dir.path().join("run.log.10")]);
+        let later = s.all_after(&dir.path().join("run.log.1")).expect("list");
+        assert_eq!(later, [dir.path().join("run.log.2"), dir.path().join("run.log.10")]);
+        assert!(s.all_after(&dir.path().join("run.log.10")).expect("list").is_empty());
         let q = Spec::new(dir.path().join("run.log.?"));
         assert_eq!(q.matches().expect("list").len(), 2);
     }

@@ -8,7 +8,7 @@ use std::time::Duration;
 use serde::Deserialize;
 use thiserror::Error;
 
-use crate::actions::ActionConfig;
+use crate::actions::{ActionConfig, FileFacts};
 use crate::judge::Criteria;
 
 /// File name looked for in case directories.
@@ -125,13 +125,24 @@ pub struct RunSpec {
     pub actions: Vec<ActionConfig>,
     /// The config file, when there is one.
     pub config_path: Option<PathBuf>,
+    /// Owner, mode and type of the config file whose text this spec was parsed from (taken
+    /// from the same descriptor, see [`load`]); the trust check of actions uses these and
+    /// never looks at the file by name again. `None` without a config file, or when the
+    /// text did not come from [`load`].
+    pub config_facts: Option<FileFacts>,
 }
 
 /// Read and validate a `settle.toml`.
+///
+/// The file is opened once: its owner and mode are taken from that descriptor (`fstat`)
+/// and its text is read from it, so the actions' trust check judges the very file whose
+/// text was parsed, even if the name is swapped meanwhile.
 pub fn load(path: &Path) -> Result<RunSpec, ConfigError> {
-    let text = std::fs::read_to_string(path)
+    let (text, facts) = crate::actions::read_config(path)
         .map_err(|source| ConfigError::Read { path: path.to_path_buf(), source })?;
-    parse(&text, path)
+    let mut spec = parse(&text, path)?;
+    spec.config_facts = Some(facts);
+    Ok(spec)
 }
 
 /// Validate config text; `path` names the file in errors and anchors relative paths.
@@ -176,6 +187,7 @@ pub fn parse(text: &str, path: &Path) -> Result<RunSpec, ConfigError> {
         job: raw.job,
         actions: raw.action,
         config_path: Some(path.to_path_buf()),
+        config_facts: None,
     })
 }
 
@@ -217,6 +229,7 @@ pub fn from_files_with(files: &[PathBuf], parsers: &[Option<String>]) -> RunSpec
         job: None,
         actions: Vec::new(),
         config_path: None,
+        config_facts: None,
     }
 }
 

@@ -1,5 +1,6 @@
 //! Headless output of `settle watch --headless`: one plain status line or one JSON object
-//! per line, and the rule for when to print.
+//! per line, and the rule for when to print; the state lines of runs without a verdict are
+//! in [`state`].
 //!
 //! Pure formatting: the caller owns the loop, the clock and the writer. Text lines hold no
 //! colour and no control characters (C0/C1 controls and DEL become `^X` or `\u{..}`, tabs
@@ -20,9 +21,9 @@
 //! | key | value |
 //! | --- | --- |
 //! | `time` | UTC, RFC 3339 to the second (`2026-12-01T10:04:11Z`) |
-//! | `event` | `change` (first judgement, verdict or a criterion's met flag changed), `heartbeat`, `action`, `end` |
+//! | `event` | `change` (first judgement, verdict or a criterion's met flag changed; a new state), `heartbeat`, `action`, `end` |
 //! | `run` | run name |
-//! | `verdict` | verdict word (absent in `action` lines) |
+//! | `verdict` | verdict word (absent in `action` and state lines) |
 //! | `since` | iteration the verdict holds since, or `null` |
 //! | `iteration` | last iteration seen (for `action`: iteration at which it fired) |
 //! | `grew_s_ago` | seconds since the log last grew, or `null` |
@@ -30,6 +31,12 @@
 //! | `causes` | list of `{kind, series, detail}` of the findings that decided the verdict |
 //! | `eta_iterations` | estimated iterations until the slowest residual reaches its target (converging only), or `null` |
 //! | `status`, `detail` | `action` lines only: the audit statistic (`exit_code`, `dry_run`, `timeout_s`, `refused`, ...) and its sentence |
+//! | `read_iteration` | last iteration read from the log (ahead of `iteration` while the judge is throttled), or `null` |
+//! | `state`, `detail`, `percent_read` | state lines only (no `verdict`): `waiting`, `reading`, `unreadable`, `no-parser` or `stale`, the reason, and the share of a large read done (see [`RunState`]) |
+
+mod state;
+
+pub use state::{RunState, STOPPED_NOTE, StateReport, json_state_line, run_state, state_line};
 
 use std::time::{Duration, Instant, SystemTime, UNIX_EPOCH};
 
@@ -151,11 +158,28 @@ pub fn status_line(
     last_growth_age: Option<Duration>,
     now: SystemTime,
 ) -> String {
+    status_line_read(run, j, None, last_growth_age, now)
+}
+
+/// [`status_line`] that also says how far the log was read when the judgement lags behind
+/// it (`it 1450 (read to 1462)`): the judge is throttled with many runs, but the watcher is
+/// not stuck.
+pub fn status_line_read(
+    run: &str,
+    j: &Judgement,
+    read_iteration: Option<i64>,
+    last_growth_age: Option<Duration>,
+    now: SystemTime,
+) -> String {
     let mut head = format!("{} {} {}", rfc3339(now), run, j.verdict);
     if let (Some(s), true) = (j.since, j.verdict != Verdict::Converging) {
         head.push_str(&format!(" since it {s}"));
     }
-    let mut parts = vec![head, format!("it {}", j.iterations)];
+    let it = match read_iteration {
+        Some(r) if r > j.iterations => format!("it {} (read to {r})", j.iterations),
+        _ => format!("it {}", j.iterations),
+    };
+    let mut parts = vec![head, it];
     if let Some(age) = last_growth_age {
         parts.push(format!("grew {} ago", fmt_age(age)));
     }
@@ -220,6 +244,7 @@ struct JsonStatus<'a> {
     criteria: Vec<JsonCriterion<'a>>,
     causes: Vec<JsonCause<'a>>,
     eta_iterations: Option<f64>,
+    read_iteration: Option<i64>,
 }
 
 #[derive(Serialize)]
@@ -236,6 +261,18 @@ struct JsonAction<'a> {
 pub fn json_line(
     run: &str,
     j: &Judgement,
+    last_growth_age: Option<Duration>,
+    now: SystemTime,
+    event: HeadlessEvent,
+) -> String {
+    json_line_read(run, j, None, last_growth_age, now, event)
+}
+
+/// [`json_line`] with the last iteration read (`read_iteration`, `null` when unknown).
+pub fn json_line_read(
+    run: &str,
+    j: &Judgement,
+    read_iteration: Option<i64>,
     last_growth_age: Option<Duration>,
     now: SystemTime,
     event: HeadlessEvent,
@@ -273,6 +310,7 @@ pub fn json_line(
             })
             .collect(),
         eta_iterations: eta(j).map(f64::round),
+        read_iteration,
     };
     to_json(&line)
 }
@@ -441,269 +479,4 @@ fn civil_from_days(z: i64) -> (i64, u32, u32) {
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn dates() {
-        // Check values: `date -u -d @SECONDS` (GNU coreutils), common practice, no source.
-        assert_eq!(rfc3339(UNIX_EPOCH), "1970-01-01T00:00:00Z");
-        assert_eq!(rfc3339(UNIX_EPOCH + Duration::from_secs(951_782_400)), "2000-02-29T00:00:00Z");
-        assert_eq!(
-            rfc3339(UNIX_EPOCH + Duration::from_secs(1_796_119_451)),
-            "2026-12-01T10:04:11Z"
-        );
-        assert_eq!(rfc3339(UNIX_EPOCH - Duration::from_secs(1)), "1969-12-31T23:59:59Z");
-        assert_eq!(
-            rfc3339(UNIX_EPOCH + Duration::from_secs(4_107_542_399)),
-            "2100-02-28T23:59:59Z"
-        );
-    }
-
-    #[test]
-    fn numbers() {
-        assert_eq!(fmt_num(2.1), "2.1");
-        assert_eq!(fmt_num(3.0), "3");
-        assert_eq!(fmt_num(0.0312), "0.0312");
-        assert_eq!(fmt_num(0.03), "0.03");
-        assert_eq!(fmt_num(1450.0), "1450");
-        assert_eq!(fmt_num(12.345), "12.3");
-        assert_eq!(fmt_num(1e-5), "1.00e-5");
-        assert_eq!(fmt_num(-2.5e7), "-2.50e7");
-        assert_eq!(fmt_num(f64::NAN), "n/a");
-        assert_eq!(fmt_num(0.0), "0");
-        assert_eq!(round_eta(42.4), "42");
-        assert_eq!(round_eta(912.0), "910");
-        assert_eq!(round_eta(12_345.0), "12000");
-    }
-
-    #[test]
-    fn ages() {
-        assert_eq!(fmt_age(Duration::from_secs(4)), "4 s");
-        assert_eq!(fmt_age(Duration::from_secs(600)), "10 min");
-        assert_eq!(fmt_age(Duration::from_secs(9000)), "2.5 h");
-    }
-
-    #[test]
-    fn cleaning() {
-        assert_eq!(clean("a\tb"), "a       b");
-        assert_eq!(clean("abcdefgh\tx"), "abcdefgh        x");
-        assert_eq!(clean("x\x1b[31my\r\n"), "x^[[31my  ");
-        assert_eq!(clean("\u{9b}z\x7f"), "\\u{9b}z^?");
-    }
-
-    /// A hand-built judgement of the invented tarn case `duct-bend-07` (demo numbers).
-    fn stalled() -> Judgement {
-        use crate::judge::{Finding, ResidualSummary};
-        let crit = |name: &str, series: &str, cmp, thr, value, unit: &str, met| CriterionResult {
-            name: name.into(),
-            series: series.into(),
-            comparison: cmp,
-            threshold: thr,
-            value,
-            unit: unit.into(),
-            met,
-            since: None,
-            default: true,
-        };
-        Judgement {
-            verdict: Verdict::Stalled,
-            since: Some(3140),
-            causes: vec![1],
-            findings: vec![
-                Finding {
-                    kind: FindingKind::Trend,
-                    detail: "Ux falling".into(),
-                    ..Finding::default()
-                },
-                Finding {
-                    kind: FindingKind::Stall,
-                    series: Some("p".into()),
-                    first: 3140,
-                    last: 4870,
-                    statistic: "slope_dec_per_kit".into(),
-                    value: -0.02,
-                    detail: "p slope -0.02 dec/kit\t(95 % CI -0.05..+0.01) for 1730 it".into(),
-                    ..Finding::default()
-                },
-            ],
-            criteria: vec![
-                crit("drop", "Ux", Comparison::AtLeast, 3.0, 4.2, "dec", true),
-                crit("drop", "p", Comparison::AtLeast, 3.0, 2.1, "dec", false),
-                crit("drift", "Cd", Comparison::AtMost, 0.1, 0.04, "%", true),
-                crit("band", "Cd", Comparison::AtMost, 0.5, f64::NAN, "%", false),
-            ],
-            residuals: vec![ResidualSummary {
-                series: "p".into(),
-                eta_iterations: Some(912.0),
-                ..ResidualSummary::default()
-            }],
-            monitors: vec![],
-            iterations: 4870,
-        }
-    }
-
-    fn at() -> SystemTime {
-        UNIX_EPOCH + Duration::from_secs(1_796_119_451)
-    }
-
-    #[test]
-    fn status_line_exact() {
-        let j = stalled();
-        assert_eq!(
-            status_line("duct-bend-07", &j, Some(Duration::from_secs(9)), at()),
-            "2026-12-01T10:04:11Z duct-bend-07 stalled since it 3140 | it 4870 | grew 9 s ago \
-             | 2/4 criteria met | open: p drop 2.1 dec (need >= 3), Cd band n/a % (need <= 0.5) \
-             | why: p slope -0.02 dec/kit        (95 % CI -0.05..+0.01) for 1730 it",
-            "the tab after dec/kit is expanded to the next multiple of 8 columns"
-        );
-        let mut c = j.clone();
-        c.verdict = Verdict::Converging;
-        c.since = None;
-        assert_eq!(
-            status_line("duct-bend-07", &c, None, at()),
-            "2026-12-01T10:04:11Z duct-bend-07 converging | it 4870 | 2/4 criteria met \
-             | open: p drop 2.1 dec (need >= 3), Cd band n/a % (need <= 0.5) | eta ~910 it"
-        );
-        let mut d = j.clone();
-        d.verdict = Verdict::Converged;
-        d.since = Some(4500);
-        for c in &mut d.criteria {
-            c.met = true;
-        }
-        assert_eq!(
-            status_line("duct\x1b[2J-bend", &d, Some(Duration::from_secs(600)), at()),
-            "2026-12-01T10:04:11Z duct^[[2J-bend converged since it 4500 | it 4870 \
-             | grew 10 min ago | all 4 criteria met"
-        );
-    }
-
-    #[test]
-    fn many_open_criteria_are_summarised() {
-        let mut j = stalled();
-        let c = j.criteria[1].clone();
-        j.criteria =
-            (0..5).map(|i| CriterionResult { series: format!("r{i}"), ..c.clone() }).collect();
-        let line = status_line("x", &j, None, at());
-        assert!(line.contains("0/5 criteria met | open: r0 drop 2.1 dec (need >= 3), r1 drop"));
-        assert!(line.contains("r2 drop 2.1 dec (need >= 3), +2 more | why:"), "{line}");
-    }
-
-    #[test]
-    fn json_line_parses_back_with_stable_keys() {
-        let j = stalled();
-        let line = json_line(
-            "duct-bend-07",
-            &j,
-            Some(Duration::from_millis(9040)),
-            at(),
-            HeadlessEvent::Change,
-        );
-        assert!(!line.contains('\n'));
-        let v: serde_json::Value = serde_json::from_str(&line).expect("valid JSON");
-        let keys: Vec<&str> = v.as_object().expect("object").keys().map(String::as_str).collect();
-        let mut expected = vec![
-            "time",
-            "event",
-            "run",
-            "verdict",
-            "since",
-            "iteration",
-            "grew_s_ago",
-            "criteria",
-            "causes",
-            "eta_iterations",
-        ];
-        let mut sorted = keys.clone();
-        sorted.sort();
-        expected.sort();
-        assert_eq!(sorted, expected);
-        assert_eq!(v["time"], "2026-12-01T10:04:11Z");
-        assert_eq!(v["event"], "change");
-        assert_eq!(v["run"], "duct-bend-07");
-        assert_eq!(v["verdict"], "stalled");
-        assert_eq!(v["since"], 3140);
-        assert_eq!(v["iteration"], 4870);
-        assert_eq!(v["grew_s_ago"], 9.0);
-        assert_eq!(v["eta_iterations"], serde_json::Value::Null, "eta only while converging");
-        let c = &v["criteria"][1];
-        assert_eq!(c["name"], "drop");
-        assert_eq!(c["series"], "p");
-        assert_eq!(c["value"], 2.1);
-        assert_eq!(c["threshold"], 3.0);
-        assert_eq!(c["comparison"], "at_least");
-        assert_eq!(c["unit"], "dec");
-        assert_eq!(c["met"], false);
-        assert_eq!(v["criteria"][3]["value"], serde_json::Value::Null, "NaN becomes null");
-        assert_eq!(v["causes"].as_array().map(Vec::len), Some(1));
-        assert_eq!(v["causes"][0]["kind"], "stall");
-        assert_eq!(v["causes"][0]["series"], "p");
-        assert_eq!(
-            v["causes"][0]["detail"], "p slope -0.02 dec/kit\t(95 % CI -0.05..+0.01) for 1730 it",
-            "JSON keeps text lossless (escaped)"
-        );
-        let mut c = j.clone();
-        c.verdict = Verdict::Converging;
-        let v: serde_json::Value =
-            serde_json::from_str(&json_line("r", &c, None, at(), HeadlessEvent::Heartbeat))
-                .expect("valid JSON");
-        assert_eq!(v["event"], "heartbeat");
-        assert_eq!(v["grew_s_ago"], serde_json::Value::Null);
-        assert_eq!(v["eta_iterations"], 912.0);
-        let v: serde_json::Value =
-            serde_json::from_str(&json_line("r", &c, None, at(), HeadlessEvent::End))
-                .expect("JSON");
-        assert_eq!(v["event"], "end");
-    }
-
-    #[test]
-    fn action_lines() {
-        let f = Finding {
-            kind: FindingKind::Action,
-            first: 4870,
-            last: 4870,
-            statistic: "exit_code".into(),
-            detail: "ran scancel 123456: exit 0 after 0.1 s".into(),
-            ..Finding::default()
-        };
-        assert_eq!(
-            action_line("duct-bend-07", &f, at()),
-            "2026-12-01T10:04:11Z duct-bend-07 action | ran scancel 123456: exit 0 after 0.1 s"
-        );
-        let v: serde_json::Value =
-            serde_json::from_str(&json_action_line("duct-bend-07", &f, at())).expect("JSON");
-        assert_eq!(v["event"], "action");
-        assert_eq!(v["iteration"], 4870);
-        assert_eq!(v["status"], "exit_code");
-        assert_eq!(v["detail"], "ran scancel 123456: exit 0 after 0.1 s");
-        let s = HeadlessState::default();
-        assert_eq!(s.should_print_finding(&f), Some(HeadlessEvent::Action));
-        assert_eq!(s.should_print_finding(&Finding::default()), None);
-    }
-
-    #[test]
-    fn change_detection_sequence() {
-        let mut s = HeadlessState::new(Duration::from_secs(60));
-        let t0 = Instant::now();
-        let t = |secs: u64| t0 + Duration::from_secs(secs);
-        let mut j = stalled();
-        assert_eq!(s.should_print(&j, t(0)), Some(PrintReason::First));
-        assert_eq!(s.should_print(&j, t(1)), None);
-        j.criteria[1].value = 2.2; // a value alone is no change
-        j.iterations = 4900;
-        assert_eq!(s.should_print(&j, t(2)), None);
-        j.criteria[1].met = true;
-        assert_eq!(s.should_print(&j, t(3)), Some(PrintReason::Criteria));
-        assert_eq!(s.should_print(&j, t(4)), None);
-        j.verdict = Verdict::Converging;
-        assert_eq!(s.should_print(&j, t(5)), Some(PrintReason::Verdict));
-        assert_eq!(PrintReason::Verdict.event(), HeadlessEvent::Change);
-        assert_eq!(s.should_print(&j, t(64)), None, "59 s after the last line");
-        assert_eq!(s.should_print(&j, t(65)), Some(PrintReason::Heartbeat));
-        assert_eq!(PrintReason::Heartbeat.event().as_str(), "heartbeat");
-        assert_eq!(s.should_print(&j, t(100)), None);
-        j.criteria.pop(); // a criterion going away is a change
-        assert_eq!(s.should_print(&j, t(101)), Some(PrintReason::Criteria));
-        assert_eq!(s.should_print(&j, t(161)), Some(PrintReason::Heartbeat));
-    }
-}
+mod tests;

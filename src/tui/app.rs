@@ -377,7 +377,8 @@ impl App {
             if judging && slot.dirty && budget_ok {
                 slot.dirty = false;
                 let started = std::time::Instant::now();
-                slot.live.judgement = (self.judge)(&slot.live.store, &slot.live.criteria);
+                let judgement = (self.judge)(&slot.live.store, &slot.live.criteria);
+                slot.live.set_judgement(judgement);
                 slot.judge_cost = started.elapsed();
                 slot.last_judged = Some(now);
                 slot.live.stale = is_stale(&slot.live, now, self.opts.stale_limit);
