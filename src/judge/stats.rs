@@ -9,6 +9,8 @@
 
 use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 
+pub mod ar1;
+
 /// Arithmetic mean, refined by a second pass so that a large common offset does not cost
 /// digits. `None` for an empty slice.
 pub fn mean(x: &[f64]) -> Option<f64> {
