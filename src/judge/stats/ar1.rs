@@ -74,12 +74,17 @@ fn a_mul(v: &[f64]) -> Vec<f64> {
 }
 
 /// Orthonormal basis of the polynomials of degree ≤ `degree` in the sample index (centred
-/// and scaled), by Gram–Schmidt applied twice.
-fn poly_basis(n: usize, degree: usize) -> Option<Vec<Vec<f64>>> {
+/// and scaled) and the `extra` columns, by Gram–Schmidt applied twice.
+fn poly_basis(n: usize, degree: usize, extra: &[&[f64]]) -> Option<Vec<Vec<f64>>> {
     let tc = (n as f64 - 1.0) / 2.0;
-    let mut q: Vec<Vec<f64>> = Vec::with_capacity(degree + 1);
-    for d in 0..=degree {
-        let mut v: Vec<f64> = (0..n).map(|i| ((i as f64 - tc) / n as f64).powi(d as i32)).collect();
+    let mut q: Vec<Vec<f64>> = Vec::with_capacity(degree + 1 + extra.len());
+    let columns = (0..=degree)
+        .map(|d| (0..n).map(|i| ((i as f64 - tc) / n as f64).powi(d as i32)).collect::<Vec<f64>>())
+        .chain(extra.iter().map(|c| c.to_vec()));
+    for mut v in columns {
+        if v.len() != n {
+            return None;
+        }
         for _ in 0..2 {
             for u in &q {
                 let c = dot(u, &v);
@@ -109,7 +114,8 @@ struct Moments {
     ss_dof: f64,
 }
 
-/// The model's fixed part: the window length and the polynomial removed.
+/// The model's fixed part: the window length and the regressors removed (a polynomial in
+/// the sample index, optionally more columns).
 #[derive(Debug, Clone)]
 pub struct NoiseModel {
     n: usize,
@@ -148,10 +154,17 @@ impl NoiseModel {
     /// Noise of `n` consecutive samples about a polynomial of degree `degree` (0: a mean,
     /// 1: a line, 2: a quadratic). `None` unless `n ≥ degree + 8`.
     pub fn new(n: usize, degree: usize) -> Option<Self> {
-        if n < degree + 8 {
+        Self::with_columns(n, degree, &[])
+    }
+
+    /// As [`NoiseModel::new`], with further regressors removed with the polynomial (for
+    /// instance the cosine and sine of a candidate oscillation). `None` unless
+    /// `n ≥ degree + columns + 8` and the columns are linearly independent of the rest.
+    pub fn with_columns(n: usize, degree: usize, extra: &[&[f64]]) -> Option<Self> {
+        if n < degree + extra.len() + 8 {
             return None;
         }
-        let q = poly_basis(n, degree)?;
+        let q = poly_basis(n, degree, extra)?;
         let aq: Vec<Vec<f64>> = q.iter().map(|v| a_mul(v)).collect();
         let qaq = q.iter().map(|a| aq.iter().map(|b| dot(a, b)).collect()).collect();
         Some(Self { n, q, aq, qaq })
@@ -287,11 +300,9 @@ impl NoiseModel {
 
         // tr S² = tr R² − 2 Σ‖R q‖² + Σ (qᵀRq)².
         let mut tr_s2 = tr_r2;
-        for a in 0..k {
-            tr_s2 -= 2.0 * dot(&rq[a], &rq[a]);
-            for b in 0..k {
-                tr_s2 += qrq[a][b] * qrq[a][b];
-            }
+        for (rqa, row) in rq.iter().zip(&qrq) {
+            tr_s2 -= 2.0 * dot(rqa, rqa);
+            tr_s2 += row.iter().map(|v| v * v).sum::<f64>();
         }
         let brz: Vec<Vec<f64>> = rz.iter().map(|v| b_mul(v)).collect();
         let zrz: Vec<Vec<f64>> =
@@ -445,7 +456,7 @@ mod tests {
 
     /// Dense reference: the same moments with explicit n×n matrices.
     fn dense_moments(n: usize, degree: usize, phi: f64) -> (f64, f64, f64, f64) {
-        let q = poly_basis(n, degree).expect("basis");
+        let q = poly_basis(n, degree, &[]).expect("basis");
         let mut m = vec![vec![0.0; n]; n];
         for i in 0..n {
             m[i][i] = 1.0;
