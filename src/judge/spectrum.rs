@@ -251,9 +251,11 @@ pub fn detrend_quadratic(x: &[f64]) -> Vec<f64> {
 /// `None` when the window is too short or degenerate.
 fn null_model(d: &[f64], f: f64) -> Option<background::NullModel> {
     let n = d.len();
-    let w = 2.0 * std::f64::consts::PI * f;
-    let cos: Vec<f64> = (0..n).map(|t| (w * t as f64).cos()).collect();
-    let sin: Vec<f64> = (0..n).map(|t| (w * t as f64).sin()).collect();
+    let (mut cos, mut sin) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    each_basis(d, f, |b, _| {
+        cos.push(b[3]);
+        sin.push(b[4]);
+    });
     // At the Nyquist frequency the sine column vanishes.
     let cols: Vec<&[f64]> = if (f - 0.5).abs() < 1e-12 { vec![&cos] } else { vec![&cos, &sin] };
     let model = stats::ar1::NoiseModel::with_columns(n, 2, &cols)?;

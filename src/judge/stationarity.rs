@@ -1,9 +1,12 @@
 //! Monitor stationarity: start-up transient removal (MSER, MSER-5), the error of a window
-//! mean under autocorrelation (batch means, integrated autocorrelation time) and the two
-//! user-facing numbers drift and band.
+//! mean under autocorrelation (integrated autocorrelation time, batch means, and the
+//! bias-corrected AR(1) model of [`stats::ar1`]) and the two user-facing numbers drift and
+//! band.
 //!
 //! Monitor samples are strongly autocorrelated (one iteration changes the solution a little),
-//! so a naive `σ/√n` standard error is far too small; both estimators here account for that.
+//! so a naive `σ/√n` standard error is far too small. The model-free estimates are biased low
+//! on windows of a few hundred values, so the mean's interval also uses the AR(1) model
+//! (`docs/methods.md`, "Transient removal" and "Intervals under autocorrelation").
 
 use rustfft::FftPlanner;
 use rustfft::num_complex::Complex;
@@ -19,12 +22,34 @@ fn mser_at(y: &[f64], d: usize) -> f64 {
     tail.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (k * k)
 }
 
+/// An MSER truncation point and what the rule says about it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Truncation {
+    /// Values to delete from the start (raw samples for [`mser5_truncation`]).
+    pub d: usize,
+    /// The last truncation searched (in the same unit as `d`).
+    pub d_max: usize,
+    /// MSER for every truncation searched (batch units for MSER-5).
+    pub values: Vec<f64>,
+}
+
+impl Truncation {
+    /// The minimum lies at the end of the search range: MSER was still falling there, so
+    /// the transient may reach beyond it. When the range ends at half the data (the usual
+    /// rule, and what [`mser_truncation`] and [`mser5_truncation`] use unless told less),
+    /// the series is too short to call stationary (White 1997; White, Cobb & Spratt 2000).
+    pub fn at_limit(&self) -> bool {
+        self.d_max > 0 && self.d == self.d_max
+    }
+}
+
 /// MSER truncation (White 1997; White, Cobb & Spratt 2000): the `d ≤ d_max` minimising
 /// `MSER(d) = Σ_{i>d}(Y_i − Ȳ_d)²/(n−d)²`, with the MSER values for `d = 0..=d_max`.
 ///
-/// `d_max` is clamped to `n/2` (the usual rule: a minimum beyond half the data means the
-/// series is too short to call stationary). `None` for fewer than 2 values.
-pub fn mser(y: &[f64], d_max: usize) -> Option<(usize, Vec<f64>)> {
+/// `d_max` is clamped to `n/2`: a minimum beyond half the data means the series is too short
+/// to call stationary, and the search does not look there; a minimum *at* the clamp is
+/// reported by [`Truncation::at_limit`]. `None` for fewer than 2 values.
+pub fn mser_truncation(y: &[f64], d_max: usize) -> Option<Truncation> {
     if y.len() < 2 {
         return None;
     }
@@ -47,9 +72,14 @@ pub fn mser(y: &[f64], d_max: usize) -> Option<(usize, Vec<f64>)> {
             ss / (k * k)
         })
         .collect();
-    let best =
+    let d =
         values.iter().enumerate().min_by(|a, b| a.1.total_cmp(b.1)).map(|(i, _)| i).unwrap_or(0);
-    Some((best, values))
+    Some(Truncation { d, d_max, values })
+}
+
+/// [`mser_truncation`] as `(d, values)`; see there for the limit at `n/2`.
+pub fn mser(y: &[f64], d_max: usize) -> Option<(usize, Vec<f64>)> {
+    mser_truncation(y, d_max).map(|t| (t.d, t.values))
 }
 
 /// Direct (unoptimised) MSER value, kept for tests of [`mser`].
@@ -57,13 +87,18 @@ pub fn mser_direct(y: &[f64], d: usize) -> f64 {
     mser_at(y, d)
 }
 
-/// MSER-5 truncation point in raw samples (Franklin & White 2008): MSER on the means of
-/// non-overlapping batches of 5, truncation `5·d*`. Trailing samples that do not fill a batch
-/// are ignored by the search. `None` with fewer than two batches.
-pub fn mser5(y: &[f64]) -> Option<usize> {
+/// MSER-5 (Franklin & White 2008): MSER on the means of non-overlapping batches of 5, the
+/// truncation and its limit in raw samples (`5·d*`, `5·d_max`). Trailing samples that do not
+/// fill a batch are ignored by the search. `None` with fewer than two batches.
+pub fn mser5_truncation(y: &[f64]) -> Option<Truncation> {
     let batches: Vec<f64> = y.chunks_exact(5).map(|c| c.iter().sum::<f64>() / 5.0).collect();
-    let (d, _) = mser(&batches, batches.len() / 2)?;
-    Some(5 * d)
+    let t = mser_truncation(&batches, batches.len() / 2)?;
+    Some(Truncation { d: 5 * t.d, d_max: 5 * t.d_max, values: t.values })
+}
+
+/// MSER-5 truncation point in raw samples ([`mser5_truncation`]).
+pub fn mser5(y: &[f64]) -> Option<usize> {
+    mser5_truncation(y).map(|t| t.d)
 }
 
 /// A batch-means estimate of the standard error of a mean.
@@ -75,7 +110,8 @@ pub struct BatchMeans {
     pub batch_size: usize,
 }
 
-/// Batch-means standard error with `b` non-overlapping batches (METHODS §2e):
+/// Batch-means standard error with `b` non-overlapping batches (`docs/methods.md`,
+/// "Intervals under autocorrelation"):
 /// `SE = sqrt(Σ(Ȳ_j − Ȳ)² / (b(b−1)))`. The oldest `n mod b` values are dropped so that the
 /// batches end at the newest value. `None` when `b < 2` or a batch would be empty.
 pub fn batch_means(x: &[f64], b: usize) -> Option<BatchMeans> {

@@ -24,7 +24,7 @@ use super::stats::ar1::NoiseModel;
 use super::{stationarity, stats};
 
 /// Default slope below which a residual counts as falling, decades per 1000 iterations
-/// (METHODS §1 "s_min e.g. 0.1 orders/1000 it"; common practice, no source).
+/// (`docs/methods.md`, "Rules of thumb"; common practice, no source).
 pub const MIN_FALL_DEC_PER_KIT: f64 = 0.1;
 
 /// A fitted trend of log10(residual).
