@@ -27,7 +27,7 @@ fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
 }
 
-// ---------------------------------------------------------------- regression (METHODS §1)
+// ------------------------------------------------------ regression (docs/methods.md, "Regression")
 
 #[test]
 fn ols_matches_nist_strd_norris_certified_values() {
@@ -48,7 +48,7 @@ fn ols_matches_nist_strd_norris_certified_values() {
     ] {
         assert!(lre(got, cert) >= 12.0, "{what}: {got} vs {cert}, LRE {}", lre(got, cert));
     }
-    // Slope 95 % CI with t_{0.975,34} = 2.0322445 (METHODS §1, RECOMPUTED):
+    // Slope 95 % CI with t_{0.975,34} = 2.0322445 (docs/methods.md, "Regression", RECOMPUTED):
     // [1.001243365736, 1.002990270305].
     let t = stats::t_quantile(0.975, 34.0).expect("valid dof");
     assert!((t - 2.0322445).abs() < 1e-6, "{t}");
@@ -58,8 +58,8 @@ fn ols_matches_nist_strd_norris_certified_values() {
 
 #[test]
 fn no_intercept_fit_matches_nist_noint1_and_noint2() {
-    // Source: NIST StRD "NoInt1" (y = 130..140, x = 60..70) and "NoInt2" (y = 3, 4, 4;
-    // x = 4, 5, 6), certified values as quoted in METHODS §1 (stata.com NIST certification
+    // Source: NIST StRD "NoInt1" (y = 130..140, x = 60..70) and "NoInt2" (y = 3, 4, 4; x = 4, 5,
+    // 6), certified values as quoted in docs/methods.md, "Regression" (stata.com NIST certification
     // pages).
     let x: Vec<f64> = (60..=70).map(f64::from).collect();
     let y: Vec<f64> = (130..=140).map(f64::from).collect();
@@ -73,7 +73,7 @@ fn no_intercept_fit_matches_nist_noint1_and_noint2() {
     assert!(lre(f2.se_slope, 0.420827318078432E-01) >= 12.0);
 }
 
-// ---------------------------------------------------------------- univariate (METHODS §1)
+// --------------------------------------------- univariate (docs/methods.md, "Univariate accuracy")
 
 fn numacc(first: f64, a: f64, b: f64) -> Vec<f64> {
     // NIST StRD NumAcc2–4 construction rule: the first value, then 500 × (a, b).
@@ -87,9 +87,9 @@ fn numacc(first: f64, a: f64, b: f64) -> Vec<f64> {
 
 #[test]
 fn mean_sd_r1_match_nist_numacc1_to_4() {
-    // Source: NIST StRD univariate "NumAcc1" (exact certified values: mean 10000002, SD 1,
-    // r1 −0.5) and NumAcc2–4 (mean 1.2 / 1000000.2 / 10000000.2, SD 0.1, r1 −0.999), built by
-    // the rule in METHODS §1. Tolerances per METHODS §1: the inputs of NumAcc3/4 are not
+    // Source: NIST StRD univariate "NumAcc1" (exact certified values: mean 10000002, SD 1, r1 −0.5)
+    // and NumAcc2–4 (mean 1.2 / 1000000.2 / 10000000.2, SD 0.1, r1 −0.999), built by the rule in
+    // docs/methods.md, "Univariate accuracy", and its tolerances: the inputs of NumAcc3/4 are not
     // representable in binary, so relative 1e-9 (NumAcc3) and 1e-8 (NumAcc4) on SD and r1.
     let a1 = [10000001.0, 10000003.0, 10000002.0];
     let (m, sd) = stats::mean_sd(&a1).expect("3 values");
@@ -129,11 +129,11 @@ fn mean_sd_r1_match_nist_lew_michelso_mavro() {
     }
 }
 
-// ---------------------------------------------------------------- Student t (METHODS §1)
+// -------------------------------------------------------- Student t (docs/methods.md, "Student t")
 
 #[test]
 fn t_quantiles_match_table_and_statrs() {
-    // Source: printed t table (METHODS §1, VERIFIED): t_{0.975,10} = 2.2281,
+    // Source: printed t table (docs/methods.md, "Student t", VERIFIED): t_{0.975,10} = 2.2281,
     // t_{0.975,20} = 2.0860, t_{0.975,30} = 2.0423; z_{0.975} = 1.959964.
     for (dof, t) in [(10.0, 2.2281), (20.0, 2.0860), (30.0, 2.0423)] {
         let q = stats::t_quantile(0.975, dof).expect("valid");
@@ -149,7 +149,7 @@ fn t_quantiles_match_table_and_statrs() {
     assert!(a > stats::t_quantile(0.975, 5.0).expect("valid") && a < 2.7764);
 }
 
-// ---------------------------------------------------------------- spectrum (METHODS §3)
+// ------------------------------------------------------- spectrum (docs/methods.md, "Oscillation")
 
 #[test]
 fn fft_periodogram_matches_direct_dft() {
@@ -173,8 +173,8 @@ fn fft_periodogram_matches_direct_dft() {
 
 #[test]
 fn exact_sine_period_amplitude_and_g() {
-    // Source: METHODS §3 check (RECOMPUTED, exact): n = 64, x_t = 2 sin(2π·8t/64) gives
-    // |X_8| = 64 (I_8 = 64), A = 2, T = 8, g = 1, p = 0.
+    // Source: docs/methods.md, "Oscillation" check (RECOMPUTED, exact): n = 64, x_t = 2
+    // sin(2π·8t/64) gives |X_8| = 64 (I_8 = 64), A = 2, T = 8, g = 1, p = 0.
     let x: Vec<f64> =
         (0..64).map(|t| 2.0 * (2.0 * std::f64::consts::PI * 8.0 * t as f64 / 64.0).sin()).collect();
     let ord = spectrum::periodogram(&x);
@@ -195,8 +195,8 @@ fn exact_sine_period_amplitude_and_g() {
 
 #[test]
 fn fisher_exact_p_value_at_recomputed_critical_values() {
-    // Source: METHODS §3 table of exact critical values g_α (RECOMPUTED with mpmath there;
-    // the 5 % row matches Fisher's/Davis' table FROM MEMORY): P(G > g_α) = α.
+    // Source: docs/methods.md, "Oscillation", table of exact critical values g_α (RECOMPUTED with
+    // mpmath; the 5 % row matches Fisher's/Davis' table FROM MEMORY): P(G > g_α) = α.
     let ms = [5usize, 10, 15, 20, 25, 30, 40, 50, 100];
     let g05 = [0.68377, 0.44495, 0.33461, 0.27040, 0.22805, 0.19784, 0.15738, 0.13135, 0.07378];
     let g01 = [0.78853, 0.53584, 0.40689, 0.32971, 0.27819, 0.24124, 0.19156, 0.15954, 0.08882];
@@ -207,7 +207,7 @@ fn fisher_exact_p_value_at_recomputed_critical_values() {
         assert!((p05 - 0.05).abs() < 1e-4, "m {}: {p05}", ms[i]);
         assert!((p01 - 0.01).abs() < 5e-5, "m {}: {p01}", ms[i]);
     }
-    // METHODS §3 test use: (g = 0.2704, m = 20) ≈ 0.05.
+    // (g = 0.2704, m = 20) ≈ 0.05, the 5 % point for m = 20.
     assert!((spectrum::fisher_p_value(0.2704, 20) - 0.05).abs() < 1e-4);
 }
 
@@ -215,10 +215,39 @@ fn fisher_exact_p_value_at_recomputed_critical_values() {
 fn fisher_p_value_matches_mathworks_example() {
     // Source: MathWorks "Significance Testing for Periodic Component" example (n = 1000,
     // 499 ordinates, g = 0.0381, published p = 2.0163e-06 for the unrounded g); with g
-    // rounded to 0.0381 the formula gives 1.98e-06 (METHODS §3, RECOMPUTED).
+    // rounded to 0.0381 the formula gives 1.98e-06 (docs/methods.md, "Oscillation", RECOMPUTED).
     let p = spectrum::fisher_p_value(0.0381, 499);
     assert!(rel(p, 1.98e-6) < 0.01, "{p}");
     assert!(rel(p, 2.0163e-6) < 0.03, "{p}");
+}
+
+#[test]
+fn fisher_p_value_matches_high_precision_values() {
+    // Reference: Fisher's (1929) alternating sum evaluated with mpmath at 50 + log10(largest
+    // term) significant digits (RECOMPUTED for this test; docs/methods.md, "Oscillation").
+    // Below p = 0.999 the double-precision sum agrees to 1e-12; near p = 1, where it cancels
+    // and the code may switch to 1 − exp(−m(1−g)^{m−1}), to 1e-7 (the documented bound;
+    // the former switch point gave 4.6e-5 at (500, 0.007835)).
+    for (m, g, p) in [
+        (124, 0.1, 2.919_017_531_577_53e-4),
+        (124, 0.05, 0.208_326_741_414_952),
+        (1000, 0.008, 0.281_759_875_300_350),
+        (5000, 0.002, 0.202_042_082_935_067),
+        (20, 0.2704, 0.050_005_478_989_873_5),
+        (499, 0.0381, 1.980_627_784_616_88e-6),
+    ] {
+        let got = spectrum::fisher_p_value(g, m);
+        assert!((got - p).abs() < 1e-12, "m {m} g {g}: {got} vs {p}");
+    }
+    for (m, g, p) in [
+        (500, 0.007835, 0.999_994_656_833_830),
+        (2000, 4.743 / 2000.0, 0.999_999_996_755_213),
+        (50, 1.3765 / 50.0, 1.0),
+        (100, 0.0105, 1.0),
+    ] {
+        let got = spectrum::fisher_p_value(g, m);
+        assert!((got - p).abs() < 1e-7, "m {m} g {g}: {got} vs {p}");
+    }
 }
 
 /// SplitMix64 uniform generator and Box–Muller normals: a seeded source for Monte Carlo checks.
@@ -270,44 +299,13 @@ fn fisher_test_false_alarm_rate_is_alpha_under_white_noise() {
     assert!((rate - 0.05).abs() < 0.015, "false-alarm rate {rate}");
 }
 
-#[test]
-fn detector_keeps_its_level_on_white_and_red_noise() {
-    // Seeded Monte Carlo of the full detector (detrend + AR(1) background + Fisher's g) at
-    // α = 0.01: white noise and strongly red AR(1) noise (φ = 0.9, the kind a monitor shows)
-    // must both stay near the nominal rate (below 3α; a plain white-noise test on φ = 0.9
-    // noise alarms in most series).
-    let mut rng = Rng(77);
-    let reps = 200;
-    for phi in [0.0, 0.9] {
-        let mut hits = 0;
-        for _ in 0..reps {
-            let x = rng.ar1(257, phi);
-            if spectrum::find_oscillation(&x).is_some_and(|o| o.significant(0.01)) {
-                hits += 1;
-            }
-        }
-        let rate = hits as f64 / reps as f64;
-        assert!(rate < 0.03, "phi {phi}: false-alarm rate {rate}");
-    }
-    // And the plain test does alarm on red noise, which is why the background is fitted.
-    let mut hits = 0;
-    for _ in 0..reps {
-        let x = spectrum::detrend(&rng.ar1(257, 0.9));
-        let ord = spectrum::periodogram(&x);
-        let m = spectrum::fisher_m(x.len());
-        let (_, g) = spectrum::fisher_g(&ord[2..=m]).expect("noise");
-        if spectrum::fisher_p_value(g, m - 1) < 0.01 {
-            hits += 1;
-        }
-    }
-    assert!(hits as f64 / reps as f64 > 0.3, "plain g-test on red noise: {hits}/{reps}");
-}
-
-// ---------------------------------------------------------------- stationarity (METHODS §2)
+// --------------------------------------------- stationarity (docs/methods.md, "Transient removal",
+// "Intervals under autocorrelation")
 
 #[test]
 fn mser_exact_table() {
-    // Source: METHODS §2b check (RECOMPUTED, hand-checkable); MSER of White (1997).
+    // Source: docs/methods.md, "Transient removal" check (RECOMPUTED, hand-checkable); MSER of
+    // White (1997).
     let y = [5.0, 3.0, 1.0, 0.0, 0.1, -0.1, 0.1, -0.1, 0.1, -0.1];
     let (d, v) = stationarity::mser(&y, 4).expect("10 values");
     let table = [0.2696, 0.10225, 0.014609, 0.0012245, 0.0016667];
@@ -319,7 +317,7 @@ fn mser_exact_table() {
 
 #[test]
 fn mser5_finds_a_step_transient() {
-    // METHODS §2b test use: a step ≫ σ ending at k, then white noise, gives d* ≈ k.
+    // docs/methods.md, "Transient removal": a step ≫ σ ending at k, then white noise, gives d* ≈ k.
     let mut rng = Rng(5);
     let y: Vec<f64> = (0..600).map(|i| if i < 100 { 10.0 } else { 0.0 } + rng.normal()).collect();
     let d = stationarity::mser5(&y).expect("600 values");
@@ -327,9 +325,40 @@ fn mser5_finds_a_step_transient() {
 }
 
 #[test]
+fn mser_reports_a_minimum_at_half_the_data() {
+    // White (1997), White, Cobb & Spratt (2000): truncations are searched up to half the
+    // data; a minimum at that limit means the transient may reach beyond it, so the series
+    // is too short to call stationary (docs/methods.md, "Transient removal").
+    let mut rng = Rng(9);
+    let noise: Vec<f64> = (0..400).map(|_| 0.1 * rng.normal()).collect();
+    let t = stationarity::mser_truncation(&noise, usize::MAX).expect("400 values");
+    assert_eq!(t.d_max, 200);
+    assert!(!t.at_limit(), "stationary noise: d = {}", t.d);
+    // A ramp falling for 70 % of the series: MSER still falls at n/2.
+    let ramp: Vec<f64> = noise
+        .iter()
+        .enumerate()
+        .map(|(i, e)| e + if i < 280 { 5.0 * (1.0 - i as f64 / 280.0) } else { 0.0 })
+        .collect();
+    let t = stationarity::mser_truncation(&ramp, usize::MAX).expect("400 values");
+    assert!(t.at_limit() && t.d == 200, "d = {}", t.d);
+    let t5 = stationarity::mser5_truncation(&ramp).expect("80 batches");
+    assert!(t5.at_limit() && (t5.d, t5.d_max) == (200, 200), "{t5:?}");
+    // The same ramp over 20 % of the series is found and is not at the limit.
+    let short: Vec<f64> = noise
+        .iter()
+        .enumerate()
+        .map(|(i, e)| e + if i < 80 { 5.0 * (1.0 - i as f64 / 80.0) } else { 0.0 })
+        .collect();
+    let t5 = stationarity::mser5_truncation(&short).expect("80 batches");
+    assert!(!t5.at_limit() && (60..=100).contains(&t5.d), "{t5:?}");
+    assert_eq!(stationarity::mser5(&short), Some(t5.d));
+}
+
+#[test]
 fn batch_means_hand_example() {
-    // Source: METHODS §2e (RECOMPUTED, by hand): x = 1..20, b = 4 → batch means 3, 8, 13,
-    // 18; SE = sqrt(125/3/4) = 3.227486.
+    // Source: docs/methods.md, "Intervals under autocorrelation" (RECOMPUTED, by hand): x = 1..20,
+    // b = 4 → batch means 3, 8, 13, 18; SE = sqrt(125/3/4) = 3.227486.
     let x: Vec<f64> = (1..=20).map(f64::from).collect();
     let bm = stationarity::batch_means(&x, 4).expect("20 values");
     assert_eq!((bm.batches, bm.batch_size), (4, 5));
@@ -339,8 +368,9 @@ fn batch_means_hand_example() {
 
 #[test]
 fn iat_on_exact_ar1_autocorrelations() {
-    // Source: METHODS §2f, analytic AR(1) ρ(t) = φ^t, τ = (1+φ)/(1−φ); Sokal window c = 5
-    // (RECOMPUTED there): φ = 0.5 → M = 15, τ = 2.99994; φ = 0.9 → M = 95, τ = 18.99919.
+    // Source: docs/methods.md, "Intervals under autocorrelation": analytic AR(1) ρ(t) = φ^t, τ =
+    // (1+φ)/(1−φ); Sokal window c = 5 (RECOMPUTED): φ = 0.5 → M = 15, τ = 2.99994; φ = 0.9 → M =
+    // 95, τ = 18.99919.
     let acf = |phi: f64| (0..4000).map(|t| phi.powi(t)).collect::<Vec<f64>>();
     let (tau, m) = stationarity::iat_sokal_acf(&acf(0.5), 5.0).expect("window exists");
     assert_eq!(m, 15);
@@ -357,7 +387,8 @@ fn iat_on_exact_ar1_autocorrelations() {
 
 #[test]
 fn iat_on_seeded_ar1_series() {
-    // METHODS §2f test use: seeded AR(1) series of 1e5 points, τ within ±5 %.
+    // Seeded AR(1) series of 1e5 points, τ within ±5 % (docs/methods.md, "Intervals under
+    // autocorrelation").
     let mut rng = Rng(11);
     for (phi, want) in [(0.5, 3.0), (0.8, 9.0)] {
         let x = rng.ar1(100_000, phi);
@@ -366,12 +397,13 @@ fn iat_on_seeded_ar1_series() {
     }
 }
 
-// ---------------------------------------------------------------- iterative error (METHODS §4)
+// -------------------------------------------- iterative error (docs/methods.md, "Iterative error")
 
 #[test]
 fn aitken_burden_faires_cos_table() {
-    // Source: Burden & Faires, Numerical Analysis, §2.5 Example 1, p_n = cos(1/n) — FROM
-    // MEMORY, values RECOMPUTED identical in METHODS §4b (p̂_6, p̂_7 recomputed only).
+    // Source: Burden & Faires, Numerical Analysis, §2.5 Example 1, p_n = cos(1/n) — FROM MEMORY,
+    // values RECOMPUTED identical (docs/methods.md, "Iterative error") (p̂_6, p̂_7 recomputed
+    // only).
     let p: Vec<f64> = (1..=9).map(|n| (1.0 / n as f64).cos()).collect();
     let want = [0.96178, 0.98213, 0.98979, 0.99342, 0.99541, 0.99662, 0.99741];
     let got = iterative::aitken_sequence(&p);
@@ -383,9 +415,9 @@ fn aitken_burden_faires_cos_table() {
 
 #[test]
 fn eigenvalue_estimate_on_a_geometric_sequence() {
-    // Source: METHODS §4a check (RECOMPUTED, exact): φ^n = 1 + 0.5·0.9^n at n = 20 gives
-    // λ = 0.9, φ∞ = 1 and an error equal to the true error −0.0607883273 (Ferziger & Perić
-    // §5.7, FROM MEMORY).
+    // Source: docs/methods.md, "Iterative error" check (RECOMPUTED, exact): φ^n = 1 + 0.5·0.9^n at
+    // n = 20 gives λ = 0.9, φ∞ = 1 and an error equal to the true error −0.0607883273 (Ferziger &
+    // Perić §5.7, FROM MEMORY).
     let phi: Vec<f64> = (0..=21).map(|n| 1.0 + 0.5 * 0.9f64.powi(n)).collect();
     let e = iterative::eigen_estimate(&phi, 1).expect("geometric");
     assert!((e.lambda - 0.9).abs() < 1e-12, "{e:?}");
@@ -395,7 +427,7 @@ fn eigenvalue_estimate_on_a_geometric_sequence() {
     // Averaged over k = 5 steps gives the same for an exact geometric sequence.
     let e5 = iterative::eigen_estimate(&phi, 5).expect("geometric");
     assert!((e5.lambda - 0.9).abs() < 1e-12 && (e5.extrapolated - 1.0).abs() < 1e-12);
-    // Aitken extrapolates the same sequence to 1 within 1e-12 (METHODS §4b test use).
+    // Aitken extrapolates the same sequence to 1 within 1e-12 (docs/methods.md, "Iterative error").
     let a = iterative::aitken_step(phi[18], phi[19], phi[20]).expect("geometric");
     assert!((a - 1.0).abs() < 1e-12);
 }

@@ -1,6 +1,7 @@
 //! Iterative-error estimates for geometrically converging histories: Aitken's Δ²
 //! extrapolation and the ratio-of-successive-differences (dominant eigenvalue) estimate of
-//! Ferziger & Perić (Computational Methods for Fluid Dynamics, §5.7).
+//! Ferziger & Perić (Computational Methods for Fluid Dynamics, §5.7); `docs/methods.md`,
+//! "Iterative error".
 //!
 //! When one real eigenvalue λ of the iteration dominates, the error shrinks by λ per
 //! iteration and the change per iteration `δ` relates to the error by `ε = δ/(1−λ)`: with λ

@@ -5,9 +5,13 @@
 //! (`Σx² − n·x̄²`, `Σxy − n·x̄·ȳ`) lose every significant digit on data with a large offset,
 //! which is exactly what the NIST Statistical Reference Datasets (NumAcc, Norris) are built to
 //! expose, and what monitor histories (drag 0.031 21 ± 1e-6) look like. Distribution functions
-//! come from `statrs`, not from local approximations.
+//! come from `statrs`, not from local approximations. [`ar1`] holds the small-sample AR(1)
+//! noise model behind the intervals (`docs/methods.md`, "Regression", "Univariate accuracy",
+//! "Student t", "Intervals under autocorrelation").
 
 use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
+
+pub mod ar1;
 
 /// Arithmetic mean, refined by a second pass so that a large common offset does not cost
 /// digits. `None` for an empty slice.
@@ -82,7 +86,8 @@ impl Ols {
     }
 }
 
-/// Least-squares line through `(x_i, y_i)`, centred two-pass form (METHODS §1).
+/// Least-squares line through `(x_i, y_i)`, centred two-pass form (`docs/methods.md`,
+/// "Regression").
 ///
 /// `None` with fewer than 3 points, mismatched lengths, non-finite input or all `x` equal.
 pub fn ols(x: &[f64], y: &[f64]) -> Option<Ols> {
