@@ -15,7 +15,6 @@ use clap::{Args, Parser as ClapParser, Subcommand};
 use settle::follow::{FollowConfig, Waker};
 use settle::judge::{self, Criteria, Judgement};
 use settle::parser::Registry;
-use settle::record::Output;
 use settle::run::RunStore;
 use settle::run::config::{self, RunSpec};
 use settle::run::pipeline::{self, SourceReader};
@@ -392,15 +391,27 @@ fn cmd_parse(a: ParseArgs, registry: Arc<Registry>) -> Result<u8> {
 }
 
 /// `parse --follow`: print one line per new record as the files grow.
+///
+/// Records are printed from a store per source, so a file rewritten in place is not
+/// printed again: only records that differ from what was printed are (after a note).
 fn follow_records(spec: &RunSpec, registry: Arc<Registry>, poll: f64, json: bool) -> Result<u8> {
+    use settle::run::SourceStore;
+    use settle::run::ingest::{self, IngestItem, SourceActivity};
+
     let poll = Duration::from_secs_f64(poll.clamp(0.05, 60.0));
     let cfg = FollowConfig { poll_interval: poll, ..FollowConfig::default() };
     let mut readers = Vec::new();
     for s in &spec.sources {
         readers.push(SourceReader::new(s, registry.clone(), cfg.clone())?);
     }
-    let mut names: Vec<std::collections::HashMap<u32, String>> =
-        vec![Default::default(); readers.len()];
+    let n = readers.len();
+    let mut stores: Vec<SourceStore> =
+        readers.iter().map(|r| SourceStore::new(r.label(), "-")).collect();
+    let mut activity = vec![SourceActivity::default(); n];
+    // Records and events printed so far, and whether the end mark was.
+    let mut printed = vec![0usize; n];
+    let mut events = vec![0u64; n];
+    let mut ended = vec![false; n];
     let mut waker = Waker::new();
     loop {
         let dirty = waker.take_names_dirty();
@@ -413,42 +424,72 @@ fn follow_records(spec: &RunSpec, registry: Arc<Registry>, poll: f64, json: bool
             }
             let items = r.read(false)?;
             let mut o = String::new();
+            let store = &mut stores[i];
             for item in items {
-                use settle::run::ingest::IngestItem;
-                match item {
-                    IngestItem::Output(Output::Series(s)) => {
-                        names[i].insert(s.id, s.name);
-                    }
-                    IngestItem::Output(Output::Record(rec)) => {
-                        o.push_str(&view::parse::record_line(r.label(), &rec, &names[i], json));
-                    }
-                    IngestItem::Output(Output::Event(e)) if !json => {
-                        o.push_str(&format!(
-                            "{}: {} {}: {}\n",
-                            r.label(),
-                            e.severity.as_str(),
-                            e.rule,
-                            view::parse::clean(&e.message)
-                        ));
-                    }
-                    IngestItem::Output(Output::EndOfRun { message, .. }) if !json => {
-                        o.push_str(&format!(
-                            "{}: end of run: {}\n",
-                            r.label(),
-                            view::parse::clean(&message)
-                        ));
-                    }
-                    IngestItem::Restart(reason) => {
-                        names[i].clear();
-                        if !json {
-                            o.push_str(&format!("{}: restart ({reason:?})\n", r.label()));
-                        }
+                match &item {
+                    IngestItem::Restart(reason) if !json => {
+                        o.push_str(&format!("{}: restart ({reason:?})\n", r.label()));
                     }
                     IngestItem::Note(n) if !json => {
-                        o.push_str(&format!("{}: note: {}\n", r.label(), view::parse::clean(&n)));
+                        o.push_str(&format!("{}: note: {}\n", r.label(), view::parse::clean(n)));
                     }
                     _ => {}
                 }
+                ingest::apply(store, &mut activity[i], vec![item]);
+            }
+            if let Some(from) = store.take_rewound()
+                && from < printed[i]
+            {
+                if !json {
+                    o.push_str(&format!(
+                        "{}: file rewritten; records from number {} on replaced\n",
+                        r.label(),
+                        from + 1
+                    ));
+                }
+                printed[i] = from;
+            }
+            let names: std::collections::HashMap<u32, String> = store
+                .series()
+                .iter()
+                .enumerate()
+                .map(|(k, s)| (k as u32, s.name.clone()))
+                .collect();
+            for p in printed[i]..store.closed_records() {
+                if let Some(rec) = store.record_at(p) {
+                    o.push_str(&view::parse::record_line(r.label(), &rec, &names, json));
+                }
+            }
+            printed[i] = printed[i].max(store.closed_records());
+            let total = store.events_dropped + store.events.len() as u64;
+            events[i] = events[i].min(total);
+            let first =
+                usize::try_from(events[i].saturating_sub(store.events_dropped)).unwrap_or(0);
+            for e in store.events.iter().skip(first) {
+                if !json {
+                    o.push_str(&format!(
+                        "{}: {} {}: {}\n",
+                        r.label(),
+                        e.severity.as_str(),
+                        e.rule,
+                        view::parse::clean(&e.message)
+                    ));
+                }
+            }
+            events[i] = total;
+            match &store.ended {
+                Some((_, message)) if !ended[i] => {
+                    ended[i] = true;
+                    if !json {
+                        o.push_str(&format!(
+                            "{}: end of run: {}\n",
+                            r.label(),
+                            view::parse::clean(message)
+                        ));
+                    }
+                }
+                None => ended[i] = false,
+                _ => {}
             }
             if !o.is_empty() {
                 out(&o)?;

@@ -16,9 +16,17 @@
 //!
 //! With no header at all (`header = "none"`, or numeric rows from the first line), columns
 //! are named `col1`, `col2`, … unless the definition lists `columns`.
+//!
+//! Most lines of a large table are plain data rows of the current header; `fast.rs` reads
+//! those in one pass (cells found and numbers read in the same scan, the index read once).
+//! Anything else, or any doubt, goes through the general classification below. Like the
+//! `lines` engine, a parser can start in the middle of a file ([`TableParser::speculative`])
+//! and hand over at the join ([`TableParser::join`]), so a large file is read on several
+//! cores.
 
 pub mod cells;
 pub mod compile;
+mod fast;
 
 use std::collections::VecDeque;
 use std::sync::Arc;
@@ -26,9 +34,9 @@ use std::sync::Arc;
 use cells::{Cell, CellKind, Delimiter, components, split};
 
 use super::number::{parse_integer, parse_number};
-use super::series::{LineUse, SeriesTable, Tally, clean_text, excerpt};
+use super::series::{LineUse, MAX_SERIES, SeriesTable, Tally, clean_text, excerpt};
 use crate::glob;
-use crate::record::{LineStats, Output, Record, Role, SeriesId};
+use crate::record::{Batch, LineStats, RecordRef, Role, SeriesId, Sink};
 
 /// Header candidates remembered while waiting for a row that fits one.
 const MAX_CANDIDATES: usize = 8;
@@ -157,6 +165,18 @@ pub struct TableParser {
     header: Option<Header>,
     candidates: VecDeque<Vec<Vec<u8>>>,
     series: SeriesTable,
+    /// The values of the row being read (reused; lent to the sink).
+    values: Vec<(SeriesId, f64)>,
+    /// For a parser made by [`TableParser::speculative`]: the header state it assumed.
+    assumed: Option<Box<Assumed>>,
+}
+
+/// What a speculative parser assumed about the lines before its part.
+#[derive(Debug, Clone)]
+struct Assumed {
+    header: Option<Header>,
+    candidates: VecDeque<Vec<Vec<u8>>>,
+    series: usize,
 }
 
 impl TableParser {
@@ -169,6 +189,8 @@ impl TableParser {
             header: None,
             candidates: VecDeque::new(),
             series: SeriesTable::default(),
+            values: Vec::new(),
+            assumed: None,
         };
         if let Some(cols) = p.prog.columns.clone() {
             let raw: Vec<Vec<u8>> = cols.into_iter().map(String::into_bytes).collect();
@@ -182,12 +204,16 @@ impl TableParser {
     }
 
     /// Table rows are complete when read; nothing is held back.
-    pub fn finish(&mut self, _out: &mut Vec<Output>) {}
+    pub fn finish(&mut self, _out: &mut dyn Sink) {}
 
-    pub fn feed(&mut self, raw: &[u8], out: &mut Vec<Output>) {
+    pub fn feed(&mut self, raw: &[u8], out: &mut dyn Sink) {
         self.line_no += 1;
         self.tally.stats.lines += 1;
         let line = raw.strip_suffix(b"\r").unwrap_or(raw);
+        if self.fast_row(line, out) {
+            self.tally.stats.used += 1;
+            return;
+        }
         let (used, failure) = self.classify(line, out);
         match used {
             LineUse::Ignored => self.tally.stats.ignored += 1,
@@ -200,7 +226,111 @@ impl TableParser {
         }
     }
 
-    fn classify(&mut self, line: &[u8], out: &mut Vec<Output>) -> (LineUse, Option<Failure>) {
+    /// Feed every line of `block`: complete lines, each ending in `\n`.
+    pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
+        let mut start = 0;
+        for nl in memchr::memchr_iter(b'\n', block) {
+            self.feed(&block[start..nl], out);
+            start = nl + 1;
+        }
+    }
+
+    /// A parser for a later part of the same file, read while this one reads the parts
+    /// before it: it assumes the header state this parser has now (a table's header rarely
+    /// changes) and its line numbers start again at 1.
+    pub fn speculative(&self) -> TableParser {
+        let mut p = self.clone();
+        p.line_no = 0;
+        p.tally = Tally::default();
+        p.assumed = Some(Box::new(Assumed {
+            header: self.header.clone(),
+            candidates: self.candidates.clone(),
+            series: self.series.len(),
+        }));
+        p
+    }
+
+    /// Continue after `part`, which `worker` (made by [`speculative`](Self::speculative))
+    /// has read into `batch`; `self` has read everything before `part`. When `self` ended
+    /// the preceding parts in the header state the worker assumed (same header, same pending
+    /// header candidates, no vector column named differently), every row of `part` was read
+    /// as a serial read would read it: the worker's output goes to `out` with its line
+    /// numbers shifted and the worker continues. Otherwise `self` reads `part` itself.
+    pub fn join(
+        &mut self,
+        part: &[u8],
+        mut worker: TableParser,
+        batch: &Batch,
+        out: &mut dyn Sink,
+    ) {
+        let Some(assumed) = worker.assumed.take() else {
+            self.feed_block(part, out);
+            return;
+        };
+        let same_header = match (&self.header, &assumed.header) {
+            (None, None) => true,
+            (Some(a), Some(b)) => a.raw == b.raw && a.problem == b.problem,
+            _ => false,
+        };
+        let new_series = worker.series.len() - assumed.series;
+        if !same_header
+            || self.candidates != assumed.candidates
+            || self.series.len() + new_series > MAX_SERIES
+            || !worker.adopt_vector_names(self, &assumed, out)
+        {
+            self.feed_block(part, out);
+            return;
+        }
+        batch.replay(self.line_no, out);
+        worker.line_no += self.line_no;
+        worker.tally.rebase(self.tally.stats, self.tally.reported());
+        *self = worker;
+    }
+
+    /// How vector columns are named (`_x` or `[0]`) is decided by the first vector seen. A
+    /// column that `prev` decided after the worker's starting point must be named the same
+    /// by the worker: when the worker decided too, the decisions must agree (else `false`);
+    /// when it did not, it takes over `prev`'s decision.
+    fn adopt_vector_names(
+        &mut self,
+        prev: &TableParser,
+        assumed: &Assumed,
+        out: &mut dyn Sink,
+    ) -> bool {
+        let (Some(h), Some(ph), Some(ah)) = (&mut self.header, &prev.header, &assumed.header)
+        else {
+            return true;
+        };
+        for ((col, pcol), acol) in h.cols.iter_mut().zip(&ph.cols).zip(&ah.cols) {
+            let (
+                Col::Value { name, role, comps, xyz, .. },
+                Col::Value { comps: pcomps, xyz: pxyz, .. },
+                Col::Value { comps: acomps, .. },
+            ) = (col, pcol, acol)
+            else {
+                continue;
+            };
+            if !acomps.is_empty() || pcomps.is_empty() {
+                continue;
+            }
+            if !comps.is_empty() {
+                if xyz != pxyz {
+                    return false;
+                }
+                continue;
+            }
+            *xyz = *pxyz;
+            for k in 0..pcomps.len() {
+                match self.series.intern(&component_name(name, k, *xyz), *role, out) {
+                    Some(id) => comps.push(id),
+                    None => return false,
+                }
+            }
+        }
+        true
+    }
+
+    fn classify(&mut self, line: &[u8], out: &mut dyn Sink) -> (LineUse, Option<Failure>) {
         let lead = line.iter().take_while(|b| b.is_ascii_whitespace()).count();
         let body = &line[lead..];
         if body.is_empty() {
@@ -258,7 +388,7 @@ impl TableParser {
         }
     }
 
-    fn row(&mut self, line: &[u8], out: &mut Vec<Output>) -> (LineUse, Option<Failure>) {
+    fn row(&mut self, line: &[u8], out: &mut dyn Sink) -> (LineUse, Option<Failure>) {
         let width = self.cells.len();
         let mut failure = None;
         let fits = self.header.as_ref().is_some_and(|h| h.cols.len() == width);
@@ -285,25 +415,22 @@ impl TableParser {
             failure = Some(Failure::MissingIndex(what));
         }
 
-        let mut rec = Record {
-            iteration: None,
-            time: None,
-            values: Vec::with_capacity(width),
-            line: self.line_no,
-        };
+        let mut values = std::mem::take(&mut self.values);
+        values.clear();
+        let (mut iteration, mut time) = (None, None);
         for (ci, cell) in self.cells.iter().enumerate() {
             let bytes = cell.bytes(line);
             match &mut header.cols[ci] {
                 Col::Ignored => {}
                 Col::Iteration => match parse_integer(bytes) {
-                    Some(it) => rec.iteration = Some(it),
+                    Some(it) => iteration = Some(it),
                     None => {
                         failure
                             .get_or_insert(Failure::BadIteration { span: (cell.start, cell.end) });
                     }
                 },
                 Col::Time => match parse_number(bytes) {
-                    Some(t) => rec.time = Some(t),
+                    Some(t) => time = Some(t),
                     None => {
                         failure.get_or_insert(Failure::NotANumber {
                             column: ci,
@@ -337,7 +464,7 @@ impl TableParser {
                                 failure.get_or_insert(Failure::TooManySeries);
                                 break;
                             };
-                            rec.values.push((id, v));
+                            values.push((id, v));
                         }
                         continue;
                     }
@@ -364,11 +491,12 @@ impl TableParser {
                             }
                         },
                     };
-                    rec.values.push((id, v));
+                    values.push((id, v));
                 }
             }
         }
-        out.push(Output::Record(rec));
+        out.record(RecordRef { iteration, time, values: &values, line: self.line_no });
+        self.values = values;
         match failure {
             None => (LineUse::Used, None),
             Some(f) => (LineUse::Skipped, Some(f)),
@@ -490,7 +618,7 @@ fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> 
             format!("{what} is not in the header; records have no iteration/time from it")
         }
         Some(Failure::TooManySeries) => {
-            format!("more than {} series; new columns are dropped", super::series::MAX_SERIES)
+            format!("more than {MAX_SERIES} series; new columns are dropped")
         }
     }
 }
@@ -499,10 +627,11 @@ fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> 
 mod tests {
     use super::*;
     use crate::parser::Registry;
+    use crate::record::{Output, Record};
 
     fn rows(name: &str, text: &str) -> (Vec<Output>, LineStats) {
         let mut p = Registry::builtin().get(name).expect("shipped").parser();
-        let mut out = Vec::new();
+        let mut out: Vec<Output> = Vec::new();
         for l in text.lines() {
             p.feed(l.as_bytes(), &mut out);
         }

@@ -1,0 +1,214 @@
+//! [`Batch`]: parser output kept compactly and in order, to be handed on as one piece.
+//!
+//! The live ingest thread sends batches to the thread that owns the store, and the parts of
+//! a large file parsed on other cores come back as batches to be merged in file order. A
+//! record costs one small header plus its values in one shared vector (no allocation per
+//! record); consecutive records share one entry in the item list.
+
+use super::{Event, Output, RecordRef, SeriesId, SeriesInfo, Sink, Skip};
+
+/// One entry of the item list.
+#[derive(Debug, Clone, PartialEq)]
+enum Item {
+    /// This many records, the next ones of `heads`.
+    Records(u32),
+    Series(SeriesInfo),
+    Event(Event),
+    End {
+        line: u64,
+        message: String,
+    },
+    Skipped(Skip),
+}
+
+/// Iteration, time, line and value count of one record.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Head {
+    iteration: Option<i64>,
+    time: Option<f64>,
+    line: u64,
+    len: u32,
+}
+
+/// Parser output in file order.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Batch {
+    items: Vec<Item>,
+    heads: Vec<Head>,
+    values: Vec<(SeriesId, f64)>,
+}
+
+impl Batch {
+    pub fn new() -> Batch {
+        Batch::default()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.items.is_empty()
+    }
+
+    /// Records held.
+    pub fn records(&self) -> usize {
+        self.heads.len()
+    }
+
+    /// Values held (over all records).
+    pub fn values(&self) -> usize {
+        self.values.len()
+    }
+
+    /// Everything, in order, to `out`, with `line_offset` added to every line number.
+    pub fn replay(&self, line_offset: u64, out: &mut dyn Sink) {
+        self.replay_from(0, line_offset, out);
+    }
+
+    /// Like [`replay`](Self::replay), leaving out every item up to and including the first
+    /// record (see `LinesParser::join`).
+    pub fn replay_after_first_record(&self, line_offset: u64, out: &mut dyn Sink) {
+        self.replay_from(1, line_offset, out);
+    }
+
+    /// Replay, skipping the first `skip_records` records and every item before them.
+    fn replay_from(&self, skip_records: usize, line_offset: u64, out: &mut dyn Sink) {
+        let (mut head, mut value) = (0usize, 0usize);
+        let mut skipping = skip_records > 0;
+        for item in &self.items {
+            match item {
+                Item::Records(n) => {
+                    for _ in 0..*n {
+                        let h = self.heads[head];
+                        let vals = &self.values[value..value + h.len as usize];
+                        head += 1;
+                        value += h.len as usize;
+                        if skipping {
+                            skipping = head < skip_records;
+                            continue;
+                        }
+                        out.record(RecordRef {
+                            iteration: h.iteration,
+                            time: h.time,
+                            values: vals,
+                            line: h.line + line_offset,
+                        });
+                    }
+                }
+                _ if skipping => {}
+                Item::Series(info) => out.series(info.clone()),
+                Item::Event(e) => {
+                    out.event(Event { line: e.line + line_offset, ..e.clone() });
+                }
+                Item::End { line, message } => out.end_of_run(line + line_offset, message.clone()),
+                Item::Skipped(s) => {
+                    out.skipped(Skip { line: s.line + line_offset, reason: s.reason.clone() });
+                }
+            }
+        }
+    }
+
+    /// Owned items, for consumers that print them one by one (`parse --follow`).
+    pub fn outputs(&self) -> Vec<Output> {
+        let mut v: Vec<Output> = Vec::with_capacity(self.items.len() + self.heads.len());
+        self.replay(0, &mut v);
+        v
+    }
+
+    /// Bytes allocated (for bounding what is held before it is handed on).
+    pub fn heap_bytes(&self) -> usize {
+        self.items.capacity() * std::mem::size_of::<Item>()
+            + self.heads.capacity() * std::mem::size_of::<Head>()
+            + self.values.capacity() * std::mem::size_of::<(SeriesId, f64)>()
+    }
+}
+
+impl Sink for Batch {
+    fn series(&mut self, info: SeriesInfo) {
+        self.items.push(Item::Series(info));
+    }
+
+    fn record(&mut self, rec: RecordRef<'_>) {
+        self.heads.push(Head {
+            iteration: rec.iteration,
+            time: rec.time,
+            line: rec.line,
+            len: rec.values.len() as u32,
+        });
+        self.values.extend_from_slice(rec.values);
+        match self.items.last_mut() {
+            Some(Item::Records(n)) if *n < u32::MAX => *n += 1,
+            _ => self.items.push(Item::Records(1)),
+        }
+    }
+
+    fn event(&mut self, ev: Event) {
+        self.items.push(Item::Event(ev));
+    }
+
+    fn end_of_run(&mut self, line: u64, message: String) {
+        self.items.push(Item::End { line, message });
+    }
+
+    fn skipped(&mut self, skip: Skip) {
+        self.items.push(Item::Skipped(skip));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::record::{Record, Role, Severity};
+
+    fn sample() -> Vec<Output> {
+        let rec = |it: i64, line: u64, values: Vec<(u32, f64)>| {
+            Output::Record(Record { iteration: Some(it), time: None, values, line })
+        };
+        vec![
+            Output::Series(SeriesInfo { id: 0, name: "p".into(), role: Role::Residual }),
+            rec(1, 3, vec![(0, 1.0)]),
+            rec(2, 5, vec![]),
+            Output::Event(Event {
+                severity: Severity::Warning,
+                rule: "w".into(),
+                message: "m".into(),
+                line: 6,
+                iteration: Some(2),
+            }),
+            rec(3, 7, vec![(0, 0.5), (0, 0.25)]),
+            Output::EndOfRun { line: 8, message: "done".into() },
+            Output::Skipped(Skip { line: 9, reason: "r".into() }),
+        ]
+    }
+
+    #[test]
+    fn a_batch_replays_what_it_was_given() {
+        let mut b = Batch::new();
+        for o in sample() {
+            o.send_to(&mut b);
+        }
+        assert_eq!((b.records(), b.values()), (3, 3));
+        assert_eq!(b.outputs(), sample());
+    }
+
+    #[test]
+    fn replay_shifts_lines_and_can_start_after_the_first_record() {
+        let mut b = Batch::new();
+        for o in sample() {
+            o.send_to(&mut b);
+        }
+        let mut shifted: Vec<Output> = Vec::new();
+        b.replay(100, &mut shifted);
+        let lines: Vec<u64> = shifted
+            .iter()
+            .filter_map(|o| match o {
+                Output::Record(r) => Some(r.line),
+                Output::Event(e) => Some(e.line),
+                Output::EndOfRun { line, .. } => Some(*line),
+                Output::Skipped(s) => Some(s.line),
+                Output::Series(_) => None,
+            })
+            .collect();
+        assert_eq!(lines, vec![103, 105, 106, 107, 108, 109]);
+        let mut rest: Vec<Output> = Vec::new();
+        b.replay_after_first_record(0, &mut rest);
+        assert_eq!(rest, sample()[2..].to_vec());
+    }
+}
