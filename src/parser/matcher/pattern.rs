@@ -23,10 +23,15 @@
 //! this engine is: a backtracker over the same ordered-choice program. The unit tests and a
 //! property test compare it against `regex` on every construct it accepts.
 //!
-//! A backtracker can take exponential time on unlucky patterns, so every search has a step
-//! budget proportional to the line length and the program size. A search that runs out
-//! returns [`Outcome::GaveUp`]; the caller then asks `regex` (linear time). The worst case is
-//! bounded and the answer is always the one `regex` gives.
+//! A backtracker can take exponential time on unlucky patterns, and an unanchored search
+//! that scans a long run from every start position takes quadratic time, so every search
+//! (over all its start positions, in both the backtracking and the forward-only mode) has one
+//! step budget proportional to the line length and the program size, charged for every jump,
+//! every backtrack and every byte a run scans. A search that runs out returns
+//! [`Outcome::GaveUp`]; the caller then asks `regex` (linear time). The worst case is thus
+//! O(line length × program size), like `regex`'s, and the answer is always the one `regex`
+//! gives (`tests/parser_matcher_bounds.rs` checks the time bound on the cases that were
+//! quadratic).
 
 /// Largest program accepted (counted repetitions are unrolled).
 const MAX_INSTS: usize = 2048;
@@ -623,7 +628,7 @@ impl Pattern {
                 *s = NONE;
             }
             let outcome = if self.forward {
-                self.forward(hay, start, slots, stack)
+                self.forward(hay, start, slots, stack, &mut budget)
             } else {
                 self.run(hay, start, slots, stack, &mut budget)
             };
@@ -645,6 +650,7 @@ impl Pattern {
         start: usize,
         slots: &mut [usize],
         journal: &mut Vec<Frame>,
+        budget: &mut usize,
     ) -> Outcome {
         let ops = &self.ops[..];
         let mut pc = 0usize;
@@ -683,6 +689,12 @@ impl Pattern {
                     let rest = &hay[pos..];
                     let avail = &rest[..rest.len().min(*max as usize)];
                     let n = avail.iter().position(|&b| !set[usize::from(b)]).unwrap_or(avail.len());
+                    // Runs are what a search from every start position can repeat: charge
+                    // the bytes they scan to the search's budget.
+                    match budget.checked_sub(n) {
+                        Some(b) => *budget = b,
+                        None => return Outcome::GaveUp,
+                    }
                     let ok = n >= *min as usize;
                     if ok {
                         write(slots, journal, fb, *before, pos);
@@ -776,6 +788,10 @@ impl Pattern {
                         let avail = &rest[..rest.len().min(max)];
                         let n =
                             avail.iter().position(|&b| !t[usize::from(b)]).unwrap_or(avail.len());
+                        match budget.checked_sub(n) {
+                            Some(b) => *budget = b,
+                            None => return Outcome::GaveUp,
+                        }
                         if n < min {
                             false
                         } else {
@@ -864,6 +880,10 @@ impl Pattern {
                     while at > f.b && fails_at(at) {
                         at -= 1;
                     }
+                    match budget.checked_sub(f.a - at) {
+                        Some(b) => *budget = b,
+                        None => return Outcome::GaveUp,
+                    }
                     if fails_at(at) {
                         continue;
                     }
@@ -886,6 +906,10 @@ impl Pattern {
                         resumed = true;
                         break;
                     }
+                }
+                match budget.checked_sub(at - f.a) {
+                    Some(b) => *budget = b,
+                    None => return Outcome::GaveUp,
                 }
                 if resumed {
                     if count < max {
