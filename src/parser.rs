@@ -204,12 +204,15 @@ impl Parser {
     /// Self::speculative), made before the parts preceding `part` were read) has read `part`
     /// into `batch`. Hand `out` exactly what `self` reading `part` would have, and continue
     /// in the state that would leave. Each engine says why its hand-over is exact, and reads
-    /// `part` itself when it cannot show it.
-    pub fn join(&mut self, part: &[u8], worker: Parser, batch: &Batch, out: &mut dyn Sink) {
+    /// `part` itself when it cannot show it. Returns whether the worker's reading was used.
+    pub fn join(&mut self, part: &[u8], worker: Parser, batch: &Batch, out: &mut dyn Sink) -> bool {
         match (&mut self.engine, worker.engine) {
             (Engine::Lines(p), Engine::Lines(w)) => p.join(part, w, batch, out),
             (Engine::Table(p), Engine::Table(w)) => p.join(part, w, batch, out),
-            _ => self.feed_block(part, out),
+            _ => {
+                self.feed_block(part, out);
+                false
+            }
         }
     }
 }

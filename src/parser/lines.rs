@@ -264,13 +264,14 @@ impl LinesParser {
     /// after that record is then the serial output, with its ids announced again and its line
     /// numbers shifted. When that cannot be shown (no marker seen yet, no record closed in the
     /// part, series near the cap) `self` simply reads the whole part.
+    /// Returns whether the worker's reading was used (else `self` read `part`).
     pub fn join(
         &mut self,
         part: &[u8],
         mut worker: LinesParser,
         batch: &Batch,
         out: &mut dyn Sink,
-    ) {
+    ) -> bool {
         let base = self.st.line_no;
         let new_series = worker.st.series.len() - worker.base_series;
         let usable = self.st.started
@@ -278,7 +279,7 @@ impl LinesParser {
             && self.st.series.len() + new_series <= MAX_SERIES;
         let Some(mark) = worker.st.mark.filter(|_| usable) else {
             self.feed_block(part, out);
-            return;
+            return false;
         };
         let mut start = 0;
         for nl in memchr::memchr_iter(b'\n', part).take(mark.lines as usize) {
@@ -297,6 +298,7 @@ impl LinesParser {
         worker.st.track_mark = false;
         worker.base_series = 0;
         *self = worker;
+        true
     }
 }
 

@@ -256,16 +256,17 @@ impl TableParser {
     /// header candidates, no vector column named differently), every row of `part` was read
     /// as a serial read would read it: the worker's output goes to `out` with its line
     /// numbers shifted and the worker continues. Otherwise `self` reads `part` itself.
+    /// Returns whether the worker's reading was used (else `self` read `part`).
     pub fn join(
         &mut self,
         part: &[u8],
         mut worker: TableParser,
         batch: &Batch,
         out: &mut dyn Sink,
-    ) {
+    ) -> bool {
         let Some(assumed) = worker.assumed.take() else {
             self.feed_block(part, out);
-            return;
+            return false;
         };
         let same_header = match (&self.header, &assumed.header) {
             (None, None) => true,
@@ -279,12 +280,13 @@ impl TableParser {
             || !worker.adopt_vector_names(self, &assumed, out)
         {
             self.feed_block(part, out);
-            return;
+            return false;
         }
         batch.replay(self.line_no, out);
         worker.line_no += self.line_no;
         worker.tally.rebase(self.tally.stats, self.tally.reported());
         *self = worker;
+        true
     }
 
     /// How vector columns are named (`_x` or `[0]`) is decided by the first vector seen. A

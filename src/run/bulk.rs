@@ -55,6 +55,8 @@ pub struct Pool<'scope, 'env> {
     merged: u64,
     waiting: BTreeMap<u64, Done>,
     spare: Vec<Vec<u8>>,
+    /// Blocks whose parallel reading was used (the others were read again in order).
+    pub handed_over: u64,
 }
 
 impl<'scope, 'env> Pool<'scope, 'env> {
@@ -72,6 +74,7 @@ impl<'scope, 'env> Pool<'scope, 'env> {
             merged: 0,
             waiting: BTreeMap::new(),
             spare: Vec::new(),
+            handed_over: 0,
         }
     }
 
@@ -163,7 +166,7 @@ impl<'scope, 'env> Pool<'scope, 'env> {
         }
         loop {
             if let Some(d) = self.waiting.remove(&self.merged) {
-                parser.join(&d.block, d.worker, &d.batch, out);
+                self.handed_over += u64::from(parser.join(&d.block, d.worker, &d.batch, out));
                 self.merged += 1;
                 self.recycle(d.block);
                 return true;

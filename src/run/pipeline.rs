@@ -179,6 +179,8 @@ pub struct SourceReader {
     /// When a live read last got lines, and whether the open record was shown since.
     last_lines: Option<Instant>,
     open_shown: bool,
+    /// Blocks read on other cores and handed over (see `bulk.rs`).
+    parallel_blocks: u64,
 }
 
 impl SourceReader {
@@ -213,6 +215,7 @@ impl SourceReader {
             open_quiet: OPEN_QUIET,
             last_lines: None,
             open_shown: false,
+            parallel_blocks: 0,
         })
     }
 
@@ -224,6 +227,11 @@ impl SourceReader {
     /// How long a live source must be quiet before its open record is shown.
     pub fn set_open_quiet(&mut self, d: Duration) {
         self.open_quiet = d;
+    }
+
+    /// Blocks of lines that were parsed on another core and used as such so far.
+    pub fn parallel_blocks(&self) -> u64 {
+        self.parallel_blocks
     }
 
     /// The source's label (path as the user wrote it).
@@ -293,7 +301,9 @@ impl SourceReader {
         dest: &mut D,
         hand_on: &mut dyn FnMut(&mut D, bool),
     ) -> Result<(), PipelineError> {
-        let SourceReader { follower, registry, slot, label, block, partial, .. } = self;
+        let SourceReader {
+            follower, registry, slot, label, block, partial, parallel_blocks, ..
+        } = self;
         let mut grew = false;
         let mut error = None;
         std::thread::scope(|scope| {
@@ -382,6 +392,7 @@ impl SourceReader {
                 parse_block(&mut pool, &mut blocks, block, parser, dest);
                 pool.drain(parser, dest);
             }
+            *parallel_blocks += pool.handed_over;
         });
         if let Some(e) = error {
             return Err(e);
