@@ -13,9 +13,11 @@
 //!   memory stays bounded by `max` however long a line without a newline grows.
 //!
 //! It is a pure state machine over byte slices: no I/O, no clocks. Complete lines that lie
-//! wholly inside one chunk are handed out as slices of that chunk without copying.
+//! wholly inside one chunk are handed out as slices of that chunk without copying. The part
+//! of a chunk after its last `\r` or NUL (all of it, in an ordinary log) is split on `\n`
+//! alone, with no per-line look for `\r` or NUL.
 
-use memchr::{memchr2, memrchr};
+use memchr::{memchr_iter, memchr2, memrchr, memrchr2};
 
 /// One line handed out by [`LineSplitter`].
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -59,8 +61,15 @@ impl LineSplitter {
 
     /// Feed the next bytes of the stream; `out` receives every line completed by them.
     pub fn feed(&mut self, data: &[u8], out: &mut dyn FnMut(Line<'_>)) {
+        // From here on the chunk has no `\r` and no NUL.
+        let clean_from = memrchr2(b'\r', 0, data).map_or(0, |i| i + 1);
         let mut rest = data;
         while !rest.is_empty() {
+            let at = data.len() - rest.len();
+            if at >= clean_from && self.carry.is_empty() && !self.overflowed && !self.pending_cr {
+                self.feed_clean(rest, out);
+                return;
+            }
             match memchr2(b'\n', 0, rest) {
                 Some(i) if rest[i] == b'\n' => {
                     self.segment(&rest[..i], true, out);
@@ -78,6 +87,20 @@ impl LineSplitter {
                 }
             }
         }
+    }
+
+    /// [`feed`](Self::feed) for bytes without `\r` or NUL, with nothing carried over.
+    fn feed_clean(&mut self, data: &[u8], out: &mut dyn FnMut(Line<'_>)) {
+        let mut start = 0;
+        for nl in memchr_iter(b'\n', data) {
+            let line = &data[start..nl];
+            let truncated = line.len() > self.max;
+            let bytes = if truncated { &line[..self.max] } else { line };
+            self.long += u64::from(truncated);
+            out(Line { bytes, truncated });
+            start = nl + 1;
+        }
+        self.append(&data[start..]);
     }
 
     /// End of data: hand out the unterminated line, if there is one.

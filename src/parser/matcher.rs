@@ -170,7 +170,9 @@ impl Matcher {
     /// Does `line` match (prefilter first)? The groups are left in `caps`.
     #[inline]
     pub fn find(&self, line: &[u8], lead_ws: usize, caps: &mut Captures) -> bool {
-        self.may_match(line, lead_ws) && self.captures(line, caps)
+        self.may_match(line, lead_ws)
+            && self.fast.as_ref().and_then(Pattern::tail).is_none_or(|t| t.holds(line))
+            && self.captures(line, caps)
     }
 
     /// A necessary condition on a matching line's first bytes, for dispatching lines to rules:

@@ -137,70 +137,64 @@ fn parse_plain(b: &[u8]) -> Option<f64> {
 /// full grammar of [`parse_number`] decides, for the text as a whole). The number ends at the
 /// first byte that cannot continue it; the caller checks what follows.
 ///
-/// Values come from Clinger's fast path when the mantissa has at most 15 significant digits
-/// and the decimal exponent is within reach of an exact power of ten (`1.2345e-05`, three-
-/// digit positive exponents of short mantissas such as `1.5e+100`); anything else (more
-/// digits, `1.234567e-17`, `1.0e-100`) goes once to the standard library's correctly rounded
-/// parser on the same bytes, without scanning them again here. Both round correctly, so the
+/// Values come from Clinger's fast path when the mantissa has at most 15 digits and the
+/// decimal exponent is within reach of an exact power of ten (`1.2345e-05`, three-digit
+/// positive exponents of short mantissas such as `1.5e+100`); anything else (more digits,
+/// `1.234567e-17`, `1.0e-100`) goes once to the standard library's correctly rounded parser
+/// on the same bytes, without scanning them again here. Both round correctly, so the
 /// value never depends on the path (the tests compare them).
 #[inline]
 pub fn number_prefix(b: &[u8]) -> Option<(f64, usize)> {
+    let n = b.len();
     let (negative, mut i) = match b.first()? {
         b'-' => (true, 1),
         b'+' => (false, 1),
         _ => (false, 0),
     };
-    // Significant digits are gathered into `m` (leading zeros skipped, at most 19 kept so
-    // `m` cannot overflow); `sig` counts all of them.
+    // All mantissa digits go into `m` (wrapping: `m` is used only when there are at most
+    // 15 digits, leading zeros included, so it is then exact).
     let mut m: u64 = 0;
-    let mut sig = 0usize;
-    let mut digits = 0usize;
-    let mut frac = 0i64;
-    while let Some(d) = b.get(i).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
-        if sig > 0 || d != 0 {
-            sig += 1;
-            if sig <= 19 {
-                m = m * 10 + u64::from(d);
-            }
+    let int_start = i;
+    while i < n {
+        let d = b[i].wrapping_sub(b'0');
+        if d > 9 {
+            break;
         }
+        m = m.wrapping_mul(10).wrapping_add(u64::from(d));
         i += 1;
-        digits += 1;
     }
-    if b.get(i) == Some(&b'.') {
+    let mut digits = i - int_start;
+    let mut frac = 0usize;
+    if i < n && b[i] == b'.' {
         i += 1;
-        while let Some(d) = b.get(i).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
-            if sig > 0 || d != 0 {
-                sig += 1;
-                if sig <= 19 {
-                    m = m * 10 + u64::from(d);
-                    frac += 1;
-                }
-            } else {
-                frac += 1;
+        let frac_start = i;
+        while i < n {
+            let d = b[i].wrapping_sub(b'0');
+            if d > 9 {
+                break;
             }
+            m = m.wrapping_mul(10).wrapping_add(u64::from(d));
             i += 1;
-            digits += 1;
         }
+        frac = i - frac_start;
+        digits += frac;
     }
     if digits == 0 {
         return None;
     }
     let mut e: i64 = 0;
-    if let Some(&(b'e' | b'E')) = b.get(i) {
+    if i < n && (b[i] | 0x20) == b'e' {
         let mut j = i + 1;
-        let exp_negative = match b.get(j) {
-            Some(b'-') => {
-                j += 1;
-                true
-            }
-            Some(b'+') => {
-                j += 1;
-                false
-            }
-            _ => false,
-        };
+        let exp_negative = j < n && b[j] == b'-';
+        if j < n && (b[j] == b'-' || b[j] == b'+') {
+            j += 1;
+        }
         let exp_start = j;
-        while let Some(d) = b.get(j).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
+        while j < n {
+            let d = b[j].wrapping_sub(b'0');
+            if d > 9 {
+                break;
+            }
             // Saturate: a 30-digit exponent is still just "huge" for the standard parser.
             e = (e * 10 + i64::from(d)).min(1 << 40);
             j += 1;
@@ -213,11 +207,10 @@ pub fn number_prefix(b: &[u8]) -> Option<(f64, usize)> {
         }
         i = j;
     }
-    // `m` and `frac` are exact while `sig <= 15`, the only case that uses them.
-    let e = e - frac;
-    let v = if m == 0 {
+    let e = e - frac as i64;
+    let v = if m == 0 && digits <= 19 {
         0.0
-    } else if sig <= 15 {
+    } else if digits <= 15 {
         match e {
             0..=22 => m as f64 * POW10[e as usize],
             -22..=-1 => m as f64 / POW10[(-e) as usize],

@@ -1,10 +1,10 @@
 //! Reading a large first read on every core: blocks of lines parsed in parallel, merged in
 //! file order.
 //!
-//! The reader thread (follower + line splitting) gathers complete lines into blocks. The
-//! first block of a read is parsed in place; when a read holds more, each further block goes
-//! to a worker thread with a parser made by [`Parser::speculative`] from the parser as it
-//! stood after that first block. Results are merged strictly in file order with
+//! The reader thread (follower + line splitting) feeds the first block's worth of lines of a
+//! read to the parser in place; when a read holds more, the rest is gathered into blocks and
+//! each block goes to a worker thread with a parser made by [`Parser::speculative`] from the
+//! parser as it stood after that first block. Results are merged strictly in file order with
 //! [`Parser::join`], which hands the sink exactly what a serial read would have (each engine
 //! says why, and reads a block itself when it cannot show it). So parallelism changes only
 //! the wall time, never the result; `tests/parser_parallel.rs` checks that on files cut at

@@ -3,9 +3,9 @@
 //!
 //! A [`SourceReader`] owns one follower and the parser instance for its current file. It
 //! picks the parser by name or, when none is named, by detection on the first bytes of the
-//! file once the file exists. Complete lines are gathered into blocks and parsed block by
-//! block; a read that holds several blocks (the first read of a large file) parses them on
-//! every core (`bulk.rs`). Parser output goes straight to a [`Dest`]: the store itself for
+//! file once the file exists. Complete lines go to the parser as they come; once a read has
+//! brought more than a block's worth (the first read of a large file), the rest is gathered
+//! into blocks parsed on every core (`bulk.rs`). Parser output goes straight to a [`Dest`]: the store itself for
 //! one-shot reads, packed batches for the live loop. Nothing holds a file's worth of records.
 //!
 //! One-shot reads take a final line without a newline as data only when the file has been
@@ -308,7 +308,9 @@ impl SourceReader {
         let mut error = None;
         std::thread::scope(|scope| {
             let mut pool = Pool::new(scope);
-            let mut blocks = 0usize;
+            // Bytes of lines fed in place in this read; past one block, lines are gathered
+            // into blocks for the pool (a bulk read).
+            let mut in_place = 0usize;
             let mut sink = |item: FollowItem<'_>| {
                 if error.is_some() {
                     return;
@@ -322,16 +324,21 @@ impl SourceReader {
                             }
                             return;
                         };
+                        if in_place < BLOCK_BYTES {
+                            in_place += line.len() + 1;
+                            parser.feed(line, dest);
+                            return;
+                        }
                         block.extend_from_slice(line);
                         block.push(b'\n');
                         if block.len() >= BLOCK_BYTES {
-                            parse_block(&mut pool, &mut blocks, block, parser, dest);
+                            parse_block(&mut pool, block, parser, dest);
                             hand_on(dest, false);
                         }
                     }
                     FollowItem::Restart(reason) => {
                         if let Some(parser) = slot.parser.as_mut() {
-                            parse_block(&mut pool, &mut blocks, block, parser, dest);
+                            parse_block(&mut pool, block, parser, dest);
                             pool.drain(parser, dest);
                         }
                         let stats = slot.close(dest);
@@ -343,7 +350,7 @@ impl SourceReader {
                     FollowItem::Note(n) => dest.item(IngestItem::Note(n)),
                     FollowItem::Progress { read, total } => {
                         if let Some(parser) = slot.parser.as_mut() {
-                            parse_block(&mut pool, &mut blocks, block, parser, dest);
+                            parse_block(&mut pool, block, parser, dest);
                             pool.drain(parser, dest);
                             dest.item(IngestItem::Stats(parser.stats()));
                         }
@@ -389,7 +396,7 @@ impl SourceReader {
             }
             drop(sink);
             if let Some(parser) = slot.parser.as_mut() {
-                parse_block(&mut pool, &mut blocks, block, parser, dest);
+                parse_block(&mut pool, block, parser, dest);
                 pool.drain(parser, dest);
             }
             *parallel_blocks += pool.handed_over;
@@ -436,11 +443,10 @@ impl SourceReader {
     }
 }
 
-/// Parse the gathered lines: in place for the first block of a read, on the pool for later
-/// ones (a read with more than one block is a bulk read).
+/// Parse the lines gathered into `block` (those after the first block's worth of a read) on
+/// the pool.
 fn parse_block(
     pool: &mut Pool<'_, '_>,
-    blocks: &mut usize,
     block: &mut Vec<u8>,
     parser: &mut Parser,
     out: &mut dyn Sink,
@@ -448,14 +454,8 @@ fn parse_block(
     if block.is_empty() {
         return;
     }
-    if *blocks == 0 && !pool.active() {
-        parser.feed_block(block, out);
-        block.clear();
-    } else {
-        let full = std::mem::replace(block, pool.buffer());
-        pool.submit(full, parser, out);
-    }
-    *blocks += 1;
+    let full = std::mem::replace(block, pool.buffer());
+    pool.submit(full, parser, out);
 }
 
 /// Read every source of `spec` to the end of its data, once (`parse`, `check`, `report`).
