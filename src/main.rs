@@ -189,6 +189,10 @@ struct ReportArgs {
     /// Dimension used to turn cell counts into a cell size.
     #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(2..=3))]
     dim: u8,
+    /// Read a final line that has no newline as data even when the file changed in the last
+    /// 2 s (by default such a line may be half-written and is left out, with a note).
+    #[arg(long)]
+    include_partial: bool,
 }
 
 #[derive(Args, Debug)]
@@ -205,6 +209,11 @@ struct ParseArgs {
     /// Keep following the files and print one line per new record, until Ctrl-C.
     #[arg(long)]
     follow: bool,
+    /// Read a final line that has no newline as data even when the file changed in the last
+    /// 2 s (by default such a line may be half-written and is left out, with a note).
+    #[arg(long)]
+    include_partial: bool,
+
     /// Seconds between file checks while following (file events also wake settle; on
     /// network filesystems only this poll sees other nodes' writes).
     #[arg(long, value_name = "SECONDS", default_value_t = 1.0)]
@@ -279,6 +288,10 @@ struct CheckArgs {
     /// Print one JSON object (schema in the README) instead of text.
     #[arg(long)]
     json: bool,
+    /// Read a final line that has no newline as data even when the file changed in the last
+    /// 2 s (by default such a line may be half-written and is left out, with a note).
+    #[arg(long)]
+    include_partial: bool,
     #[command(flatten)]
     criteria: CriteriaArgs,
 }
@@ -375,7 +388,7 @@ fn read_head(path: &Path) -> Result<Vec<u8>> {
 fn cmd_parse(a: ParseArgs, registry: Arc<Registry>) -> Result<u8> {
     let spec = config::from_files(&a.files, a.parser.as_deref());
     if !a.follow {
-        let (run, _) = pipeline::read_run(&spec, registry)?;
+        let (run, _) = pipeline::read_run_with(&spec, registry, partial_line(a.include_partial))?;
         if a.json {
             let sources: Vec<_> = run.sources.iter().map(view::parse::source_json).collect();
             out(&format!(
@@ -533,6 +546,11 @@ fn resolve_run(
     Ok(config::from_files(paths, parser))
 }
 
+/// `--include-partial` as the pipeline's policy for a final line without a newline.
+fn partial_line(include: bool) -> pipeline::PartialLine {
+    if include { pipeline::PartialLine::Include } else { pipeline::PartialLine::default() }
+}
+
 fn judge_run(run: &RunStore, criteria: &Criteria) -> Judgement {
     judge::judge(&run.judge_input(), criteria)
 }
@@ -543,7 +561,7 @@ fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
     config::check_criteria(&spec.criteria).map_err(|(k, m)| {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
-    let (run, parsers) = pipeline::read_run(&spec, registry)?;
+    let (run, parsers) = pipeline::read_run_with(&spec, registry, partial_line(a.include_partial))?;
     let j = judge_run(&run, &spec.criteria);
     if a.json {
         out(&format!(
@@ -563,13 +581,14 @@ fn load_and_judge(
     parser: Option<&str>,
     criteria: &CriteriaArgs,
     registry: Arc<Registry>,
+    partial: pipeline::PartialLine,
 ) -> Result<(RunSpec, RunStore, Vec<String>, Judgement)> {
     let mut spec = resolve_run(paths, config_file, parser)?;
     spec.criteria = spec.criteria.merged(&criteria.to_criteria());
     config::check_criteria(&spec.criteria).map_err(|(k, m)| {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
-    let (run, parsers) = pipeline::read_run(&spec, registry)?;
+    let (run, parsers) = pipeline::read_run_with(&spec, registry, partial)?;
     let j = judge_run(&run, &spec.criteria);
     Ok((spec, run, parsers, j))
 }
@@ -595,6 +614,7 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
                 a.parser.as_deref(),
                 &a.criteria,
                 registry.clone(),
+                partial_line(a.include_partial),
             )
             .with_context(|| format!("mesh study run {}", path.display()))?;
             let m = j.monitors.iter().find(|m| m.series == monitor).with_context(|| {
@@ -627,6 +647,7 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
         a.parser.as_deref(),
         &a.criteria,
         registry.clone(),
+        partial_line(a.include_partial),
     )?;
     let mut files = Vec::new();
     for s in &spec.sources {

@@ -215,11 +215,8 @@ impl LinesParser {
 
     /// Feed every line of `block`: complete lines, each ending in `\n`.
     pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
-        let mut start = 0;
-        for nl in memchr::memchr_iter(b'\n', block) {
-            self.st.feed(&self.prog, &block[start..nl], out);
-            start = nl + 1;
-        }
+        let Self { prog, st, .. } = self;
+        crate::follow::lines::each_line(block, |line| st.feed(prog, line, out));
     }
 
     pub fn finish(&mut self, out: &mut dyn Sink) {
@@ -281,10 +278,11 @@ impl LinesParser {
             self.feed_block(part, out);
             return false;
         };
-        let mut start = 0;
-        for nl in memchr::memchr_iter(b'\n', part).take(mark.lines as usize) {
-            self.st.feed(&self.prog, &part[start..nl], out);
-            start = nl + 1;
+        let mut rest = part;
+        for _ in 0..mark.lines {
+            let Some(nl) = crate::follow::lines::find_newline(rest) else { break };
+            self.st.feed(&self.prog, &rest[..nl], out);
+            rest = &rest[nl + 1..];
         }
         self.st.close_record(out);
         worker.st.series.announce(mark.series, out);

@@ -228,11 +228,7 @@ impl TableParser {
 
     /// Feed every line of `block`: complete lines, each ending in `\n`.
     pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
-        let mut start = 0;
-        for nl in memchr::memchr_iter(b'\n', block) {
-            self.feed(&block[start..nl], out);
-            start = nl + 1;
-        }
+        crate::follow::lines::each_line(block, |line| self.feed(line, out));
     }
 
     /// A parser for a later part of the same file, read while this one reads the parts
