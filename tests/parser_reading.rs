@@ -44,8 +44,8 @@ fn set_mtime(path: &Path, ago: Duration) {
 fn a_half_written_last_line_is_left_out_of_one_shot_reads_and_said() {
     let dir = tempfile::tempdir().expect("temp dir");
     let path = dir.path().join("history.dat");
-    // The writer is in the middle of a number: `1.2159e-0` (it will be `1.2159e-05`).
-    std::fs::write(&path, "it res_p Cd\n1 1.0e-02 0.30\n2 5.0e-03 0.31\n3 1.2159e-0")
+    // The writer is in the middle of the last number: `0.3` will be `0.312`.
+    std::fs::write(&path, "it res_p Cd\n1 1.0e-02 0.30\n2 5.0e-03 0.31\n3 1.2159e-05 0.3")
         .expect("write");
     let reg = Arc::new(Registry::builtin());
     let (run, _) = pipeline::read_run(&run_spec(&path, "table"), reg.clone()).expect("read");
@@ -53,13 +53,16 @@ fn a_half_written_last_line_is_left_out_of_one_shot_reads_and_said() {
     assert_eq!(src.iterations(), &[1, 2], "the unfinished row is not data");
     assert_eq!(src.series_by_name("res_p").map(|s| s.values().to_vec()), Some(vec![1e-2, 5e-3]));
     let note = src.notes.iter().find(|n| n.contains("partial last line")).expect("a note");
-    assert!(note.contains("11 bytes"), "{note}");
+    assert!(note.contains("16 bytes"), "{note}");
+    // Only the files it was asked to read: nothing is written anywhere.
+    assert_eq!(std::fs::read_dir(dir.path()).expect("list").count(), 1);
 
     // Asked for, or once the file has been quiet, the last line is read.
     let (run, _) =
         pipeline::read_run_with(&run_spec(&path, "table"), reg.clone(), PartialLine::Include)
             .expect("read");
     assert_eq!(run.sources[0].iterations(), &[1, 2, 3]);
+    assert_eq!(run.sources[0].series_by_name("Cd").and_then(|s| s.last()), Some(0.3));
     set_mtime(&path, Duration::from_secs(5));
     let (run, _) = pipeline::read_run(&run_spec(&path, "table"), reg).expect("read");
     assert_eq!(run.sources[0].iterations(), &[1, 2, 3]);
