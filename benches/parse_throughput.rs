@@ -15,7 +15,7 @@
 //!
 //! Each tool runs as a child process, best wall time of `SETTLE_BENCH_RUNS` (default 3),
 //! with CPU time and peak RSS of that run from GNU `/usr/bin/time` when it is installed.
-//! `settle parse --json` runs pinned to one core (`taskset -c 0`) and on every core; with
+//! `settle parse` runs pinned to one core (`taskset -c 0`) and on every core; with
 //! `SETTLE_BENCH_BEFORE=/path/to/older/settle` an older binary runs beside it in the same
 //! run, which is how before → after figures are made.
 //!
@@ -212,16 +212,24 @@ fn measure_to(
     best
 }
 
-/// Total values stored, from `settle parse --json`.
-fn values_of(parse_json: &str) -> u64 {
-    let v: serde_json::Value = serde_json::from_str(parse_json).unwrap_or_default();
-    v["sources"]
-        .as_array()
-        .into_iter()
-        .flatten()
-        .flat_map(|s| s["series"].as_array().into_iter().flatten())
-        .filter_map(|s| s["values"].as_u64())
-        .sum()
+/// Total values stored, from the series table `settle parse` prints (`name role values …`).
+/// The text form is used because building the JSON form of thousands of events would add
+/// its own memory to the peak being measured.
+fn values_of(parse_text: &str) -> u64 {
+    let mut in_table = false;
+    let mut total = 0;
+    for line in parse_text.lines() {
+        let cells: Vec<&str> = line.split_whitespace().collect();
+        if cells.first() == Some(&"series") && cells.get(2) == Some(&"values") {
+            in_table = true;
+            continue;
+        }
+        match (in_table, cells.get(2).and_then(|v| v.parse::<u64>().ok())) {
+            (true, Some(v)) if cells.len() >= 3 => total += v,
+            _ => in_table = false,
+        }
+    }
+    total
 }
 
 struct Row {
@@ -280,7 +288,7 @@ fn settle_rows(
 ) {
     for (name, bin) in binaries() {
         for pin in [true, false] {
-            let mut argv = vec![bin.clone(), "parse".into(), "--json".into()];
+            let mut argv = vec![bin.clone(), "parse".into()];
             argv.extend(parser_args.iter().cloned());
             argv.push(file.display().to_string());
             if let Some(run) = measure(&argv, pin, runs, scratch) {

@@ -80,6 +80,9 @@ fn apply_one(store: &mut SourceStore, activity: &mut SourceActivity, item: Inges
 pub trait Dest: Sink {
     /// Anything but parser output.
     fn item(&mut self, item: IngestItem);
+
+    /// `fraction` of the file has been read: a store may make room for the rest at once.
+    fn read_fraction(&mut self, _fraction: f64) {}
 }
 
 /// Straight into a store (one-shot reads).
@@ -109,6 +112,14 @@ impl Sink for ApplyTo<'_> {
 impl Dest for ApplyTo<'_> {
     fn item(&mut self, item: IngestItem) {
         apply_one(self.store, self.activity, item);
+    }
+
+    fn read_fraction(&mut self, fraction: f64) {
+        if fraction > 0.0 && fraction < 1.0 {
+            // 2 % more than the records so far extrapolate to: untouched room costs nothing.
+            let total = self.store.records() as f64 / fraction * 1.02;
+            self.store.reserve_records(total.min(1e10) as usize);
+        }
     }
 }
 

@@ -164,6 +164,8 @@ impl ParserSlot {
 /// One source: its follower and the parser of its current file.
 pub struct SourceReader {
     follower: Follower,
+    /// The path or glob followed.
+    path: PathBuf,
     registry: Arc<Registry>,
     slot: ParserSlot,
     label: String,
@@ -200,6 +202,7 @@ impl SourceReader {
         }
         Ok(SourceReader {
             follower: Follower::new(spec.path.clone(), cfg),
+            path: spec.path.clone(),
             registry,
             slot: ParserSlot {
                 named: spec.parser.clone(),
@@ -301,6 +304,9 @@ impl SourceReader {
         dest: &mut D,
         hand_on: &mut dyn FnMut(&mut D, bool),
     ) -> Result<(), PipelineError> {
+        // Bytes left to read, when the source is one plain file (for the store's reservation).
+        let size = std::fs::metadata(&self.path).map(|m| m.len()).unwrap_or(0);
+        let size = size.saturating_sub(self.follower.offset());
         let SourceReader {
             follower, registry, slot, label, block, partial, parallel_blocks, ..
         } = self;
@@ -327,6 +333,9 @@ impl SourceReader {
                         if in_place < BLOCK_BYTES {
                             in_place += line.len() + 1;
                             parser.feed(line, dest);
+                            if in_place >= BLOCK_BYTES && size > 0 {
+                                dest.read_fraction(in_place as f64 / size as f64);
+                            }
                             return;
                         }
                         block.extend_from_slice(line);

@@ -291,6 +291,25 @@ impl SourceStore {
         starts
     }
 
+    /// Make room for `total` records in the iteration index and in every dense series that
+    /// has a value in each record so far: a one-shot read that knows the file's size can
+    /// reserve once instead of growing by doubling. Growing by copying leaves the old buffers
+    /// to the allocator, and a doubled buffer is up to half empty; a reservation made from
+    /// the size is touched only as far as it is filled.
+    pub fn reserve_records(&mut self, total: usize) {
+        let have = self.iterations.len();
+        if total <= have {
+            return;
+        }
+        self.iterations.reserve_exact(total - have);
+        if self.has_time {
+            self.times.reserve_exact(total - have);
+        }
+        for s in &mut self.series {
+            s.reserve_dense(have, total);
+        }
+    }
+
     /// Heap bytes held by values, positions and the iteration index.
     pub fn heap_bytes(&self) -> usize {
         self.iterations.capacity() * 8

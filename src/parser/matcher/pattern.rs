@@ -643,6 +643,7 @@ impl Pattern {
 
     /// Leftmost-first search of `hay`. On [`Outcome::Matched`], `slots` (length
     /// `2 * groups()`) holds the start and end of every group, [`NONE`] where unset.
+    #[inline]
     pub fn search(&self, hay: &[u8], slots: &mut [usize], stack: &mut Vec<Frame>) -> Outcome {
         // Straight-line progress is bounded by the program length; the budget counts what can
         // repeat: jumps and backtracking.

@@ -125,6 +125,17 @@ impl Series {
         }
     }
 
+    /// With `records` records so far: when the series holds one value in each since it
+    /// first appeared, make room for `total` records.
+    pub(super) fn reserve_dense(&mut self, records: usize, total: usize) {
+        if let Placement::Dense { first } = self.placement
+            && !self.values.is_empty()
+            && first as usize + self.values.len() == records
+        {
+            self.values.reserve_exact(total - records);
+        }
+    }
+
     /// Drop the values of records `record` and later.
     pub(super) fn truncate_records(&mut self, record: usize) {
         let keep = self.first_value_at_or_after(record);
