@@ -586,6 +586,8 @@ pub struct Pattern {
     /// every run is possessive, there are no loops, and the skip branch of every choice surely
     /// matches. [`Pattern::forward`] runs it without a backtracking stack.
     forward: bool,
+    /// A forward program with no choice at all: [`Pattern::straight`] runs it op after op.
+    straight: bool,
 }
 
 impl Pattern {
@@ -614,6 +616,7 @@ impl Pattern {
             Inst::Split(_, y) => surely_matches(&insts, *y as usize),
             _ => true,
         });
+        let straight = forward && !ops.iter().any(|op| matches!(op, Op::Split(..)));
         Some(Pattern {
             ops,
             groups: sp.groups as usize + 1,
@@ -623,6 +626,7 @@ impl Pattern {
             gate,
             tail,
             forward,
+            straight,
         })
     }
 
@@ -656,7 +660,9 @@ impl Pattern {
             for s in slots.iter_mut() {
                 *s = NONE;
             }
-            let outcome = if self.forward {
+            let outcome = if self.straight {
+                self.straight(hay, start, slots, &mut budget)
+            } else if self.forward {
                 self.forward(hay, start, slots, stack, &mut budget)
             } else {
                 self.run(hay, start, slots, stack, &mut budget)
@@ -666,6 +672,70 @@ impl Pattern {
             }
         }
         Outcome::NoMatch
+    }
+
+    /// Run a [`Pattern::straight`] program from `start`: every op once, in order; the first
+    /// that fails ends the attempt.
+    #[inline]
+    fn straight(&self, hay: &[u8], start: usize, slots: &mut [usize], budget: &mut usize) -> Outcome {
+        let put = |slots: &mut [usize], slot: u32, pos: usize| {
+            if slot != NO_SLOT
+                && let Some(cell) = slots.get_mut(slot as usize)
+            {
+                *cell = pos;
+            }
+        };
+        let mut pos = start;
+        for op in &self.ops {
+            match op {
+                Op::Byte(b) => {
+                    if hay.get(pos) != Some(b) {
+                        return Outcome::NoMatch;
+                    }
+                    pos += 1;
+                }
+                Op::Lit(lit) => {
+                    let ok = hay.len() - pos >= lit.len()
+                        && hay[pos..].iter().zip(lit.iter()).all(|(a, b)| a == b);
+                    if !ok {
+                        return Outcome::NoMatch;
+                    }
+                    pos += lit.len();
+                }
+                Op::Set { set, before, after } => {
+                    if !hay.get(pos).is_some_and(|&b| set[usize::from(b)]) {
+                        return Outcome::NoMatch;
+                    }
+                    put(slots, *before, pos);
+                    pos += 1;
+                    put(slots, *after, pos);
+                }
+                Op::Run { set, min, max, before, after, .. } => {
+                    let rest = &hay[pos..];
+                    let avail = &rest[..rest.len().min(*max as usize)];
+                    let n = avail.iter().position(|&b| !set[usize::from(b)]).unwrap_or(avail.len());
+                    match budget.checked_sub(n) {
+                        Some(b) => *budget = b,
+                        None => return Outcome::GaveUp,
+                    }
+                    if n < *min as usize {
+                        return Outcome::NoMatch;
+                    }
+                    put(slots, *before, pos);
+                    pos += n;
+                    put(slots, *after, pos);
+                }
+                Op::Save(s) => put(slots, *s, pos),
+                Op::Look(look) => {
+                    if !look.holds(hay, pos) {
+                        return Outcome::NoMatch;
+                    }
+                }
+                Op::Match => return Outcome::Matched,
+                Op::Split(..) | Op::Jmp(_) => return Outcome::GaveUp,
+            }
+        }
+        Outcome::GaveUp
     }
 
     /// Run a [`Pattern::forward`] program from `start`: one pass, no choice stack. A choice
