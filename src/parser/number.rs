@@ -218,8 +218,7 @@ pub fn number_prefix(b: &[u8]) -> Option<(f64, usize)> {
 #[inline]
 fn digits_into(b: &[u8], mut i: usize, m: &mut u64) -> usize {
     const LO: u64 = 0x0101_0101_0101_0101;
-    loop {
-        let Some(Ok(bytes)) = b.get(i..i + 8).map(<[u8; 8]>::try_from) else { break };
+    while let Some(Ok(bytes)) = b.get(i..i + 8).map(<[u8; 8]>::try_from) {
         let w = u64::from_le_bytes(bytes);
         // High bit of each byte that is not a digit; borrows and carries only run towards
         // later bytes, so the lowest flagged byte is the first non-digit.

@@ -403,7 +403,7 @@ impl SourceReader {
             } else {
                 follower.poll(&mut sink);
             }
-            drop(sink);
+            // (`sink` is not used past here: its borrows end.)
             if let Some(parser) = slot.parser.as_mut() {
                 parse_block(&mut pool, block, parser, dest);
                 pool.drain(parser, dest);

@@ -677,7 +677,13 @@ impl Pattern {
     /// Run a [`Pattern::straight`] program from `start`: every op once, in order; the first
     /// that fails ends the attempt.
     #[inline]
-    fn straight(&self, hay: &[u8], start: usize, slots: &mut [usize], budget: &mut usize) -> Outcome {
+    fn straight(
+        &self,
+        hay: &[u8],
+        start: usize,
+        slots: &mut [usize],
+        budget: &mut usize,
+    ) -> Outcome {
         let put = |slots: &mut [usize], slot: u32, pos: usize| {
             if slot != NO_SLOT
                 && let Some(cell) = slots.get_mut(slot as usize)
