@@ -17,7 +17,7 @@ mod state;
 
 use std::sync::Arc;
 
-use super::matcher::{Gate, Matcher};
+use super::matcher::{Gate, Matcher, Prefilter};
 use super::series::MAX_SERIES;
 use crate::record::{Batch, LineStats, RecordRef, Role, Severity, Sink};
 use state::State;
@@ -125,6 +125,9 @@ pub struct Dispatch {
     kinds: [u64; 4],
     /// Rules past the 64th, of each kind, in order.
     beyond: [Vec<usize>; 4],
+    /// Rules 0–63 that need a literal somewhere in the line (bit, rule): searched for in a
+    /// whole block at once by [`LinesParser::feed_block`].
+    literal: Vec<(u64, usize)>,
 }
 
 fn kind_index(k: Kind) -> usize {
@@ -144,6 +147,7 @@ impl Dispatch {
             always: 0,
             kinds: [0; 4],
             beyond: Default::default(),
+            literal: Vec::new(),
         };
         for (r, rule) in rules.iter().enumerate() {
             let k = kind_index(rule.kind);
@@ -153,6 +157,9 @@ impl Dispatch {
             }
             let bit = 1u64 << r;
             d.kinds[k] |= bit;
+            if matches!(rule.matcher.prefilter, Prefilter::Contains(_)) {
+                d.literal.push((bit, r));
+            }
             match rule.matcher.gate() {
                 Gate::Any => d.always |= bit,
                 Gate::Col0(set) => {
@@ -210,13 +217,48 @@ impl LinesParser {
     }
 
     pub fn feed(&mut self, line: &[u8], out: &mut dyn Sink) {
-        self.st.feed(&self.prog, line, out);
+        self.st.feed(&self.prog, line, 0, out);
     }
 
     /// Feed every line of `block`: complete lines, each ending in `\n`.
+    ///
+    /// Rules that need a literal anywhere in the line (`literal = "..."`, or an unanchored
+    /// pattern starting with one) are not tested line by line: each literal is searched for
+    /// in the block, as a scanner does, and a rule is left out of every line before its next
+    /// occurrence.
     pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
         let Self { prog, st, .. } = self;
-        crate::follow::lines::each_line(block, |line| st.feed(prog, line, out));
+        let lits = &prog.dispatch.literal;
+        if lits.is_empty() {
+            crate::follow::lines::each_line(block, |line| st.feed(prog, line, 0, out));
+            return;
+        }
+        // Where each literal next occurs at or after the current line (`None`: not looked
+        // for since that line began; `usize::MAX`: nowhere).
+        let mut next: Vec<Option<usize>> = vec![None; lits.len()];
+        let mut start = 0;
+        crate::follow::lines::each_line(block, |line| {
+            let end = start + line.len();
+            let mut absent = 0u64;
+            for (k, &(bit, r)) in lits.iter().enumerate() {
+                let at = match next[k] {
+                    Some(p) if p >= start => p,
+                    _ => {
+                        let Prefilter::Contains(f) = &prog.rules[r].matcher.prefilter else {
+                            continue;
+                        };
+                        let p = f.find(&block[start..]).map_or(usize::MAX, |p| start + p);
+                        next[k] = Some(p);
+                        p
+                    }
+                };
+                if at >= end {
+                    absent |= bit;
+                }
+            }
+            st.feed(prog, line, absent, out);
+            start = end + 1;
+        });
     }
 
     pub fn finish(&mut self, out: &mut dyn Sink) {
@@ -281,7 +323,7 @@ impl LinesParser {
         let mut rest = part;
         for _ in 0..mark.lines {
             let Some(nl) = crate::follow::lines::find_newline(rest) else { break };
-            self.st.feed(&self.prog, &rest[..nl], out);
+            self.st.feed(&self.prog, &rest[..nl], 0, out);
             rest = &rest[nl + 1..];
         }
         self.st.close_record(out);
@@ -332,6 +374,36 @@ mod tests {
         assert_eq!(recs.len(), 1);
         assert_eq!(recs[0].iteration, Some(4));
         assert_eq!(recs[0].values, vec![(0, 1.0), (0, 2.0)]);
+    }
+
+    #[test]
+    fn a_block_read_at_once_gives_what_its_lines_give_one_by_one() {
+        // Rules that need a literal anywhere in the line are searched for block-wide; the
+        // literal at the very start or end of a line, twice in one line, split over two
+        // lines, and absent for a long stretch.
+        let def = "engine = \"lines\"\n\
+                   [[rules]]\nkind = \"step\"\npattern = '^it (?P<iteration>\\d+)'\n\
+                   [[rules]]\nkind = \"value\"\npattern = '(?P<name>\\w+) res (?P<value>\\S+)'\nliteral = \" res \"\nrepeat = \"all\"\n\
+                   [[rules]]\nkind = \"event\"\nname = \"w\"\npattern = 'fatal: (?P<message>.*)'\n";
+        let mut log =
+            String::from(" res 1\nit 1\np res 1e-3\nq res 2 k res 3\nfatal: x\nz res\n 4\n");
+        for i in 2..40 {
+            log += &format!("it {i}\n");
+            if i % 7 == 0 {
+                log += &format!("u res {i}e-4\nno literal here\n  fatal: at {i}\n");
+            }
+        }
+        log += "v res 5\nfatal:";
+        let d = Definition::from_text(def, Origin::Builtin, "unit", "unit").expect("valid");
+        let by_line = parse(def, &log);
+        let mut p = d.parser();
+        let mut by_block = Vec::new();
+        let mut block = log.clone().into_bytes();
+        block.push(b'\n');
+        p.feed_block(&block, &mut by_block);
+        p.finish(&mut by_block);
+        assert_eq!(by_block, by_line);
+        assert!(by_line.iter().filter(|o| matches!(o, Output::Event(_))).count() >= 6);
     }
 
     #[test]

@@ -147,7 +147,14 @@ impl State {
         })
     }
 
-    pub(super) fn feed(&mut self, prog: &LinesProgram, raw: &[u8], out: &mut dyn Sink) {
+    /// Read one line; `absent`: rules known not to match it (their literal is not in it).
+    pub(super) fn feed(
+        &mut self,
+        prog: &LinesProgram,
+        raw: &[u8],
+        absent: u64,
+        out: &mut dyn Sink,
+    ) {
         self.line_no += 1;
         self.tally.stats.lines += 1;
         let line = raw.strip_suffix(b"\r").unwrap_or(raw);
@@ -164,7 +171,7 @@ impl State {
             self.started = true;
         }
         let d = &prog.dispatch;
-        let cand = d.candidates(line, ws);
+        let cand = d.candidates(line, ws) & !absent;
         if steps_apply {
             let mut bits = cand & d.kind(Kind::Step);
             let mut beyond = d.beyond(Kind::Step).iter();
