@@ -304,7 +304,9 @@ fn peer_row(kind: &str, file: &Path, runs: usize, scratch: &Path, rows: &mut Vec
     let peer = Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/peer.py");
     let argv =
         vec!["python3".into(), peer.display().to_string(), kind.into(), file.display().to_string()];
-    if let Some(run) = measure(&argv, true, runs, scratch) {
+    // One run: the peer takes tens of seconds, and its figure is only the scale.
+    let _ = runs;
+    if let Some(run) = measure(&argv, true, 1, scratch) {
         let values = run.stdout.split_whitespace().nth(2).and_then(|v| v.parse().ok());
         rows.push(Row { name: "python peer (1 core)".into(), run, values });
     }
