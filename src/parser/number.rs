@@ -213,45 +213,19 @@ pub fn number_prefix(b: &[u8]) -> Option<(f64, usize)> {
 }
 
 /// Read the run of ASCII digits at `b[i..]` into `m` (`m = m·10^k + digits`, wrapping) and
-/// return where the run ends. Eight bytes are looked at together: a run of up to eight
-/// digits costs a handful of operations on one `u64` instead of a loop per digit.
+/// return where the run ends. (Eight digits at a time in a `u64` was tried: the runs are
+/// too short, one to six digits, for it to pay; see benches/README.md.)
 #[inline]
 fn digits_into(b: &[u8], mut i: usize, m: &mut u64) -> usize {
-    const LO: u64 = 0x0101_0101_0101_0101;
-    while let Some(Ok(bytes)) = b.get(i..i + 8).map(<[u8; 8]>::try_from) {
-        let w = u64::from_le_bytes(bytes);
-        // High bit of each byte that is not a digit; borrows and carries only run towards
-        // later bytes, so the lowest flagged byte is the first non-digit.
-        let non_digit = (w.wrapping_add(0x46 * LO) | w.wrapping_sub(0x30 * LO)) & (0x80 * LO);
-        let k = (non_digit.trailing_zeros() / 8) as usize;
-        if k == 0 {
-            return i;
+    while i < b.len() {
+        let d = b[i].wrapping_sub(b'0');
+        if d > 9 {
+            break;
         }
-        *m = m.wrapping_mul(POW10_INT[k]).wrapping_add(eight_digits(w, k));
-        i += k;
-        if k < 8 {
-            return i;
-        }
-    }
-    while let Some(d) = b.get(i).map(|c| c.wrapping_sub(b'0')).filter(|d| *d <= 9) {
         *m = m.wrapping_mul(10).wrapping_add(u64::from(d));
         i += 1;
     }
     i
-}
-
-/// The value of the first `k` (1–8) bytes of `w`, all ASCII digits, first digit lowest.
-#[inline]
-fn eight_digits(w: u64, k: usize) -> u64 {
-    const LO: u64 = 0x0101_0101_0101_0101;
-    // Keep the k digits in the top bytes, with '0's below them: the same number in 8 digits.
-    let shift = 64 - 8 * k as u32;
-    let mut v = (w << shift) | ((0x30 * LO).checked_shr(64 - shift).unwrap_or(0));
-    v = v.wrapping_sub(0x30 * LO);
-    // Pairs, then fours, then all eight (Mula's method).
-    v = (v.wrapping_mul(10)).wrapping_add(v >> 8) & 0x00ff_00ff_00ff_00ff;
-    v = (v.wrapping_mul(100)).wrapping_add(v >> 16) & 0x0000_ffff_0000_ffff;
-    (v.wrapping_mul(10_000)).wrapping_add(v >> 32) & 0xffff_ffff
 }
 
 /// 10^k as integers, k = 0..=15.
