@@ -9,7 +9,7 @@ mod batch;
 
 use serde::{Deserialize, Serialize};
 
-pub use batch::Batch;
+pub use batch::{Batch, BatchItem, Column};
 
 /// How the judge treats a series (DESIGN §4).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
@@ -178,6 +178,13 @@ pub trait Sink {
     /// The solver's end-of-run mark.
     fn end_of_run(&mut self, line: u64, message: String);
     fn skipped(&mut self, skip: Skip);
+
+    /// All of `b` (from its second record on, and nothing before that, with
+    /// `after_first_record`), with `line_offset` added to its line numbers. A store takes the
+    /// values a series at a time; other sinks get the items one by one.
+    fn batch(&mut self, b: &Batch, line_offset: u64, after_first_record: bool) {
+        b.replay_from(usize::from(after_first_record), line_offset, self);
+    }
 }
 
 impl Sink for Vec<Output> {

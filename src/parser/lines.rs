@@ -328,7 +328,7 @@ impl LinesParser {
         }
         self.st.close_record(out);
         worker.st.series.announce(mark.series, out);
-        batch.replay_after_first_record(base, out);
+        out.batch(batch, base, true);
         let after = worker.st.tally.stats.since(mark.stats);
         let reported = worker.st.tally.reported().saturating_sub(mark.reported);
         worker.st.tally = self.st.tally.clone();

@@ -278,7 +278,7 @@ impl TableParser {
             self.feed_block(part, out);
             return false;
         }
-        batch.replay(self.line_no, out);
+        out.batch(batch, self.line_no, false);
         worker.line_no += self.line_no;
         worker.tally.rebase(self.tally.stats, self.tally.reported());
         *self = worker;

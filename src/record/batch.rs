@@ -36,6 +36,42 @@ pub struct Batch {
     items: Vec<Item>,
     heads: Vec<Head>,
     values: Vec<(SeriesId, f64)>,
+    columns: Option<Vec<Column>>,
+}
+
+/// The values of one series in a batch, in record order.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Column {
+    pub id: SeriesId,
+    /// Batch record index of every value.
+    pub records: Vec<u32>,
+    pub values: Vec<f64>,
+}
+
+impl Column {
+    /// One value in each record from the first one on, with no gap and no repeat.
+    pub fn is_dense(&self) -> bool {
+        self.records.windows(2).all(|w| w[1] == w[0] + 1)
+    }
+}
+
+/// What [`Batch::items`] yields, in file order.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum BatchItem<'a> {
+    /// A record: its index in the batch, iteration, time, line (not shifted).
+    Record {
+        index: usize,
+        iteration: Option<i64>,
+        time: Option<f64>,
+        line: u64,
+    },
+    Series(&'a SeriesInfo),
+    Event(&'a Event),
+    End {
+        line: u64,
+        message: &'a str,
+    },
+    Skipped(&'a Skip),
 }
 
 impl Batch {
@@ -57,6 +93,65 @@ impl Batch {
         self.values.len()
     }
 
+    /// Group the values by series ([`Batch::columns`]).
+    pub fn build_columns(&mut self) {
+        let mut cols: Vec<Column> = Vec::new();
+        // Series id → position in `cols`.
+        let mut at: Vec<u32> = Vec::new();
+        let mut value = 0usize;
+        for (r, h) in self.heads.iter().enumerate() {
+            for &(id, v) in &self.values[value..value + h.len as usize] {
+                let i = id as usize;
+                if i >= at.len() {
+                    at.resize(i + 1, u32::MAX);
+                }
+                if at[i] == u32::MAX {
+                    at[i] = cols.len() as u32;
+                    cols.push(Column { id, records: Vec::new(), values: Vec::new() });
+                }
+                let c = &mut cols[at[i] as usize];
+                c.records.push(r as u32);
+                c.values.push(v);
+            }
+            value += h.len as usize;
+        }
+        self.columns = Some(cols);
+    }
+
+    /// The values by series, when [`Batch::build_columns`] was called.
+    pub fn columns(&self) -> Option<&[Column]> {
+        self.columns.as_deref()
+    }
+
+    /// Everything but the values, in file order.
+    pub fn items(&self) -> impl Iterator<Item = BatchItem<'_>> {
+        let mut head = 0usize;
+        self.items.iter().flat_map(move |item| {
+            let one: Vec<BatchItem<'_>> = match item {
+                Item::Records(n) => {
+                    let start = head;
+                    head += *n as usize;
+                    (start..head)
+                        .map(|index| {
+                            let h = self.heads[index];
+                            BatchItem::Record {
+                                index,
+                                iteration: h.iteration,
+                                time: h.time,
+                                line: h.line,
+                            }
+                        })
+                        .collect()
+                }
+                Item::Series(info) => vec![BatchItem::Series(info)],
+                Item::Event(e) => vec![BatchItem::Event(e)],
+                Item::End { line, message } => vec![BatchItem::End { line: *line, message }],
+                Item::Skipped(s) => vec![BatchItem::Skipped(s)],
+            };
+            one
+        })
+    }
+
     /// Everything, in order, to `out`, with `line_offset` added to every line number.
     pub fn replay(&self, line_offset: u64, out: &mut dyn Sink) {
         self.replay_from(0, line_offset, out);
@@ -69,7 +164,12 @@ impl Batch {
     }
 
     /// Replay, skipping the first `skip_records` records and every item before them.
-    fn replay_from(&self, skip_records: usize, line_offset: u64, out: &mut dyn Sink) {
+    pub fn replay_from<S: Sink + ?Sized>(
+        &self,
+        skip_records: usize,
+        line_offset: u64,
+        out: &mut S,
+    ) {
         let (mut head, mut value) = (0usize, 0usize);
         let mut skipping = skip_records > 0;
         for item in &self.items {
@@ -114,9 +214,11 @@ impl Batch {
 
     /// Bytes allocated (for bounding what is held before it is handed on).
     pub fn heap_bytes(&self) -> usize {
+        let cols: usize = self.columns.iter().flatten().map(|c| 12 * c.values.capacity()).sum();
         self.items.capacity() * std::mem::size_of::<Item>()
             + self.heads.capacity() * std::mem::size_of::<Head>()
             + self.values.capacity() * std::mem::size_of::<(SeriesId, f64)>()
+            + cols
     }
 }
 
@@ -126,6 +228,7 @@ impl Sink for Batch {
     }
 
     fn record(&mut self, rec: RecordRef<'_>) {
+        self.columns = None;
         self.heads.push(Head {
             iteration: rec.iteration,
             time: rec.time,

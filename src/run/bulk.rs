@@ -147,6 +147,7 @@ impl<'scope, 'env> Pool<'scope, 'env> {
                     let mut worker = job.worker;
                     let mut batch = Batch::new();
                     worker.feed_block(&job.block, &mut batch);
+                    batch.build_columns();
                     let d = Done { seq: job.seq, block: job.block, worker, batch };
                     if done.send(d).is_err() {
                         return;

@@ -62,7 +62,7 @@ pub fn apply(store: &mut SourceStore, activity: &mut SourceActivity, items: Vec<
 fn apply_one(store: &mut SourceStore, activity: &mut SourceActivity, item: IngestItem) {
     match item {
         IngestItem::Output(o) => o.send_to(store),
-        IngestItem::Parsed(b) => b.replay(0, store),
+        IngestItem::Parsed(b) => store.batch(&b, 0, false),
         IngestItem::Open(r) => store.show_open(r.as_ref()),
         IngestItem::Restart(reason) => store.restart(reason),
         IngestItem::Note(n) => store.note(n),
@@ -106,6 +106,9 @@ impl Sink for ApplyTo<'_> {
     }
     fn skipped(&mut self, skip: Skip) {
         self.store.skipped(skip);
+    }
+    fn batch(&mut self, b: &Batch, line_offset: u64, after_first_record: bool) {
+        self.store.batch(b, line_offset, after_first_record);
     }
 }
 

@@ -15,6 +15,7 @@ use serde::Serialize;
 use crate::judge::{RunInput, SeriesInput};
 use crate::record::{Event, LineStats, Output, RecordRef, SeriesId, SeriesInfo, Sink, Skip};
 
+mod append;
 mod open;
 mod reread;
 mod series;
@@ -176,8 +177,21 @@ impl SourceStore {
         if self.rereading() && self.reread_record(&rec) {
             return;
         }
+        let pos = self.push_head(rec.iteration, rec.time);
+        for &(id, v) in rec.values {
+            if let Some(&idx) = self.ids.get(id as usize)
+                && idx != NO_SERIES
+            {
+                self.series[idx as usize].push(pos, v);
+            }
+        }
+    }
+
+    /// A new record's iteration and time (its values follow): opens a segment when it
+    /// must, and returns the record's position.
+    fn push_head(&mut self, iteration: Option<i64>, time: Option<f64>) -> u32 {
         let last = self.iterations.last().copied();
-        let iteration = match (rec.iteration, last) {
+        let iteration = match (iteration, last) {
             (Some(it), _) => it,
             (None, Some(l)) if self.pending_segment.is_none() => l + 1,
             (None, Some(_)) | (None, None) => 1,
@@ -197,7 +211,7 @@ impl SourceStore {
         self.pending_segment = None;
         let pos = self.iterations.len() as u32;
         self.iterations.push(iteration);
-        match rec.time {
+        match time {
             Some(t) => {
                 if !self.has_time {
                     self.times = vec![f64::NAN; self.iterations.len() - 1];
@@ -208,13 +222,7 @@ impl SourceStore {
             None if self.has_time => self.times.push(f64::NAN),
             None => {}
         }
-        for &(id, v) in rec.values {
-            if let Some(&idx) = self.ids.get(id as usize)
-                && idx != NO_SERIES
-            {
-                self.series[idx as usize].push(pos, v);
-            }
-        }
+        pos
     }
 
     /// Number of records.
@@ -335,6 +343,10 @@ impl Sink for SourceStore {
         self.settle_open();
         let it = self.current_iteration().unwrap_or(0);
         self.ended = Some((it, message));
+    }
+
+    fn batch(&mut self, b: &crate::record::Batch, line_offset: u64, after_first_record: bool) {
+        self.append_batch(b, line_offset, after_first_record);
     }
 
     fn skipped(&mut self, skip: Skip) {

@@ -104,6 +104,25 @@ impl Series {
         }
     }
 
+    /// Values for consecutive records from `record` on: one copy when the series is dense
+    /// and continues right there, else one push each.
+    pub(super) fn extend_consecutive(&mut self, record: u32, values: &[f64]) {
+        let Some((&v0, rest)) = values.split_first() else { return };
+        self.push(record, v0);
+        match self.placement {
+            Placement::Dense { first }
+                if first as usize + self.values.len() == record as usize + 1 =>
+            {
+                self.values.extend_from_slice(rest);
+            }
+            _ => {
+                for (k, &v) in rest.iter().enumerate() {
+                    self.push(record + 1 + k as u32, v);
+                }
+            }
+        }
+    }
+
     /// How far the series reaches now, to go back to with [`Series::rewind`].
     pub(super) fn mark(&self) -> SeriesMark {
         SeriesMark {
