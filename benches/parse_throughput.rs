@@ -15,7 +15,8 @@
 //!
 //! Each tool runs as a child process, best wall time of `SETTLE_BENCH_RUNS` (default 3),
 //! with CPU time and peak RSS of that run from GNU `/usr/bin/time` when it is installed.
-//! `settle parse` runs pinned to one core (`taskset -c 0`) and on every core; with
+//! `settle parse` runs pinned to one core (`taskset -c 0`) and unpinned (it then reads a
+//! large file on the cores the load average leaves free, so the load is printed); with
 //! `SETTLE_BENCH_BEFORE=/path/to/older/settle` an older binary runs beside it in the same
 //! run, which is how before → after figures are made.
 //!
@@ -242,7 +243,10 @@ struct Row {
 fn print_table(title: &str, bytes: u64, rows: &[Row]) {
     let find = |prefix: &str| rows.iter().find(|r| r.name.starts_with(prefix)).map(|r| r.run.wall);
     let (cat, grep, py) = (find("cat"), find("grep"), find("python"));
-    println!("\n{title}: {:.1} MB", bytes as f64 / 1e6);
+    // settle reads on the cores the load leaves free: the load says what "2 cores" meant.
+    let load = fs::read_to_string("/proc/loadavg").unwrap_or_default();
+    let load = load.split_whitespace().take(3).collect::<Vec<_>>().join(" ");
+    println!("\n{title}: {:.1} MB (load average {load})", bytes as f64 / 1e6);
     println!(
         "  {:<26} {:>7} {:>8} {:>7} {:>8} {:>8} {:>9} {:>7} {:>9}",
         "tool", "wall s", "MB/s", "CPU s", "RSS MB", "B/value", "×grep -c", "×cat", "py/this"

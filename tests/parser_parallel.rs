@@ -243,11 +243,17 @@ fn a_large_file_through_the_pipeline_equals_the_serial_read() {
 
     let spec = SourceSpec { label: "log".into(), path, parser: Some("tarn".into()) };
     let cfg = FollowConfig { read_chunk: 7 * 1024, ..FollowConfig::default() };
-    let mut reader = SourceReader::new(&spec, Arc::new(reg.clone()), cfg).expect("reader");
-    let mut store = SourceStore::new("log", "x");
-    reader.read_into(&mut store, &mut SourceActivity::default()).expect("read");
-    assert_eq!(summary(&store), want);
-    if std::thread::available_parallelism().map_or(1, |n| n.get()) > 1 {
-        assert!(reader.parallel_blocks() >= 1, "the blocks after the first were read in parallel");
+    for workers in [1, 2, 3] {
+        let mut reader =
+            SourceReader::new(&spec, Arc::new(reg.clone()), cfg.clone()).expect("reader");
+        reader.set_workers(workers);
+        let mut store = SourceStore::new("log", "x");
+        reader.read_into(&mut store, &mut SourceActivity::default()).expect("read");
+        assert_eq!(summary(&store), want, "{workers} threads");
+        if workers > 1 {
+            assert!(reader.parallel_blocks() >= 1, "blocks after the first read in parallel");
+        } else {
+            assert_eq!(reader.parallel_blocks(), 0);
+        }
     }
 }

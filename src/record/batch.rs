@@ -36,7 +36,10 @@ pub struct Batch {
     items: Vec<Item>,
     heads: Vec<Head>,
     values: Vec<(SeriesId, f64)>,
-    columns: Option<Vec<Column>>,
+    /// Columns of [`Batch::build_columns`] (their vectors are reused batch after batch);
+    /// valid only while `columns_built`.
+    columns: Vec<Column>,
+    columns_built: bool,
 }
 
 /// The values of one series in a batch, in record order.
@@ -95,7 +98,8 @@ impl Batch {
 
     /// Group the values by series ([`Batch::columns`]).
     pub fn build_columns(&mut self) {
-        let mut cols: Vec<Column> = Vec::new();
+        let mut spare = std::mem::take(&mut self.columns);
+        let mut cols: Vec<Column> = Vec::with_capacity(spare.len());
         // Series id → position in `cols`.
         let mut at: Vec<u32> = Vec::new();
         let mut value = 0usize;
@@ -107,7 +111,15 @@ impl Batch {
                 }
                 if at[i] == u32::MAX {
                     at[i] = cols.len() as u32;
-                    cols.push(Column { id, records: Vec::new(), values: Vec::new() });
+                    let mut c = spare.pop().unwrap_or(Column {
+                        id,
+                        records: Vec::new(),
+                        values: Vec::new(),
+                    });
+                    c.id = id;
+                    c.records.clear();
+                    c.values.clear();
+                    cols.push(c);
                 }
                 let c = &mut cols[at[i] as usize];
                 c.records.push(r as u32);
@@ -115,12 +127,21 @@ impl Batch {
             }
             value += h.len as usize;
         }
-        self.columns = Some(cols);
+        self.columns = cols;
+        self.columns_built = true;
     }
 
     /// The values by series, when [`Batch::build_columns`] was called.
     pub fn columns(&self) -> Option<&[Column]> {
-        self.columns.as_deref()
+        self.columns_built.then_some(&self.columns[..])
+    }
+
+    /// Empty the batch, keeping its buffers for the next one.
+    pub fn clear(&mut self) {
+        self.items.clear();
+        self.heads.clear();
+        self.values.clear();
+        self.columns_built = false;
     }
 
     /// Everything but the values, in file order.
@@ -214,7 +235,7 @@ impl Batch {
 
     /// Bytes allocated (for bounding what is held before it is handed on).
     pub fn heap_bytes(&self) -> usize {
-        let cols: usize = self.columns.iter().flatten().map(|c| 12 * c.values.capacity()).sum();
+        let cols: usize = self.columns.iter().map(|c| 12 * c.values.capacity()).sum();
         self.items.capacity() * std::mem::size_of::<Item>()
             + self.heads.capacity() * std::mem::size_of::<Head>()
             + self.values.capacity() * std::mem::size_of::<(SeriesId, f64)>()
@@ -228,7 +249,7 @@ impl Sink for Batch {
     }
 
     fn record(&mut self, rec: RecordRef<'_>) {
-        self.columns = None;
+        self.columns_built = false;
         self.heads.push(Head {
             iteration: rec.iteration,
             time: rec.time,

@@ -10,7 +10,10 @@
 //! the wall time, never the result; `tests/parser_parallel.rs` checks that on files cut at
 //! every kind of awkward place.
 //!
-//! Live appends are small and never fill a second block, so they stay on one thread.
+//! Live appends are small and never fill a second block, so they stay on one thread. On a
+//! machine whose cores are busy (a shared login node), more threads would only add the
+//! cost of blocks and batches: the pool uses the cores the load average leaves free, and
+//! with fewer than two the read stays on one thread.
 //! Memory stays bounded: at most [`IN_FLIGHT_PER_WORKER`] blocks per worker are queued or
 //! done-but-not-merged; the reader waits for the oldest before sending more.
 
@@ -27,11 +30,12 @@ pub const BLOCK_BYTES: usize = 1 << 20;
 /// Blocks queued or waiting to be merged, per worker.
 const IN_FLIGHT_PER_WORKER: usize = 2;
 
-/// A block sent to a worker.
+/// A block sent to a worker, with an empty batch to fill (buffers reused).
 struct Job {
     seq: u64,
     block: Vec<u8>,
     worker: Parser,
+    batch: Batch,
 }
 
 /// A block a worker has parsed.
@@ -55,14 +59,16 @@ pub struct Pool<'scope, 'env> {
     merged: u64,
     waiting: BTreeMap<u64, Done>,
     spare: Vec<Vec<u8>>,
+    spare_batches: Vec<Batch>,
     /// Blocks whose parallel reading was used (the others were read again in order).
     pub handed_over: u64,
 }
 
 impl<'scope, 'env> Pool<'scope, 'env> {
-    pub fn new(scope: &'scope Scope<'scope, 'env>) -> Self {
+    /// A pool of `workers` threads (`None`: the cores free now, see [`free_cores`]).
+    pub fn new(scope: &'scope Scope<'scope, 'env>, workers: Option<usize>) -> Self {
         let (done_tx, done_rx) = channel();
-        let workers = std::thread::available_parallelism().map_or(1, |n| n.get());
+        let workers = workers.unwrap_or_else(free_cores).max(1);
         Pool {
             scope,
             workers,
@@ -74,6 +80,7 @@ impl<'scope, 'env> Pool<'scope, 'env> {
             merged: 0,
             waiting: BTreeMap::new(),
             spare: Vec::new(),
+            spare_batches: Vec::new(),
             handed_over: 0,
         }
     }
@@ -81,6 +88,11 @@ impl<'scope, 'env> Pool<'scope, 'env> {
     /// Whether blocks are being parsed in parallel.
     pub fn active(&self) -> bool {
         self.template.is_some()
+    }
+
+    /// Whether there are cores to parse blocks on (else a read stays on one thread).
+    pub fn parallel(&self) -> bool {
+        self.workers >= 2
     }
 
     /// An empty buffer for the next block (reused from merged ones).
@@ -97,7 +109,8 @@ impl<'scope, 'env> Pool<'scope, 'env> {
             return;
         }
         let template = self.template.get_or_insert_with(|| parser.speculative());
-        let job = Job { seq: self.next, block, worker: template.clone() };
+        let batch = self.spare_batches.pop().unwrap_or_default();
+        let job = Job { seq: self.next, block, worker: template.clone(), batch };
         self.next += 1;
         let jobs = match &self.jobs {
             Some(j) => j.clone(),
@@ -145,7 +158,7 @@ impl<'scope, 'env> Pool<'scope, 'env> {
                     };
                     let Ok(job) = job else { return };
                     let mut worker = job.worker;
-                    let mut batch = Batch::new();
+                    let mut batch = job.batch;
                     worker.feed_block(&job.block, &mut batch);
                     batch.build_columns();
                     let d = Done { seq: job.seq, block: job.block, worker, batch };
@@ -170,6 +183,11 @@ impl<'scope, 'env> Pool<'scope, 'env> {
                 self.handed_over += u64::from(parser.join(&d.block, d.worker, &d.batch, out));
                 self.merged += 1;
                 self.recycle(d.block);
+                if self.spare_batches.len() < self.workers * IN_FLIGHT_PER_WORKER {
+                    let mut b = d.batch;
+                    b.clear();
+                    self.spare_batches.push(b);
+                }
                 return true;
             }
             let got = if wait { self.done_rx.recv().ok() } else { self.done_rx.try_recv().ok() };
@@ -183,10 +201,26 @@ impl<'scope, 'env> Pool<'scope, 'env> {
     }
 
     fn recycle(&mut self, mut block: Vec<u8>) {
-        if self.spare.len() < 2 {
+        if self.spare.len() < self.workers * IN_FLIGHT_PER_WORKER {
             block.clear();
             self.spare.push(block);
         }
+    }
+}
+
+/// Cores this process may use that other processes are not using: the allowed cores less
+/// the one-minute load average (rounded), at least one.
+pub fn free_cores() -> usize {
+    let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+    let load = std::fs::read_to_string("/proc/loadavg")
+        .ok()
+        .and_then(|s| s.split_whitespace().next().and_then(|l| l.parse::<f64>().ok()));
+    match load {
+        Some(l) if l.is_finite() => {
+            let free = (cores as f64 - l).round();
+            (free.max(1.0) as usize).min(cores)
+        }
+        _ => cores,
     }
 }
 

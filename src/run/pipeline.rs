@@ -183,6 +183,8 @@ pub struct SourceReader {
     open_shown: bool,
     /// Blocks read on other cores and handed over (see `bulk.rs`).
     parallel_blocks: u64,
+    /// Threads for a bulk read (`None`: the cores the load leaves free).
+    workers: Option<usize>,
 }
 
 impl SourceReader {
@@ -219,6 +221,7 @@ impl SourceReader {
             last_lines: None,
             open_shown: false,
             parallel_blocks: 0,
+            workers: None,
         })
     }
 
@@ -230,6 +233,12 @@ impl SourceReader {
     /// How long a live source must be quiet before its open record is shown.
     pub fn set_open_quiet(&mut self, d: Duration) {
         self.open_quiet = d;
+    }
+
+    /// Parse large reads with this many threads (default: the cores the load average leaves
+    /// free; fewer than two keeps reads on one thread).
+    pub fn set_workers(&mut self, n: usize) {
+        self.workers = Some(n);
     }
 
     /// Blocks of lines that were parsed on another core and used as such so far.
@@ -308,12 +317,20 @@ impl SourceReader {
         let size = std::fs::metadata(&self.path).map(|m| m.len()).unwrap_or(0);
         let size = size.saturating_sub(self.follower.offset());
         let SourceReader {
-            follower, registry, slot, label, block, partial, parallel_blocks, ..
+            follower,
+            registry,
+            slot,
+            label,
+            block,
+            partial,
+            parallel_blocks,
+            workers,
+            ..
         } = self;
         let mut grew = false;
         let mut error = None;
         std::thread::scope(|scope| {
-            let mut pool = Pool::new(scope);
+            let mut pool = Pool::new(scope, *workers);
             // Bytes of lines fed in place in this read; past one block, lines are gathered
             // into blocks for the pool (a bulk read).
             let mut in_place = 0usize;
@@ -330,10 +347,11 @@ impl SourceReader {
                             }
                             return;
                         };
-                        if in_place < BLOCK_BYTES {
+                        if in_place < BLOCK_BYTES || !pool.parallel() {
+                            let before = in_place;
                             in_place += line.len() + 1;
                             parser.feed(line, dest);
-                            if in_place >= BLOCK_BYTES && size > 0 {
+                            if before < BLOCK_BYTES && in_place >= BLOCK_BYTES && size > 0 {
                                 dest.read_fraction(in_place as f64 / size as f64);
                             }
                             return;
