@@ -354,6 +354,9 @@ impl SourceReader {
                             if before < BLOCK_BYTES && in_place >= BLOCK_BYTES && size > 0 {
                                 dest.read_fraction(in_place as f64 / size as f64);
                             }
+                            if before / BLOCK_BYTES != in_place / BLOCK_BYTES {
+                                hand_on(dest, false);
+                            }
                             return;
                         }
                         block.extend_from_slice(line);
