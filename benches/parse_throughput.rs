@@ -15,8 +15,9 @@
 //!
 //! Each tool runs as a child process, best wall time of `SETTLE_BENCH_RUNS` (default 3),
 //! with CPU time and peak RSS of that run from GNU `/usr/bin/time` when it is installed.
-//! `settle parse` runs pinned to one core (`taskset -c 0`) and unpinned (it then reads a
-//! large file on the cores the load average leaves free, so the load is printed); with
+//! `settle parse` runs pinned to one core (`taskset -c 0`) and unpinned with two reading
+//! threads (`SETTLE_THREADS=2`; by default it uses only the cores the load average leaves
+//! free, and the load is printed beside the results since other work shares the cores); with
 //! `SETTLE_BENCH_BEFORE=/path/to/older/settle` an older binary runs beside it in the same
 //! run, which is how before → after figures are made.
 //!
@@ -291,8 +292,11 @@ fn settle_rows(
     rows: &mut Vec<Row>,
 ) {
     for (name, bin) in binaries() {
+        // Pinned to one core; then on every core with two reading threads whatever the
+        // load (`SETTLE_THREADS=2`; by default settle leaves busy cores alone).
         for pin in [true, false] {
-            let mut argv = vec![bin.clone(), "parse".into()];
+            let mut argv =
+                vec!["env".into(), "SETTLE_THREADS=2".into(), bin.clone(), "parse".into()];
             argv.extend(parser_args.iter().cloned());
             argv.push(file.display().to_string());
             if let Some(run) = measure(&argv, pin, runs, scratch) {

@@ -12,8 +12,8 @@
 //!
 //! Live appends are small and never fill a second block, so they stay on one thread. On a
 //! machine whose cores are busy (a shared login node), more threads would only add the
-//! cost of blocks and batches: the pool uses the cores the load average leaves free, and
-//! with fewer than two the read stays on one thread.
+//! cost of blocks and batches: the pool uses the cores the load average leaves free (or
+//! `SETTLE_THREADS`), and with fewer than two the read stays on one thread.
 //! Memory stays bounded: at most [`IN_FLIGHT_PER_WORKER`] blocks per worker are queued or
 //! done-but-not-merged; the reader waits for the oldest before sending more.
 
@@ -208,9 +208,13 @@ impl<'scope, 'env> Pool<'scope, 'env> {
     }
 }
 
-/// Cores this process may use that other processes are not using: the allowed cores less
-/// the one-minute load average (rounded), at least one.
+/// Threads for a bulk read: `SETTLE_THREADS` when set to a number (1 keeps every read on
+/// one thread), else the cores this process may use that other processes are not using:
+/// the allowed cores less the one-minute load average (rounded), at least one.
 pub fn free_cores() -> usize {
+    if let Some(n) = std::env::var("SETTLE_THREADS").ok().and_then(|v| v.trim().parse().ok()) {
+        return usize::max(n, 1);
+    }
     let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
     let load = std::fs::read_to_string("/proc/loadavg")
         .ok()
