@@ -210,12 +210,13 @@ impl<'scope, 'env> Pool<'scope, 'env> {
 
 /// Threads for a bulk read: `SETTLE_THREADS` when set to a number (1 keeps every read on
 /// one thread), else the cores this process may use that other processes are not using:
-/// the allowed cores less the one-minute load average (rounded), at least one.
+/// the allowed cores less the one-minute load average (rounded); at least one, at most the
+/// cores this process may run on.
 pub fn free_cores() -> usize {
-    if let Some(n) = std::env::var("SETTLE_THREADS").ok().and_then(|v| v.trim().parse().ok()) {
-        return usize::max(n, 1);
-    }
     let cores = std::thread::available_parallelism().map_or(1, |n| n.get());
+    if let Some(n) = std::env::var("SETTLE_THREADS").ok().and_then(|v| v.trim().parse().ok()) {
+        return usize::clamp(n, 1, cores);
+    }
     let load = std::fs::read_to_string("/proc/loadavg")
         .ok()
         .and_then(|s| s.split_whitespace().next().and_then(|l| l.parse::<f64>().ok()));
