@@ -51,13 +51,6 @@ pub struct Column {
     pub values: Vec<f64>,
 }
 
-impl Column {
-    /// One value in each record from the first one on, with no gap and no repeat.
-    pub fn is_dense(&self) -> bool {
-        self.records.windows(2).all(|w| w[1] == w[0] + 1)
-    }
-}
-
 /// What [`Batch::items`] yields, in file order.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum BatchItem<'a> {
@@ -226,7 +219,7 @@ impl Batch {
         }
     }
 
-    /// Owned items, for consumers that print them one by one (`parse --follow`).
+    /// Owned items, one by one.
     pub fn outputs(&self) -> Vec<Output> {
         let mut v: Vec<Output> = Vec::with_capacity(self.items.len() + self.heads.len());
         self.replay(0, &mut v);

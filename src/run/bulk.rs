@@ -85,11 +85,6 @@ impl<'scope, 'env> Pool<'scope, 'env> {
         }
     }
 
-    /// Whether blocks are being parsed in parallel.
-    pub fn active(&self) -> bool {
-        self.template.is_some()
-    }
-
     /// Whether there are cores to parse blocks on (else a read stays on one thread).
     pub fn parallel(&self) -> bool {
         self.workers >= 2

@@ -48,11 +48,6 @@ impl SourceStore {
         self.open = Some(Box::new(undo));
     }
 
-    /// Whether the last record is a provisional one.
-    pub fn has_open(&self) -> bool {
-        self.open.is_some()
-    }
-
     /// Records that are not provisional.
     pub fn closed_records(&self) -> usize {
         self.records() - usize::from(self.open.is_some())
