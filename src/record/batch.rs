@@ -46,9 +46,35 @@ pub struct Batch {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Column {
     pub id: SeriesId,
-    /// Batch record index of every value.
+    /// Batch record index of the first value.
+    pub first: u32,
+    /// Batch record index of every value, or empty while the values sit in consecutive
+    /// records from `first` (the common case costs no index per value).
     pub records: Vec<u32>,
     pub values: Vec<f64>,
+}
+
+impl Column {
+    #[inline]
+    fn push(&mut self, r: u32, v: f64) {
+        if self.records.is_empty() {
+            if self.values.is_empty() {
+                self.first = r;
+            }
+            if self.first as usize + self.values.len() == r as usize {
+                self.values.push(v);
+                return;
+            }
+            self.records.extend(self.first..self.first + self.values.len() as u32);
+        }
+        self.records.push(r);
+        self.values.push(v);
+    }
+
+    /// Whether the values sit in consecutive records from [`Column::first`].
+    pub fn consecutive(&self) -> bool {
+        self.records.is_empty()
+    }
 }
 
 /// What [`Batch::items`] yields, in file order.
@@ -106,6 +132,7 @@ impl Batch {
                     at[i] = cols.len() as u32;
                     let mut c = spare.pop().unwrap_or(Column {
                         id,
+                        first: 0,
                         records: Vec::new(),
                         values: Vec::new(),
                     });
@@ -114,9 +141,7 @@ impl Batch {
                     c.values.clear();
                     cols.push(c);
                 }
-                let c = &mut cols[at[i] as usize];
-                c.records.push(r as u32);
-                c.values.push(v);
+                cols[at[i] as usize].push(r as u32, v);
             }
             value += h.len as usize;
         }

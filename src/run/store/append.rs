@@ -44,15 +44,16 @@ impl SourceStore {
             let Some(&idx) = self.ids.get(col.id as usize).filter(|&&i| i != NO_SERIES) else {
                 continue;
             };
-            let from = col.records.partition_point(|&r| (r as usize) < skip);
-            let (records, values) = (&col.records[from..], &col.values[from..]);
-            let Some(&r0) = records.first() else { continue };
             let at = |r: u32| (base + r as usize - skip) as u32;
             let series = &mut self.series[idx as usize];
-            if records.windows(2).all(|w| w[1] == w[0] + 1) {
-                series.extend_consecutive(at(r0), values);
+            if col.consecutive() {
+                // Values of skipped records come first.
+                let drop = skip.saturating_sub(col.first as usize).min(col.values.len());
+                let first = col.first + drop as u32;
+                series.extend_consecutive(at(first), &col.values[drop..]);
             } else {
-                for (&r, &v) in records.iter().zip(values) {
+                let from = col.records.partition_point(|&r| (r as usize) < skip);
+                for (&r, &v) in col.records[from..].iter().zip(&col.values[from..]) {
                     series.push(at(r), v);
                 }
             }
