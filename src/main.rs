@@ -15,7 +15,6 @@ use clap::{Args, CommandFactory, Parser as ClapParser, Subcommand};
 use settle::follow::{FollowConfig, Waker};
 use settle::judge::{self, Criteria, Judgement};
 use settle::parser::Registry;
-use settle::record::Output;
 use settle::run::RunStore;
 use settle::run::config::{self, RunSpec};
 use settle::run::pipeline::{self, SourceReader};
@@ -219,6 +218,10 @@ struct ReportArgs {
     /// Dimension used to turn cell counts into a cell size.
     #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(2..=3))]
     dim: u8,
+    /// Read a final line that has no newline as data even when the file changed in the last
+    /// 2 s (by default such a line may be half-written and is left out, with a note).
+    #[arg(long)]
+    include_partial: bool,
 }
 
 #[derive(Args, Debug)]
@@ -236,6 +239,11 @@ struct ParseArgs {
     /// Keep following the files and print one line per new record, until Ctrl-C.
     #[arg(long)]
     follow: bool,
+    /// Read a final line that has no newline as data even when the file changed in the last
+    /// 2 s (by default such a line may be half-written and is left out, with a note).
+    #[arg(long)]
+    include_partial: bool,
+
     /// Seconds between file checks while following (file events also wake settle; on
     /// network filesystems only this poll sees other nodes' writes).
     #[arg(long, value_name = "SECONDS", default_value_t = 1.0)]
@@ -348,6 +356,10 @@ struct CheckArgs {
     /// Print one JSON object (schema in the README) instead of text.
     #[arg(long)]
     json: bool,
+    /// Read a final line that has no newline as data even when the file changed in the last
+    /// 2 s (by default such a line may be half-written and is left out, with a note).
+    #[arg(long)]
+    include_partial: bool,
     #[command(flatten)]
     criteria: CriteriaArgs,
 }
@@ -589,7 +601,7 @@ fn cmd_parse(a: ParseArgs, registry: Arc<Registry>) -> Result<u8> {
         settle::run::resolve::parsers_per_file(&a.parser, n).map_err(anyhow::Error::msg)?;
     let spec = config::from_files_with(&a.files, &parsers);
     if !a.follow {
-        let (run, _) = pipeline::read_run(&spec, registry)?;
+        let (run, _) = pipeline::read_run_with(&spec, registry, partial_line(a.include_partial))?;
         if a.json {
             let sources: Vec<_> = run.sources.iter().map(view::parse::source_json).collect();
             out(&format!(
@@ -605,15 +617,27 @@ fn cmd_parse(a: ParseArgs, registry: Arc<Registry>) -> Result<u8> {
 }
 
 /// `parse --follow`: print one line per new record as the files grow.
+///
+/// Records are printed from a store per source, so a file rewritten in place is not
+/// printed again: only records that differ from what was printed are (after a note).
 fn follow_records(spec: &RunSpec, registry: Arc<Registry>, poll: f64, json: bool) -> Result<u8> {
+    use settle::run::SourceStore;
+    use settle::run::ingest::{self, IngestItem, SourceActivity};
+
     let poll = Duration::from_secs_f64(poll.clamp(0.05, 60.0));
     let cfg = FollowConfig { poll_interval: poll, ..FollowConfig::default() };
     let mut readers = Vec::new();
     for s in &spec.sources {
         readers.push(SourceReader::new(s, registry.clone(), cfg.clone())?);
     }
-    let mut names: Vec<std::collections::HashMap<u32, String>> =
-        vec![Default::default(); readers.len()];
+    let n = readers.len();
+    let mut stores: Vec<SourceStore> =
+        readers.iter().map(|r| SourceStore::new(r.label(), "-")).collect();
+    let mut activity = vec![SourceActivity::default(); n];
+    // Records and events printed so far, and whether the end mark was.
+    let mut printed = vec![0usize; n];
+    let mut events = vec![0u64; n];
+    let mut ended = vec![false; n];
     let mut waker = Waker::new();
     loop {
         let dirty = waker.take_names_dirty();
@@ -626,42 +650,72 @@ fn follow_records(spec: &RunSpec, registry: Arc<Registry>, poll: f64, json: bool
             }
             let items = r.read(false)?;
             let mut o = String::new();
+            let store = &mut stores[i];
             for item in items {
-                use settle::run::ingest::IngestItem;
-                match item {
-                    IngestItem::Output(Output::Series(s)) => {
-                        names[i].insert(s.id, s.name);
-                    }
-                    IngestItem::Output(Output::Record(rec)) => {
-                        o.push_str(&view::parse::record_line(r.label(), &rec, &names[i], json));
-                    }
-                    IngestItem::Output(Output::Event(e)) if !json => {
-                        o.push_str(&format!(
-                            "{}: {} {}: {}\n",
-                            r.label(),
-                            e.severity.as_str(),
-                            e.rule,
-                            view::parse::clean(&e.message)
-                        ));
-                    }
-                    IngestItem::Output(Output::EndOfRun { message, .. }) if !json => {
-                        o.push_str(&format!(
-                            "{}: end of run: {}\n",
-                            r.label(),
-                            view::parse::clean(&message)
-                        ));
-                    }
-                    IngestItem::Restart(reason) => {
-                        names[i].clear();
-                        if !json {
-                            o.push_str(&format!("{}: restart ({reason:?})\n", r.label()));
-                        }
+                match &item {
+                    IngestItem::Restart(reason) if !json => {
+                        o.push_str(&format!("{}: restart ({reason:?})\n", r.label()));
                     }
                     IngestItem::Note(n) if !json => {
-                        o.push_str(&format!("{}: note: {}\n", r.label(), view::parse::clean(&n)));
+                        o.push_str(&format!("{}: note: {}\n", r.label(), view::parse::clean(n)));
                     }
                     _ => {}
                 }
+                ingest::apply(store, &mut activity[i], vec![item]);
+            }
+            if let Some(from) = store.take_rewound()
+                && from < printed[i]
+            {
+                if !json {
+                    o.push_str(&format!(
+                        "{}: file rewritten; records from number {} on replaced\n",
+                        r.label(),
+                        from + 1
+                    ));
+                }
+                printed[i] = from;
+            }
+            let names: std::collections::HashMap<u32, String> = store
+                .series()
+                .iter()
+                .enumerate()
+                .map(|(k, s)| (k as u32, s.name.clone()))
+                .collect();
+            for p in printed[i]..store.closed_records() {
+                if let Some(rec) = store.record_at(p) {
+                    o.push_str(&view::parse::record_line(r.label(), &rec, &names, json));
+                }
+            }
+            printed[i] = printed[i].max(store.closed_records());
+            let total = store.events_dropped + store.events.len() as u64;
+            events[i] = events[i].min(total);
+            let first =
+                usize::try_from(events[i].saturating_sub(store.events_dropped)).unwrap_or(0);
+            for e in store.events.iter().skip(first) {
+                if !json {
+                    o.push_str(&format!(
+                        "{}: {} {}: {}\n",
+                        r.label(),
+                        e.severity.as_str(),
+                        e.rule,
+                        view::parse::clean(&e.message)
+                    ));
+                }
+            }
+            events[i] = total;
+            match &store.ended {
+                Some((_, message)) if !ended[i] => {
+                    ended[i] = true;
+                    if !json {
+                        o.push_str(&format!(
+                            "{}: end of run: {}\n",
+                            r.label(),
+                            view::parse::clean(message)
+                        ));
+                    }
+                }
+                None => ended[i] = false,
+                _ => {}
             }
             if !o.is_empty() {
                 out(&o)?;
@@ -696,6 +750,11 @@ fn print_notes(notes: &[String]) {
     }
 }
 
+/// `--include-partial` as the pipeline's policy for a final line without a newline.
+fn partial_line(include: bool) -> pipeline::PartialLine {
+    if include { pipeline::PartialLine::Include } else { pipeline::PartialLine::default() }
+}
+
 fn judge_run(run: &RunStore, criteria: &Criteria) -> Judgement {
     judge::judge(&run.judge_input(), criteria)
 }
@@ -706,7 +765,7 @@ fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
     config::check_criteria(&spec.criteria).map_err(|(k, m)| {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
-    let (run, parsers) = pipeline::read_run(&spec, registry)?;
+    let (run, parsers) = pipeline::read_run_with(&spec, registry, partial_line(a.include_partial))?;
     let j = judge_run(&run, &spec.criteria);
     if a.json {
         out(&format!(
@@ -726,13 +785,14 @@ fn load_and_judge(
     parsers: &[String],
     criteria: &CriteriaArgs,
     registry: Arc<Registry>,
+    partial: pipeline::PartialLine,
 ) -> Result<(RunSpec, RunStore, Vec<String>, Judgement)> {
     let mut spec = resolve_run(paths, config_file, parsers, &registry)?;
     spec.criteria = spec.criteria.merged(&criteria.to_criteria());
     config::check_criteria(&spec.criteria).map_err(|(k, m)| {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
-    let (run, parsers) = pipeline::read_run(&spec, registry)?;
+    let (run, parsers) = pipeline::read_run_with(&spec, registry, partial)?;
     let j = judge_run(&run, &spec.criteria);
     Ok((spec, run, parsers, j))
 }
@@ -769,6 +829,7 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
                 &a.parser,
                 &a.criteria,
                 registry.clone(),
+                partial_line(a.include_partial),
             )
             .with_context(|| format!("mesh study run {}", path.display()))?;
             let m = j.monitors.iter().find(|m| m.series == monitor).with_context(|| {
@@ -795,8 +856,14 @@ fn cmd_report(a: ReportArgs, registry: Arc<Registry>) -> Result<u8> {
     if paths.is_empty() {
         bail!("give the run to report (PATH), or --mesh-study COARSE MEDIUM FINE");
     }
-    let (spec, run, parsers, j) =
-        load_and_judge(&paths, a.config.as_deref(), &a.parser, &a.criteria, registry.clone())?;
+    let (spec, run, parsers, j) = load_and_judge(
+        &paths,
+        a.config.as_deref(),
+        &a.parser,
+        &a.criteria,
+        registry.clone(),
+        partial_line(a.include_partial),
+    )?;
     let mut files = Vec::new();
     for s in &spec.sources {
         files.extend(settle::follow::matching_files(&s.path)?);

@@ -34,7 +34,7 @@ pub use detect::{Candidate, Detection, PatternHit};
 pub use error::DefinitionError;
 pub use number::{parse_integer, parse_number};
 
-use crate::record::{LineStats, Output};
+use crate::record::{Batch, LineStats, RecordRef, Sink};
 use compile::{Compiled, DetectRule, Program};
 
 /// The definitions shipped with settle, embedded in the binary.
@@ -142,15 +142,23 @@ enum Engine {
 impl Parser {
     /// One complete line without its `'\n'` (a trailing `'\r'` is removed). Line numbers are
     /// counted here, 1-based.
-    pub fn feed(&mut self, line: &[u8], out: &mut Vec<Output>) {
+    pub fn feed(&mut self, line: &[u8], out: &mut dyn Sink) {
         match &mut self.engine {
             Engine::Lines(p) => p.feed(line, out),
             Engine::Table(p) => p.feed(line, out),
         }
     }
 
+    /// Complete lines, each ending in `'\n'` (what [`feed`](Self::feed) takes, many at once).
+    pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
+        match &mut self.engine {
+            Engine::Lines(p) => p.feed_block(block, out),
+            Engine::Table(p) => p.feed_block(block, out),
+        }
+    }
+
     /// End of data: emit the record still open (a log ending mid-record, as after a crash).
-    pub fn finish(&mut self, out: &mut Vec<Output>) {
+    pub fn finish(&mut self, out: &mut dyn Sink) {
         match &mut self.engine {
             Engine::Lines(p) => p.finish(out),
             Engine::Table(p) => p.finish(out),
@@ -161,6 +169,41 @@ impl Parser {
         match &self.engine {
             Engine::Lines(p) => p.stats(),
             Engine::Table(p) => p.stats(),
+        }
+    }
+
+    /// The record a `lines` parser holds open until the next step line closes it, with the
+    /// values read so far (a live view may show it once the log has been quiet a while).
+    pub fn open_record(&self) -> Option<RecordRef<'_>> {
+        match &self.engine {
+            Engine::Lines(p) => p.open_record(),
+            Engine::Table(_) => None,
+        }
+    }
+
+    /// A parser for a later part of the file, to be read on another core while this one
+    /// reads the parts before it; see [`join`](Self::join).
+    pub fn speculative(&self) -> Parser {
+        let engine = match &self.engine {
+            Engine::Lines(p) => Engine::Lines(p.speculative()),
+            Engine::Table(p) => Engine::Table(p.speculative()),
+        };
+        Parser { engine }
+    }
+
+    /// `self` has read everything before `part`; `worker` (from [`speculative`](
+    /// Self::speculative), made before the parts preceding `part` were read) has read `part`
+    /// into `batch`. Hand `out` exactly what `self` reading `part` would have, and continue
+    /// in the state that would leave. Each engine says why its hand-over is exact, and reads
+    /// `part` itself when it cannot show it. Returns whether the worker's reading was used.
+    pub fn join(&mut self, part: &[u8], worker: Parser, batch: &Batch, out: &mut dyn Sink) -> bool {
+        match (&mut self.engine, worker.engine) {
+            (Engine::Lines(p), Engine::Lines(w)) => p.join(part, w, batch, out),
+            (Engine::Table(p), Engine::Table(w)) => p.join(part, w, batch, out),
+            _ => {
+                self.feed_block(part, out);
+                false
+            }
         }
     }
 }

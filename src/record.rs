@@ -1,10 +1,15 @@
 //! The vocabulary shared by parsers, the store and the views: what one parsed line can yield.
 //!
-//! Parsers produce [`Output`] items; the run store consumes them. Keeping these types in one
-//! small module lets the parser engines and the store evolve separately without importing
-//! each other.
+//! Parsers hand what they read to a [`Sink`]: the run store itself (one-shot reads stream
+//! straight into its columns), a compact batch (the live ingest thread), or a `Vec` of owned
+//! [`Output`] items (tests, `parse --follow`). Keeping these types in one small module lets
+//! the parser engines and the store evolve separately without importing each other.
+
+mod batch;
 
 use serde::{Deserialize, Serialize};
+
+pub use batch::{Batch, BatchItem, Column};
 
 /// How the judge treats a series (DESIGN §4).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
@@ -84,6 +89,41 @@ pub struct Record {
     pub line: u64,
 }
 
+/// A record as a parser hands it to a [`Sink`]: borrowed, so closing a record allocates
+/// nothing (the values live in the parser's reusable buffer until the sink has copied them).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RecordRef<'a> {
+    pub iteration: Option<i64>,
+    pub time: Option<f64>,
+    pub values: &'a [(SeriesId, f64)],
+    /// 1-based line number of the line that opened the record.
+    pub line: u64,
+}
+
+impl RecordRef<'_> {
+    /// An owned copy.
+    pub fn to_record(&self) -> Record {
+        Record {
+            iteration: self.iteration,
+            time: self.time,
+            values: self.values.to_vec(),
+            line: self.line,
+        }
+    }
+}
+
+impl Record {
+    /// A borrowed view.
+    pub fn as_ref(&self) -> RecordRef<'_> {
+        RecordRef {
+            iteration: self.iteration,
+            time: self.time,
+            values: &self.values,
+            line: self.line,
+        }
+    }
+}
+
 /// A message the parser recognised (warning, error, crash signature, solver's own
 /// convergence mark).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -125,6 +165,59 @@ pub enum Output {
     Skipped(Skip),
 }
 
+/// Where parsers put what they read, in file order.
+///
+/// A series is announced ([`Sink::series`]) before the first record that uses its id. Ids
+/// belong to one parser instance; a sink that receives the output of several instances
+/// (restarts, parts of a file parsed in parallel) maps them by the announcement that came
+/// last, and every instance announces each id it uses before using it.
+pub trait Sink {
+    fn series(&mut self, info: SeriesInfo);
+    fn record(&mut self, rec: RecordRef<'_>);
+    fn event(&mut self, ev: Event);
+    /// The solver's end-of-run mark.
+    fn end_of_run(&mut self, line: u64, message: String);
+    fn skipped(&mut self, skip: Skip);
+
+    /// All of `b` (from its second record on, and nothing before that, with
+    /// `after_first_record`), with `line_offset` added to its line numbers. A store takes the
+    /// values a series at a time; other sinks get the items one by one.
+    fn batch(&mut self, b: &Batch, line_offset: u64, after_first_record: bool) {
+        b.replay_from(usize::from(after_first_record), line_offset, self);
+    }
+}
+
+impl Sink for Vec<Output> {
+    fn series(&mut self, info: SeriesInfo) {
+        self.push(Output::Series(info));
+    }
+    fn record(&mut self, rec: RecordRef<'_>) {
+        self.push(Output::Record(rec.to_record()));
+    }
+    fn event(&mut self, ev: Event) {
+        self.push(Output::Event(ev));
+    }
+    fn end_of_run(&mut self, line: u64, message: String) {
+        self.push(Output::EndOfRun { line, message });
+    }
+    fn skipped(&mut self, skip: Skip) {
+        self.push(Output::Skipped(skip));
+    }
+}
+
+impl Output {
+    /// Hand this item to a sink.
+    pub fn send_to(self, sink: &mut dyn Sink) {
+        match self {
+            Output::Series(info) => sink.series(info),
+            Output::Record(r) => sink.record(r.as_ref()),
+            Output::Event(e) => sink.event(e),
+            Output::EndOfRun { line, message } => sink.end_of_run(line, message),
+            Output::Skipped(s) => sink.skipped(s),
+        }
+    }
+}
+
 /// Cumulative line counts of one parser (one source).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 pub struct LineStats {
@@ -136,4 +229,26 @@ pub struct LineStats {
     pub skipped: u64,
     /// Lines no rule was interested in (banner text, blank lines).
     pub ignored: u64,
+}
+
+impl LineStats {
+    /// The counts of `self` and `other` together.
+    pub fn plus(self, other: LineStats) -> LineStats {
+        LineStats {
+            lines: self.lines + other.lines,
+            used: self.used + other.used,
+            skipped: self.skipped + other.skipped,
+            ignored: self.ignored + other.ignored,
+        }
+    }
+
+    /// The counts of `self` beyond `base` (`base` counted before `self`, by the same parser).
+    pub fn since(self, base: LineStats) -> LineStats {
+        LineStats {
+            lines: self.lines.saturating_sub(base.lines),
+            used: self.used.saturating_sub(base.used),
+            skipped: self.skipped.saturating_sub(base.skipped),
+            ignored: self.ignored.saturating_sub(base.ignored),
+        }
+    }
 }

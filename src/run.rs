@@ -2,6 +2,7 @@
 //! downsampling, and the ingest pipeline that moves followed lines through parsers into the
 //! store.
 
+pub mod bulk;
 pub mod config;
 pub mod downsample;
 pub mod headless;

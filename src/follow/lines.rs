@@ -13,9 +13,49 @@
 //!   memory stays bounded by `max` however long a line without a newline grows.
 //!
 //! It is a pure state machine over byte slices: no I/O, no clocks. Complete lines that lie
-//! wholly inside one chunk are handed out as slices of that chunk without copying.
+//! wholly inside one chunk are handed out as slices of that chunk without copying. The part
+//! of a chunk after its last `\r` or NUL (all of it, in an ordinary log) is split on `\n`
+//! alone, with no per-line look for `\r` or NUL.
 
-use memchr::{memchr2, memrchr};
+use memchr::{memchr2, memrchr, memrchr2};
+
+/// Index of the first `\n` in `hay`.
+///
+/// Log lines are short (tens of bytes), where the per-call setup of a vectorised search costs
+/// more than the search: the first 64 bytes are looked at eight at a time in a `u64`
+/// (a zero-byte test on `word ^ 0x0a0a…`), and only a longer line is handed to `memchr`.
+#[inline]
+pub fn find_newline(hay: &[u8]) -> Option<usize> {
+    const LO: u64 = 0x0101_0101_0101_0101;
+    const HI: u64 = 0x8080_8080_8080_8080;
+    const NL: u64 = LO * b'\n' as u64;
+    let head = hay.len().min(64);
+    let mut i = 0;
+    while i + 8 <= head {
+        let Ok(bytes) = <[u8; 8]>::try_from(&hay[i..i + 8]) else { break };
+        let w = u64::from_le_bytes(bytes) ^ NL;
+        // The lowest flagged byte is the first zero byte (borrows only flag bytes above it).
+        let zero = w.wrapping_sub(LO) & !w & HI;
+        if zero != 0 {
+            return Some(i + (zero.trailing_zeros() / 8) as usize);
+        }
+        i += 8;
+    }
+    if let Some(p) = hay[i..head].iter().position(|&b| b == b'\n') {
+        return Some(i + p);
+    }
+    memchr::memchr(b'\n', &hay[head..]).map(|p| head + p)
+}
+
+/// The complete lines of `block` (each ending in `\n`), without their `\n`.
+#[inline]
+pub fn each_line(block: &[u8], mut f: impl FnMut(&[u8])) {
+    let mut rest = block;
+    while let Some(nl) = find_newline(rest) {
+        f(&rest[..nl]);
+        rest = &rest[nl + 1..];
+    }
+}
 
 /// One line handed out by [`LineSplitter`].
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -59,8 +99,15 @@ impl LineSplitter {
 
     /// Feed the next bytes of the stream; `out` receives every line completed by them.
     pub fn feed(&mut self, data: &[u8], out: &mut dyn FnMut(Line<'_>)) {
+        // From here on the chunk has no `\r` and no NUL.
+        let clean_from = memrchr2(b'\r', 0, data).map_or(0, |i| i + 1);
         let mut rest = data;
         while !rest.is_empty() {
+            let at = data.len() - rest.len();
+            if at >= clean_from && self.carry.is_empty() && !self.overflowed && !self.pending_cr {
+                self.feed_clean(rest, out);
+                return;
+            }
             match memchr2(b'\n', 0, rest) {
                 Some(i) if rest[i] == b'\n' => {
                     self.segment(&rest[..i], true, out);
@@ -78,6 +125,20 @@ impl LineSplitter {
                 }
             }
         }
+    }
+
+    /// [`feed`](Self::feed) for bytes without `\r` or NUL, with nothing carried over.
+    fn feed_clean(&mut self, data: &[u8], out: &mut dyn FnMut(Line<'_>)) {
+        let mut rest = data;
+        while let Some(nl) = find_newline(rest) {
+            let line = &rest[..nl];
+            let truncated = line.len() > self.max;
+            let bytes = if truncated { &line[..self.max] } else { line };
+            self.long += u64::from(truncated);
+            out(Line { bytes, truncated });
+            rest = &rest[nl + 1..];
+        }
+        self.append(rest);
     }
 
     /// End of data: hand out the unterminated line, if there is one.
@@ -323,6 +384,25 @@ mod tests {
         s.reset();
         s.feed(b"new\n", &mut |l| got.push(l.bytes.to_vec()));
         assert_eq!(got, [b"new".to_vec()]);
+    }
+
+    #[test]
+    fn newlines_are_found_at_every_offset_and_length() {
+        for len in 0..200 {
+            for at in 0..=len {
+                let mut hay = vec![b'x'; len];
+                if at < len {
+                    hay[at] = b'\n';
+                }
+                let want = (at < len).then_some(at);
+                assert_eq!(find_newline(&hay), want, "len {len} newline at {at}");
+            }
+        }
+        // Bytes that differ from `\n` only in the high bit, or that borrow, are not newlines.
+        assert_eq!(find_newline(&[0x8a, 0x0b, 0x09, 0x00, 0xff, 0x0a]), Some(5));
+        let mut lines = Vec::new();
+        each_line(b"a\n\nbc\n", |l| lines.push(l.to_vec()));
+        assert_eq!(lines, [b"a".to_vec(), b"".to_vec(), b"bc".to_vec()]);
     }
 
     proptest! {

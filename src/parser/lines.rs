@@ -1,32 +1,26 @@
 //! The `lines` engine: regex rules over free-text logs, one line at a time.
 //!
 //! A compiled [`LinesProgram`] (built by `lines/compile.rs` from the raw definition) is shared
-//! read-only by every [`LinesParser`]; the parser owns only its mutable state. For each line:
+//! read-only by every [`LinesParser`]; the parser owns only its mutable state (`state.rs`),
+//! including the values of the open record (`accum.rs`). What one line does is described in
+//! `state.rs`.
 //!
-//! 1. before the `start_after` marker has been seen, only event and end rules apply (a crash
-//!    while reading the mesh is still reported; banner lines cannot open records);
-//! 2. the first matching step rule closes the open record (emitting it) and opens a new one,
-//!    taking over any values that were waiting for it (`attach = "next"`);
-//! 3. every value rule is tried, then every event rule, then the end rules;
-//! 4. anchors (`after = "..."`) are updated last, so an anchor line itself is not "after" it
-//!    (an anchor line counts as used).
-//!
-//! The common path allocates nothing: prefilters reject most rules with a prefix or `memmem`
-//! test, captures are read into per-rule reusable `CaptureLocations`, numbers are parsed from
-//! the bytes, and series ids are found by byte lookups. Allocation happens when a record is
-//! emitted, a series is first seen, or an event or skip reason is produced.
+//! A parser can also start in the middle of a file ([`LinesParser::speculative`]), so that the
+//! parts of a large file are read on several cores. Such a parser notes where it first closed
+//! a record; from that line on its state no longer depends on what came before its first
+//! line, and [`LinesParser::join`] lets the parser of the preceding part read up to there and
+//! hand over (see the method for why the result is the serial one).
 
+mod accum;
 pub mod compile;
+mod state;
 
 use std::sync::Arc;
 
-use super::matcher::{Captures, Gate, Matcher, leading_ws};
-use super::number::{parse_integer, parse_number};
-use super::series::{FnvMap, LineUse, SeriesTable, Tally, clean_text, excerpt};
-use crate::record::{Event, LineStats, Output, Record, Role, SeriesId, Severity};
-
-/// Most values one record may hold (repeat policy `all` over a huge step-less stretch).
-const MAX_RECORD_VALUES: usize = 100_000;
+use super::matcher::{Gate, Matcher, Prefilter};
+use super::series::MAX_SERIES;
+use crate::record::{Batch, LineStats, RecordRef, Role, Severity, Sink};
+use state::State;
 
 /// What a rule does.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -127,14 +121,45 @@ pub struct Dispatch {
     after_blanks: Box<[u64; 257]>,
     /// Rules with no usable gate.
     always: u64,
+    /// Rules 0–63 of each kind (step, value, event, end), as masks.
+    kinds: [u64; 4],
+    /// Rules past the 64th, of each kind, in order.
+    beyond: [Vec<usize>; 4],
+    /// Rules 0–63 that need a literal somewhere in the line (bit, rule): searched for in a
+    /// whole block at once by [`LinesParser::feed_block`].
+    literal: Vec<(u64, usize)>,
+}
+
+fn kind_index(k: Kind) -> usize {
+    match k {
+        Kind::Step => 0,
+        Kind::Value => 1,
+        Kind::Event => 2,
+        Kind::End => 3,
+    }
 }
 
 impl Dispatch {
     pub fn new(rules: &[Rule]) -> Dispatch {
-        let mut d =
-            Dispatch { col0: Box::new([0; 257]), after_blanks: Box::new([0; 257]), always: 0 };
-        for (r, rule) in rules.iter().enumerate().take(64) {
+        let mut d = Dispatch {
+            col0: Box::new([0; 257]),
+            after_blanks: Box::new([0; 257]),
+            always: 0,
+            kinds: [0; 4],
+            beyond: Default::default(),
+            literal: Vec::new(),
+        };
+        for (r, rule) in rules.iter().enumerate() {
+            let k = kind_index(rule.kind);
+            if r >= 64 {
+                d.beyond[k].push(r);
+                continue;
+            }
             let bit = 1u64 << r;
+            d.kinds[k] |= bit;
+            if matches!(rule.matcher.prefilter, Prefilter::Contains(_)) {
+                d.literal.push((bit, r));
+            }
             match rule.matcher.gate() {
                 Gate::Any => d.always |= bit,
                 Gate::Col0(set) => {
@@ -156,124 +181,24 @@ impl Dispatch {
         d
     }
 
-    /// The rules `line` (with `ws` leading blanks) may match.
+    /// The rules 0–63 `line` (with `ws` leading blanks) may match.
     #[inline]
-    fn candidates(&self, line: &[u8], ws: usize) -> Candidates {
+    fn candidates(&self, line: &[u8], ws: usize) -> u64 {
         let at = |i: usize| line.get(i).map_or(256, |&b| usize::from(b));
-        Candidates(self.always | self.col0[at(0)] | self.after_blanks[at(ws)])
+        self.always | self.col0[at(0)] | self.after_blanks[at(ws)]
     }
-}
 
-/// A set of rule indices from [`Dispatch::candidates`].
-#[derive(Debug, Clone, Copy)]
-struct Candidates(u64);
-
-impl Candidates {
+    /// Rules 0–63 of kind `k`.
     #[inline]
-    fn has(self, r: usize) -> bool {
-        r >= 64 || (self.0 >> r) & 1 != 0
-    }
-}
-
-/// Values gathered for one record, with the repeat policy applied as they arrive.
-#[derive(Debug, Clone)]
-struct Accum {
-    values: Vec<(SeriesId, f64)>,
-    /// Generation of this record; `slot_gen[s] == generation` means series `s` has a slot.
-    generation: u64,
-    slot_gen: Vec<u64>,
-    slot_idx: Vec<u32>,
-}
-
-impl Accum {
-    fn new() -> Accum {
-        Accum { values: Vec::new(), generation: 1, slot_gen: Vec::new(), slot_idx: Vec::new() }
+    fn kind(&self, k: Kind) -> u64 {
+        self.kinds[kind_index(k)]
     }
 
-    /// Add a value; `false` when the record is full.
-    fn push(&mut self, s: SeriesId, v: f64, repeat: Repeat) -> bool {
-        let si = s as usize;
-        if repeat == Repeat::All {
-            if self.values.len() >= MAX_RECORD_VALUES {
-                return false;
-            }
-            self.values.push((s, v));
-            return true;
-        }
-        if si >= self.slot_gen.len() {
-            self.slot_gen.resize(si + 1, 0);
-            self.slot_idx.resize(si + 1, 0);
-        }
-        if self.slot_gen[si] == self.generation {
-            let slot = &mut self.values[self.slot_idx[si] as usize].1;
-            let old = *slot;
-            *slot = match repeat {
-                Repeat::First | Repeat::All => old,
-                Repeat::Last => v,
-                // A nan among the matches wins: it is the signal, not noise.
-                Repeat::Min if old.is_nan() || v.is_nan() => f64::NAN,
-                Repeat::Max if old.is_nan() || v.is_nan() => f64::NAN,
-                Repeat::Min => old.min(v),
-                Repeat::Max => old.max(v),
-            };
-            return true;
-        }
-        if self.values.len() >= MAX_RECORD_VALUES {
-            return false;
-        }
-        self.slot_gen[si] = self.generation;
-        self.slot_idx[si] = self.values.len() as u32;
-        self.values.push((s, v));
-        true
+    /// Rules past the 64th of kind `k`.
+    #[inline]
+    fn beyond(&self, k: Kind) -> &[usize] {
+        &self.beyond[kind_index(k)]
     }
-
-    /// Hand out the values and start an empty record.
-    fn take(&mut self) -> Vec<(SeriesId, f64)> {
-        self.generation += 1;
-        let cap = self.values.len();
-        std::mem::replace(&mut self.values, Vec::with_capacity(cap))
-    }
-
-    fn clear(&mut self) {
-        self.generation += 1;
-        self.values.clear();
-    }
-}
-
-/// Mutable per-rule state.
-#[derive(Debug, Clone)]
-struct RuleState {
-    locs: Captures,
-    /// Series id of each value capture with a fixed name, once created.
-    fixed: Vec<Option<SeriesId>>,
-    /// Captured name bytes → row of `named_ids`: one lookup per line, however many value
-    /// captures use `{name}`.
-    names: FnvMap<Box<[u8]>, usize>,
-    /// Row-major, one row per known name and one column per value capture: the series id of
-    /// that capture for that name, once created.
-    named_ids: Vec<Option<SeriesId>>,
-    /// Scope in which this (event) rule last fired, for `repeat = "first"`.
-    fired_scope: u64,
-}
-
-/// The record being filled.
-#[derive(Debug, Clone, Copy)]
-struct OpenRecord {
-    iteration: Option<i64>,
-    time: Option<f64>,
-    line: u64,
-}
-
-/// A failure on the current line, formatted only if it will be reported.
-#[derive(Debug, Clone, Copy)]
-enum Failure {
-    NotANumber { rule: usize, capture: usize, span: (usize, usize) },
-    BadIteration { rule: usize, span: (usize, usize) },
-    BadTime { rule: usize, span: (usize, usize) },
-    NoRecord { rule: usize },
-    NoName { rule: usize },
-    TooManySeries { rule: usize },
-    RecordFull { rule: usize },
 }
 
 /// A running `lines` parser for one source.
@@ -281,63 +206,62 @@ enum Failure {
 pub struct LinesParser {
     prog: Arc<LinesProgram>,
     st: State,
-}
-
-#[derive(Debug, Clone)]
-struct State {
-    line_no: u64,
-    tally: Tally,
-    started: bool,
-    open: Option<OpenRecord>,
-    cur: Accum,
-    pending: Accum,
-    /// Incremented whenever a record opens; anchors and `first` events are per scope.
-    scope: u64,
-    anchor_seen: Vec<u64>,
-    /// Capture storage for each anchor, and for the `start_after` marker.
-    anchor_caps: Vec<Captures>,
-    start_caps: Option<Captures>,
-    rules: Vec<RuleState>,
-    series: SeriesTable,
-    failure: Option<Failure>,
+    /// Series the parser already knew when it was made by [`LinesParser::speculative`].
+    base_series: usize,
 }
 
 impl LinesParser {
     pub fn new(prog: Arc<LinesProgram>) -> LinesParser {
-        let rules = prog
-            .rules
-            .iter()
-            .map(|r| RuleState {
-                locs: r.matcher.captures_storage(),
-                fixed: vec![None; r.values.len()],
-                names: FnvMap::default(),
-                named_ids: Vec::new(),
-                fired_scope: 0,
-            })
-            .collect();
-        let st = State {
-            line_no: 0,
-            tally: Tally::default(),
-            started: prog.start_after.is_none(),
-            open: None,
-            cur: Accum::new(),
-            pending: Accum::new(),
-            scope: 1,
-            anchor_seen: vec![0; prog.anchors.len()],
-            anchor_caps: prog.anchors.iter().map(Matcher::captures_storage).collect(),
-            start_caps: prog.start_after.as_ref().map(Matcher::captures_storage),
-            rules,
-            series: SeriesTable::default(),
-            failure: None,
-        };
-        LinesParser { prog, st }
+        let st = State::new(&prog);
+        LinesParser { prog, st, base_series: 0 }
     }
 
-    pub fn feed(&mut self, line: &[u8], out: &mut Vec<Output>) {
-        self.st.feed(&self.prog, line, out);
+    pub fn feed(&mut self, line: &[u8], out: &mut dyn Sink) {
+        self.st.feed(&self.prog, line, 0, out);
     }
 
-    pub fn finish(&mut self, out: &mut Vec<Output>) {
+    /// Feed every line of `block`: complete lines, each ending in `\n`.
+    ///
+    /// Rules that need a literal anywhere in the line (`literal = "..."`, or an unanchored
+    /// pattern starting with one) are not tested line by line: each literal is searched for
+    /// in the block, as a scanner does, and a rule is left out of every line before its next
+    /// occurrence.
+    pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
+        let Self { prog, st, .. } = self;
+        let lits = &prog.dispatch.literal;
+        if lits.is_empty() {
+            crate::follow::lines::each_line(block, |line| st.feed(prog, line, 0, out));
+            return;
+        }
+        // Where each literal next occurs at or after the current line (`None`: not looked
+        // for since that line began; `usize::MAX`: nowhere).
+        let mut next: Vec<Option<usize>> = vec![None; lits.len()];
+        let mut start = 0;
+        crate::follow::lines::each_line(block, |line| {
+            let end = start + line.len();
+            let mut absent = 0u64;
+            for (k, &(bit, r)) in lits.iter().enumerate() {
+                let at = match next[k] {
+                    Some(p) if p >= start => p,
+                    _ => {
+                        let Prefilter::Contains(f) = &prog.rules[r].matcher.prefilter else {
+                            continue;
+                        };
+                        let p = f.find(&block[start..]).map_or(usize::MAX, |p| start + p);
+                        next[k] = Some(p);
+                        p
+                    }
+                };
+                if at >= end {
+                    absent |= bit;
+                }
+            }
+            st.feed(prog, line, absent, out);
+            start = end + 1;
+        });
+    }
+
+    pub fn finish(&mut self, out: &mut dyn Sink) {
         self.st.close_record(out);
         self.st.pending.clear();
     }
@@ -345,340 +269,76 @@ impl LinesParser {
     pub fn stats(&self) -> LineStats {
         self.st.tally.stats
     }
-}
 
-impl State {
-    fn feed(&mut self, prog: &LinesProgram, raw: &[u8], out: &mut Vec<Output>) {
-        self.line_no += 1;
-        self.tally.stats.lines += 1;
-        let line = raw.strip_suffix(b"\r").unwrap_or(raw);
-        let ws = leading_ws(line);
-        self.failure = None;
-        let mut used = LineUse::Ignored;
-
-        let steps_apply = self.started;
-        if !self.started
-            && let Some(marker) = &prog.start_after
-            && let Some(caps) = &mut self.start_caps
-            && marker.find(line, ws, caps)
-        {
-            self.started = true;
-        }
-        let cand = prog.dispatch.candidates(line, ws);
-        if steps_apply {
-            for &r in &prog.steps {
-                if !cand.has(r) {
-                    continue;
-                }
-                let u = self.step_rule(prog, r, line, ws, out);
-                if u != LineUse::Ignored {
-                    used = used.and(u);
-                    break;
-                }
-            }
-            for &r in &prog.values {
-                if cand.has(r) {
-                    used = used.and(self.value_rule(prog, r, line, ws, out));
-                }
-            }
-        }
-        for &r in &prog.events {
-            if cand.has(r) {
-                used = used.and(self.event_rule(prog, r, line, ws, out));
-            }
-        }
-        for &r in &prog.ends {
-            if cand.has(r) && self.end_rule(prog, r, line, ws, out) {
-                used = used.and(LineUse::Used);
-                break;
-            }
-        }
-        for (i, anchor) in prog.anchors.iter().enumerate() {
-            if self.anchor_seen[i] != self.scope && anchor.find(line, ws, &mut self.anchor_caps[i])
-            {
-                self.anchor_seen[i] = self.scope;
-                used = used.and(LineUse::Used);
-            }
-        }
-
-        match used {
-            LineUse::Ignored => self.tally.stats.ignored += 1,
-            LineUse::Used => self.tally.stats.used += 1,
-            LineUse::Skipped => {
-                let failure = self.failure;
-                self.tally.skip(self.line_no, out, || describe(prog, line, failure));
-            }
-        }
+    /// The record still open (held until the next step line closes it), as it stands.
+    pub fn open_record(&self) -> Option<RecordRef<'_>> {
+        self.st.open_record()
     }
 
-    fn fail(&mut self, f: Failure) -> LineUse {
-        if self.failure.is_none() {
-            self.failure = Some(f);
-        }
-        LineUse::Skipped
+    /// A parser for a later part of the same file, to be read while this one reads the parts
+    /// before it: it knows this parser's series (so their ids agree) but nothing of the open
+    /// record, it assumes the `start_after` marker has been seen, and it notes where it first
+    /// closes a record. Its line numbers start again at 1.
+    pub fn speculative(&self) -> LinesParser {
+        let mut st = State::new(&self.prog);
+        st.started = true;
+        st.rules = self.st.rules.clone();
+        st.series = self.st.series.clone();
+        st.track_mark = true;
+        LinesParser { prog: self.prog.clone(), st, base_series: self.st.series.len() }
     }
 
-    fn close_record(&mut self, out: &mut Vec<Output>) {
-        if let Some(open) = self.open.take() {
-            out.push(Output::Record(Record {
-                iteration: open.iteration,
-                time: open.time,
-                values: self.cur.take(),
-                line: open.line,
-            }));
-        }
-    }
-
-    fn step_rule(
+    /// Continue after `part`, which `worker` (made by [`speculative`](Self::speculative)
+    /// from a parser in the state `self` had before reading the parts preceding `part`) has
+    /// read into `batch`; `self` has read everything before `part`. Everything `part` yields
+    /// goes to `out` exactly as if `self` had read `part` itself, and `self` becomes the
+    /// parser a serial read would have at the end of `part`.
+    ///
+    /// Why this is exact: up to the first record the worker closes, its view differs from a
+    /// serial one (it did not see the record open at its first line, nor values waiting for
+    /// the next step line); so `self` reads those lines itself and closes that record. From
+    /// there on the two states agree: the record closed, the values waiting for the next
+    /// step are the ones printed since the step that opened it (read by both), anchors and
+    /// `first` events are per record, and `started` was true for both. The worker's output
+    /// after that record is then the serial output, with its ids announced again and its line
+    /// numbers shifted. When that cannot be shown (no marker seen yet, no record closed in the
+    /// part, series near the cap) `self` simply reads the whole part.
+    /// Returns whether the worker's reading was used (else `self` read `part`).
+    pub fn join(
         &mut self,
-        prog: &LinesProgram,
-        r: usize,
-        line: &[u8],
-        ws: usize,
-        out: &mut Vec<Output>,
-    ) -> LineUse {
-        let rule = &prog.rules[r];
-        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
-            return LineUse::Ignored;
-        }
-        let mut result = LineUse::Used;
-        let locs = &self.rules[r].locs;
-        let mut iteration = None;
-        if let Some((s, e)) = rule.iteration_group.and_then(|g| locs.get(g)) {
-            iteration = parse_integer(&line[s..e]);
-            if iteration.is_none() {
-                self.failure.get_or_insert(Failure::BadIteration { rule: r, span: (s, e) });
-                result = LineUse::Skipped;
-            }
-        }
-        let mut time = None;
-        if let Some((s, e)) = rule.time_group.and_then(|g| locs.get(g)) {
-            time = parse_number(&line[s..e]);
-            if time.is_none() {
-                self.failure.get_or_insert(Failure::BadTime { rule: r, span: (s, e) });
-                result = LineUse::Skipped;
-            }
-        }
-        self.close_record(out);
-        self.open = Some(OpenRecord { iteration, time, line: self.line_no });
-        // Values printed before this step line become the new record's first values.
-        std::mem::swap(&mut self.cur, &mut self.pending);
-        self.pending.clear();
-        self.scope += 1;
-        result.and(self.take_values(prog, r, line, false, out))
-    }
-
-    fn value_rule(
-        &mut self,
-        prog: &LinesProgram,
-        r: usize,
-        line: &[u8],
-        ws: usize,
-        out: &mut Vec<Output>,
-    ) -> LineUse {
-        let rule = &prog.rules[r];
-        if let Some(a) = rule.after
-            && self.anchor_seen[a] != self.scope
-        {
-            return LineUse::Ignored;
-        }
-        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
-            return LineUse::Ignored;
-        }
-        let next = rule.attach == Attach::Next;
-        if !next && self.open.is_none() {
-            return self.fail(Failure::NoRecord { rule: r });
-        }
-        self.take_values(prog, r, line, next, out)
-    }
-
-    /// Read the value captures of rule `r` (whose captures are in its `locs`).
-    fn take_values(
-        &mut self,
-        prog: &LinesProgram,
-        r: usize,
-        line: &[u8],
-        next: bool,
-        out: &mut Vec<Output>,
-    ) -> LineUse {
-        let rule = &prog.rules[r];
-        let mut result = LineUse::Used;
-        let State { rules, series, cur, pending, failure, .. } = self;
-        let rs = &mut rules[r];
-        let target = if next { pending } else { cur };
-        let name = rule.name_group.and_then(|g| rs.locs.get(g)).map(|(s, e)| &line[s..e]);
-        let width = rule.values.len();
-        // The row of `name` in `named_ids`, found on first need (`None`: not cached).
-        let mut row: Option<Option<usize>> = None;
-        for (ci, vc) in rule.values.iter().enumerate() {
-            let Some((s, e)) = rs.locs.get(vc.group) else { continue };
-            let Some(v) = parse_number(&line[s..e]) else {
-                failure.get_or_insert(Failure::NotANumber { rule: r, capture: ci, span: (s, e) });
-                result = LineUse::Skipped;
-                continue;
-            };
-            let id = if vc.uses_name {
-                let Some(key) = name else {
-                    failure.get_or_insert(Failure::NoName { rule: r });
-                    result = LineUse::Skipped;
-                    continue;
-                };
-                let at = *row.get_or_insert_with(|| {
-                    if let Some(&at) = rs.names.get(key) {
-                        return Some(at);
-                    }
-                    // Junk names could otherwise grow the cache without bound.
-                    if rs.names.len() >= 4 * super::series::MAX_SERIES {
-                        return None;
-                    }
-                    let at = rs.names.len();
-                    rs.names.insert(key.into(), at);
-                    rs.named_ids.resize(rs.named_ids.len() + width, None);
-                    Some(at)
-                });
-                let cell = at.map(|at| at * width + ci);
-                match cell.and_then(|c| rs.named_ids.get(c).copied().flatten()) {
-                    Some(id) => Some(id),
-                    None => {
-                        let cleaned = clean_text(key);
-                        if cleaned.is_empty() {
-                            failure.get_or_insert(Failure::NoName { rule: r });
-                            result = LineUse::Skipped;
-                            continue;
-                        }
-                        let id =
-                            series.intern(&vc.series.replace("{name}", &cleaned), vc.role, out);
-                        if let Some(c) = cell.and_then(|c| rs.named_ids.get_mut(c)) {
-                            *c = id;
-                        }
-                        id
-                    }
-                }
-            } else {
-                match rs.fixed[ci] {
-                    Some(id) => Some(id),
-                    None => {
-                        let id = series.intern(&vc.series, vc.role, out);
-                        rs.fixed[ci] = id;
-                        id
-                    }
-                }
-            };
-            let Some(id) = id else {
-                failure.get_or_insert(Failure::TooManySeries { rule: r });
-                result = LineUse::Skipped;
-                continue;
-            };
-            if !target.push(id, v, rule.repeat) {
-                failure.get_or_insert(Failure::RecordFull { rule: r });
-                result = LineUse::Skipped;
-            }
-        }
-        result
-    }
-
-    fn event_rule(
-        &mut self,
-        prog: &LinesProgram,
-        r: usize,
-        line: &[u8],
-        ws: usize,
-        out: &mut Vec<Output>,
-    ) -> LineUse {
-        let rule = &prog.rules[r];
-        if let Some(a) = rule.after
-            && self.anchor_seen[a] != self.scope
-        {
-            return LineUse::Ignored;
-        }
-        let rs = &mut self.rules[r];
-        if !rule.matcher.find(line, ws, &mut rs.locs) {
-            return LineUse::Ignored;
-        }
-        if rule.repeat == Repeat::First {
-            if rs.fired_scope == self.scope {
-                return LineUse::Used;
-            }
-            rs.fired_scope = self.scope;
-        }
-        let text = match rule.message_group.and_then(|g| rs.locs.get(g)) {
-            Some((s, e)) => &line[s..e],
-            None => line,
-        };
-        out.push(Output::Event(Event {
-            severity: rule.severity,
-            rule: rule.event_name.clone(),
-            message: clean_text(text),
-            line: self.line_no,
-            iteration: self.open.and_then(|o| o.iteration),
-        }));
-        LineUse::Used
-    }
-
-    fn end_rule(
-        &mut self,
-        prog: &LinesProgram,
-        r: usize,
-        line: &[u8],
-        ws: usize,
-        out: &mut Vec<Output>,
+        part: &[u8],
+        mut worker: LinesParser,
+        batch: &Batch,
+        out: &mut dyn Sink,
     ) -> bool {
-        let rule = &prog.rules[r];
-        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
+        let base = self.st.line_no;
+        let new_series = worker.st.series.len() - worker.base_series;
+        let usable = self.st.started
+            && worker.st.mark.is_some()
+            && self.st.series.len() + new_series <= MAX_SERIES;
+        let Some(mark) = worker.st.mark.filter(|_| usable) else {
+            self.feed_block(part, out);
             return false;
-        }
-        let text = match rule.message_group.and_then(|g| self.rules[r].locs.get(g)) {
-            Some((s, e)) => &line[s..e],
-            None => line,
         };
-        let message = clean_text(text);
-        self.close_record(out);
-        self.pending.clear();
-        out.push(Output::EndOfRun { line: self.line_no, message });
-        // A run appended after this one prints its banner again: wait for its marker.
-        if prog.start_after.is_some() {
-            self.started = false;
+        let mut rest = part;
+        for _ in 0..mark.lines {
+            let Some(nl) = crate::follow::lines::find_newline(rest) else { break };
+            self.st.feed(&self.prog, &rest[..nl], 0, out);
+            rest = &rest[nl + 1..];
         }
+        self.st.close_record(out);
+        worker.st.series.announce(mark.series, out);
+        out.batch(batch, base, true);
+        let after = worker.st.tally.stats.since(mark.stats);
+        let reported = worker.st.tally.reported().saturating_sub(mark.reported);
+        worker.st.tally = self.st.tally.clone();
+        worker.st.tally.rebase(after, reported);
+        worker.st.line_no += base;
+        worker.st.mark = None;
+        worker.st.track_mark = false;
+        worker.base_series = 0;
+        *self = worker;
         true
-    }
-}
-
-fn describe(prog: &LinesProgram, line: &[u8], failure: Option<Failure>) -> String {
-    let Some(f) = failure else { return "line could not be used".to_string() };
-    match f {
-        Failure::NotANumber { rule, capture, span } => {
-            let r = &prog.rules[rule];
-            format!(
-                "{}: capture `{}` is not a number: {}",
-                r.label,
-                r.values[capture].label,
-                excerpt(&line[span.0..span.1])
-            )
-        }
-        Failure::BadIteration { rule, span } => format!(
-            "{}: iteration {} is not an integer; record opened without a number",
-            prog.rules[rule].label,
-            excerpt(&line[span.0..span.1])
-        ),
-        Failure::BadTime { rule, span } => format!(
-            "{}: time {} is not a number; record opened without a time",
-            prog.rules[rule].label,
-            excerpt(&line[span.0..span.1])
-        ),
-        Failure::NoRecord { rule } => {
-            format!("{}: value before the first step line (no record open)", prog.rules[rule].label)
-        }
-        Failure::NoName { rule } => {
-            format!("{}: the `name` capture is missing or empty", prog.rules[rule].label)
-        }
-        Failure::TooManySeries { rule } => format!(
-            "{}: more than {} series; new names are dropped",
-            prog.rules[rule].label,
-            super::series::MAX_SERIES
-        ),
-        Failure::RecordFull { rule } => {
-            format!("{}: record already holds {MAX_RECORD_VALUES} values", prog.rules[rule].label)
-        }
     }
 }
 
@@ -686,31 +346,7 @@ fn describe(prog: &LinesProgram, line: &[u8], failure: Option<Failure>) -> Strin
 mod tests {
     use super::*;
     use crate::parser::{Definition, Origin};
-
-    #[test]
-    fn accum_applies_repeat_policies() {
-        let mut a = Accum::new();
-        for (v, r) in [(3.0, Repeat::First), (1.0, Repeat::First)] {
-            a.push(0, v, r);
-        }
-        for v in [3.0, 1.0, 2.0] {
-            a.push(1, v, Repeat::Min);
-            a.push(2, v, Repeat::Max);
-            a.push(3, v, Repeat::Last);
-            a.push(4, v, Repeat::All);
-        }
-        assert_eq!(
-            a.take(),
-            vec![(0, 3.0), (1, 1.0), (2, 3.0), (3, 2.0), (4, 3.0), (4, 1.0), (4, 2.0)]
-        );
-        // A new record starts empty even though the slot vectors are reused.
-        a.push(1, 5.0, Repeat::Min);
-        a.push(1, f64::NAN, Repeat::Min);
-        a.push(1, 0.0, Repeat::Min);
-        let v = a.take();
-        assert_eq!(v.len(), 1);
-        assert!(v[0].1.is_nan(), "nan wins min");
-    }
+    use crate::record::{Output, Record};
 
     fn parse(def: &str, log: &str) -> Vec<Output> {
         let d = Definition::from_text(def, Origin::Builtin, "unit", "unit").expect("valid");
@@ -738,6 +374,36 @@ mod tests {
         assert_eq!(recs.len(), 1);
         assert_eq!(recs[0].iteration, Some(4));
         assert_eq!(recs[0].values, vec![(0, 1.0), (0, 2.0)]);
+    }
+
+    #[test]
+    fn a_block_read_at_once_gives_what_its_lines_give_one_by_one() {
+        // Rules that need a literal anywhere in the line are searched for block-wide; the
+        // literal at the very start or end of a line, twice in one line, split over two
+        // lines, and absent for a long stretch.
+        let def = "engine = \"lines\"\n\
+                   [[rules]]\nkind = \"step\"\npattern = '^it (?P<iteration>\\d+)'\n\
+                   [[rules]]\nkind = \"value\"\npattern = '(?P<name>\\w+) res (?P<value>\\S+)'\nliteral = \" res \"\nrepeat = \"all\"\n\
+                   [[rules]]\nkind = \"event\"\nname = \"w\"\npattern = 'fatal: (?P<message>.*)'\n";
+        let mut log =
+            String::from(" res 1\nit 1\np res 1e-3\nq res 2 k res 3\nfatal: x\nz res\n 4\n");
+        for i in 2..40 {
+            log += &format!("it {i}\n");
+            if i % 7 == 0 {
+                log += &format!("u res {i}e-4\nno literal here\n  fatal: at {i}\n");
+            }
+        }
+        log += "v res 5\nfatal:";
+        let d = Definition::from_text(def, Origin::Builtin, "unit", "unit").expect("valid");
+        let by_line = parse(def, &log);
+        let mut p = d.parser();
+        let mut by_block = Vec::new();
+        let mut block = log.clone().into_bytes();
+        block.push(b'\n');
+        p.feed_block(&block, &mut by_block);
+        p.finish(&mut by_block);
+        assert_eq!(by_block, by_line);
+        assert!(by_line.iter().filter(|o| matches!(o, Output::Event(_))).count() >= 6);
     }
 
     #[test]

@@ -56,6 +56,8 @@ pub struct Matcher {
     pub regex: Regex,
     pub prefilter: Prefilter,
     fast: Option<Pattern>,
+    /// The backtracker's condition on the end of a matching line, if it has one.
+    tail: Option<pattern::Tail>,
 }
 
 /// After this many searches that exhausted the step budget, a [`Captures`] stops trying the
@@ -130,7 +132,8 @@ impl Matcher {
         // The backtracker must number groups as the regex does; anything else is a bug in
         // its parser, and the regex alone is then used.
         let fast = Pattern::compile(pattern).filter(|p| p.groups() == regex.captures_len());
-        Ok(Matcher { regex, prefilter, fast })
+        let tail = fast.as_ref().and_then(Pattern::tail);
+        Ok(Matcher { regex, prefilter, fast, tail })
     }
 
     /// Fresh capture storage sized for this matcher.
@@ -170,7 +173,9 @@ impl Matcher {
     /// Does `line` match (prefilter first)? The groups are left in `caps`.
     #[inline]
     pub fn find(&self, line: &[u8], lead_ws: usize, caps: &mut Captures) -> bool {
-        self.may_match(line, lead_ws) && self.captures(line, caps)
+        self.may_match(line, lead_ws)
+            && self.tail.is_none_or(|t| t.holds(line))
+            && self.captures(line, caps)
     }
 
     /// A necessary condition on a matching line's first bytes, for dispatching lines to rules:

@@ -8,7 +8,7 @@
 use std::collections::HashMap;
 use std::hash::{BuildHasherDefault, Hasher};
 
-use crate::record::{LineStats, Output, Role, SeriesId, SeriesInfo, Skip};
+use crate::record::{LineStats, Role, SeriesId, SeriesInfo, Sink, Skip};
 
 /// Most series one parser will create. A `name` capture run over junk could otherwise invent
 /// a new series for every distinct word of a huge file.
@@ -44,24 +44,38 @@ pub type FnvMap<K, V> = HashMap<K, V, BuildHasherDefault<Fnv>>;
 #[derive(Debug, Default, Clone)]
 pub struct SeriesTable {
     by_name: FnvMap<String, SeriesId>,
-    count: usize,
+    /// Name and role of every id, in id order.
+    infos: Vec<(String, Role)>,
 }
 
 impl SeriesTable {
     /// The id of `name`, creating and announcing it (with `role`) when new. `None` once the
     /// table holds [`MAX_SERIES`] series.
-    pub fn intern(&mut self, name: &str, role: Role, out: &mut Vec<Output>) -> Option<SeriesId> {
+    pub fn intern(&mut self, name: &str, role: Role, out: &mut dyn Sink) -> Option<SeriesId> {
         if let Some(&id) = self.by_name.get(name) {
             return Some(id);
         }
-        if self.count >= MAX_SERIES {
+        if self.infos.len() >= MAX_SERIES {
             return None;
         }
-        let id = SeriesId::try_from(self.count).ok()?;
-        self.count += 1;
+        let id = SeriesId::try_from(self.infos.len()).ok()?;
         self.by_name.insert(name.to_string(), id);
-        out.push(Output::Series(SeriesInfo { id, name: name.to_string(), role }));
+        self.infos.push((name.to_string(), role));
+        out.series(SeriesInfo { id, name: name.to_string(), role });
         Some(id)
+    }
+
+    /// Number of series created.
+    pub fn len(&self) -> usize {
+        self.infos.len()
+    }
+
+    /// Announce again the first `n` series (after output of another parser instance, so
+    /// that a sink maps these ids to these names once more).
+    pub fn announce(&self, n: usize, out: &mut dyn Sink) {
+        for (id, (name, role)) in self.infos.iter().take(n).enumerate() {
+            out.series(SeriesInfo { id: id as SeriesId, name: name.clone(), role: *role });
+        }
     }
 }
 
@@ -75,12 +89,24 @@ pub struct Tally {
 impl Tally {
     /// Count a skipped line; emit its reason while under the cap. `reason` is only called
     /// when the reason will be shown, so skipping stays cheap once the cap is reached.
-    pub fn skip(&mut self, line: u64, out: &mut Vec<Output>, reason: impl FnOnce() -> String) {
+    pub fn skip(&mut self, line: u64, out: &mut dyn Sink, reason: impl FnOnce() -> String) {
         self.stats.skipped += 1;
         if self.reported < MAX_SKIP_REPORTS {
             self.reported += 1;
-            out.push(Output::Skipped(Skip { line, reason: reason() }));
+            out.skipped(Skip { line, reason: reason() });
         }
+    }
+
+    /// Skip reasons emitted so far.
+    pub fn reported(&self) -> u32 {
+        self.reported
+    }
+
+    /// Continue the counts of an earlier parser instance of the same source (parts of one
+    /// file parsed in parallel): `before` are its counts, `reported` its skip reports.
+    pub fn rebase(&mut self, before: LineStats, reported: u32) {
+        self.stats = before.plus(self.stats);
+        self.reported = self.reported.saturating_add(reported).min(MAX_SKIP_REPORTS);
     }
 }
 
@@ -129,10 +155,12 @@ pub fn excerpt(b: &[u8]) -> String {
 mod tests {
     use super::*;
 
+    use crate::record::Output;
+
     #[test]
     fn interning_announces_once() {
         let mut t = SeriesTable::default();
-        let mut out = Vec::new();
+        let mut out: Vec<Output> = Vec::new();
         assert_eq!(t.intern("p", Role::Residual, &mut out), Some(0));
         assert_eq!(t.intern("Ux", Role::Residual, &mut out), Some(1));
         assert_eq!(t.intern("p", Role::Monitor, &mut out), Some(0));
@@ -146,7 +174,7 @@ mod tests {
     #[test]
     fn skip_reports_are_capped() {
         let mut t = Tally::default();
-        let mut out = Vec::new();
+        let mut out: Vec<Output> = Vec::new();
         for line in 1..=30 {
             t.skip(line, &mut out, || format!("bad {line}"));
         }

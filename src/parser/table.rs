@@ -16,9 +16,18 @@
 //!
 //! With no header at all (`header = "none"`, or numeric rows from the first line), columns
 //! are named `col1`, `col2`, … unless the definition lists `columns`.
+//!
+//! Most lines of a large table are plain data rows of the current header; `fast.rs` reads
+//! those in one pass (cells found and numbers read in the same scan, the index read once).
+//! Anything else, or any doubt, goes through the general classification below. Like the
+//! `lines` engine, a parser can start in the middle of a file ([`TableParser::speculative`])
+//! and hand over at the join ([`TableParser::join`]), so a large file is read on several
+//! cores.
 
 pub mod cells;
 pub mod compile;
+mod fast;
+mod join;
 
 use std::collections::VecDeque;
 use std::sync::Arc;
@@ -26,9 +35,9 @@ use std::sync::Arc;
 use cells::{Cell, CellKind, Delimiter, components, split};
 
 use super::number::{parse_integer, parse_number};
-use super::series::{LineUse, SeriesTable, Tally, clean_text, excerpt};
+use super::series::{LineUse, MAX_SERIES, SeriesTable, Tally, clean_text, excerpt};
 use crate::glob;
-use crate::record::{LineStats, Output, Record, Role, SeriesId};
+use crate::record::{LineStats, RecordRef, Role, SeriesId, Sink};
 
 /// Header candidates remembered while waiting for a row that fits one.
 const MAX_CANDIDATES: usize = 8;
@@ -159,6 +168,10 @@ pub struct TableParser {
     header: Option<Header>,
     candidates: VecDeque<Vec<Vec<u8>>>,
     series: SeriesTable,
+    /// The values of the row being read (reused; lent to the sink).
+    values: Vec<(SeriesId, f64)>,
+    /// For a parser made by [`TableParser::speculative`]: the header state it assumed.
+    assumed: Option<Box<join::Assumed>>,
 }
 
 impl TableParser {
@@ -171,6 +184,8 @@ impl TableParser {
             header: None,
             candidates: VecDeque::new(),
             series: SeriesTable::default(),
+            values: Vec::new(),
+            assumed: None,
         };
         if let Some(cols) = p.prog.columns.clone() {
             let raw: Vec<Vec<u8>> = cols.into_iter().map(String::into_bytes).collect();
@@ -184,12 +199,16 @@ impl TableParser {
     }
 
     /// Table rows are complete when read; nothing is held back.
-    pub fn finish(&mut self, _out: &mut Vec<Output>) {}
+    pub fn finish(&mut self, _out: &mut dyn Sink) {}
 
-    pub fn feed(&mut self, raw: &[u8], out: &mut Vec<Output>) {
+    pub fn feed(&mut self, raw: &[u8], out: &mut dyn Sink) {
         self.line_no += 1;
         self.tally.stats.lines += 1;
         let line = raw.strip_suffix(b"\r").unwrap_or(raw);
+        if self.fast_row(line, out) {
+            self.tally.stats.used += 1;
+            return;
+        }
         let (used, failure) = self.classify(line, out);
         match used {
             LineUse::Ignored => self.tally.stats.ignored += 1,
@@ -202,7 +221,12 @@ impl TableParser {
         }
     }
 
-    fn classify(&mut self, line: &[u8], out: &mut Vec<Output>) -> (LineUse, Option<Failure>) {
+    /// Feed every line of `block`: complete lines, each ending in `\n`.
+    pub fn feed_block(&mut self, block: &[u8], out: &mut dyn Sink) {
+        crate::follow::lines::each_line(block, |line| self.feed(line, out));
+    }
+
+    fn classify(&mut self, line: &[u8], out: &mut dyn Sink) -> (LineUse, Option<Failure>) {
         let lead = line.iter().take_while(|b| b.is_ascii_whitespace()).count();
         let body = &line[lead..];
         if body.is_empty() {
@@ -262,7 +286,7 @@ impl TableParser {
         }
     }
 
-    fn row(&mut self, line: &[u8], out: &mut Vec<Output>) -> (LineUse, Option<Failure>) {
+    fn row(&mut self, line: &[u8], out: &mut dyn Sink) -> (LineUse, Option<Failure>) {
         let width = self.cells.len();
         let mut failure = None;
         let fits = self.header.as_ref().is_some_and(|h| h.cols.len() == width);
@@ -289,25 +313,22 @@ impl TableParser {
             failure = Some(Failure::MissingIndex(what));
         }
 
-        let mut rec = Record {
-            iteration: None,
-            time: None,
-            values: Vec::with_capacity(width),
-            line: self.line_no,
-        };
+        let mut values = std::mem::take(&mut self.values);
+        values.clear();
+        let (mut iteration, mut time) = (None, None);
         for (ci, cell) in self.cells.iter().enumerate() {
             let bytes = cell.bytes(line);
             match &mut header.cols[ci] {
                 Col::Ignored => {}
                 Col::Iteration => match parse_integer(bytes) {
-                    Some(it) => rec.iteration = Some(it),
+                    Some(it) => iteration = Some(it),
                     None => {
                         failure
                             .get_or_insert(Failure::BadIteration { span: (cell.start, cell.end) });
                     }
                 },
                 Col::Time => match parse_number(bytes) {
-                    Some(t) => rec.time = Some(t),
+                    Some(t) => time = Some(t),
                     None => {
                         failure.get_or_insert(Failure::NotANumber {
                             column: ci,
@@ -344,7 +365,7 @@ impl TableParser {
                                 failure.get_or_insert(Failure::TooManySeries);
                                 break;
                             };
-                            rec.values.push((id, v));
+                            values.push((id, v));
                         }
                         continue;
                     }
@@ -371,11 +392,12 @@ impl TableParser {
                             }
                         },
                     };
-                    rec.values.push((id, v));
+                    values.push((id, v));
                 }
             }
         }
-        out.push(Output::Record(rec));
+        out.record(RecordRef { iteration, time, values: &values, line: self.line_no });
+        self.values = values;
         match failure {
             None => (LineUse::Used, None),
             Some(f) => (LineUse::Skipped, Some(f)),
@@ -575,7 +597,7 @@ fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> 
             format!("{what} is not in the header; records have no iteration/time from it")
         }
         Some(Failure::TooManySeries) => {
-            format!("more than {} series; new columns are dropped", super::series::MAX_SERIES)
+            format!("more than {MAX_SERIES} series; new columns are dropped")
         }
     }
 }
@@ -584,10 +606,11 @@ fn describe(line: &[u8], failure: Option<&Failure>, header: Option<&Header>) -> 
 mod tests {
     use super::*;
     use crate::parser::Registry;
+    use crate::record::{Output, Record};
 
     fn rows(name: &str, text: &str) -> (Vec<Output>, LineStats) {
         let mut p = Registry::builtin().get(name).expect("shipped").parser();
-        let mut out = Vec::new();
+        let mut out: Vec<Output> = Vec::new();
         for l in text.lines() {
             p.feed(l.as_bytes(), &mut out);
         }

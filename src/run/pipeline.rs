@@ -1,29 +1,50 @@
-//! Moving followed lines through parsers into batches: the same code serves one-shot reads
-//! (`parse`, `check`, `report`) and the live ingest thread (`watch`).
+//! Moving followed lines through parsers: the same code serves one-shot reads (`parse`,
+//! `check`, `report`) and the live ingest thread (`watch`).
 //!
 //! A [`SourceReader`] owns one follower and the parser instance for its current file. It
 //! picks the parser by name or, when none is named, by detection on the first bytes of the
-//! file once the file exists. The live loop ([`spawn_live`]) owns every reader on one thread
-//! and blocks on file events or the poll tick; it never busy-waits.
+//! file once the file exists. Complete lines go to the parser as they come; once a read has
+//! brought more than a block's worth (the first read of a large file), the rest is gathered
+//! into blocks parsed on every core (`bulk.rs`). Parser output goes straight to a [`Dest`]: the store itself for
+//! one-shot reads, packed batches for the live loop. Nothing holds a file's worth of records.
+//!
+//! One-shot reads take a final line without a newline as data only when the file has been
+//! quiet for [`PARTIAL_QUIET`] (a writer may be in the middle of it), or when asked to; a
+//! line left out is said in the source's notes. The live loop ([`spawn_live`]) owns every
+//! reader on one thread and blocks on file events or the poll tick; it never busy-waits.
+//! When a `lines` log has been quiet for [`OPEN_QUIET`], it shows the record the parser still
+//! holds open (closed only by the next step line), so the newest iteration is not missing.
+
+mod live;
 
 use std::path::PathBuf;
 use std::sync::Arc;
-use std::sync::atomic::{AtomicBool, Ordering};
-use std::sync::mpsc::Sender;
-use std::thread::JoinHandle;
-use std::time::{Duration, SystemTime};
+use std::time::{Duration, Instant, SystemTime};
 
 use thiserror::Error;
 
-use crate::follow::{FollowConfig, FollowItem, Follower, Waker};
+use crate::follow::{FollowConfig, FollowItem, Follower};
 use crate::parser::{Parser, Registry};
-use crate::record::Output;
+use crate::record::{LineStats, Sink};
+use crate::run::bulk::{BLOCK_BYTES, Pool};
 use crate::run::config::{RunSpec, SourceSpec};
-use crate::run::ingest::{IngestBatch, IngestItem, SourceActivity, apply};
+use crate::run::ingest::{ApplyTo, Collect, Dest, IngestItem, SourceActivity};
+
 use crate::run::store::{RunStore, SourceStore};
+pub use live::{LiveSource, spawn_live};
 
 /// How many bytes of a file detection looks at.
 const DETECT_BYTES: usize = 64 * 1024;
+/// A final line without a newline is taken as data by one-shot reads only when the file has
+/// not changed for this long (RELIABILITY §3: an unterminated line older than 2 s).
+pub const PARTIAL_QUIET: Duration = Duration::from_secs(2);
+/// A live `lines` source quiet for this long shows the record it holds open.
+pub const OPEN_QUIET: Duration = Duration::from_secs(2);
+/// Upper bound on polls of a one-shot read (a writer outrunning the reader).
+const MAX_POLLS_TO_END: usize = 1000;
+/// Parser output held before a live read hands it on (bounds the ingest thread's memory
+/// during a large first read).
+const LIVE_CHUNK_BYTES: usize = 8 << 20;
 
 /// Errors that stop a source before it starts.
 #[derive(Debug, Error)]
@@ -49,6 +70,21 @@ fn unknown_hint(registry: &Registry, name: &str) -> String {
     }
 }
 
+/// What a one-shot read does with a final line that has no newline.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum PartialLine {
+    /// Data only when the file has been quiet for this long; otherwise left out, with a note.
+    IfQuiet(Duration),
+    /// Always data (`--include-partial`).
+    Include,
+}
+
+impl Default for PartialLine {
+    fn default() -> Self {
+        PartialLine::IfQuiet(PARTIAL_QUIET)
+    }
+}
+
 /// The parser of a source's current file, chosen by name or by detection on its first lines.
 ///
 /// Detection looks at the head of the file; instead of re-reading the file, the first lines
@@ -65,7 +101,7 @@ impl ParserSlot {
         &mut self,
         registry: &Registry,
         line: &[u8],
-        out: &mut Vec<Output>,
+        out: &mut dyn Sink,
         path: &str,
     ) -> Result<(), PipelineError> {
         if let Some(p) = self.parser.as_mut() {
@@ -85,7 +121,7 @@ impl ParserSlot {
         &mut self,
         registry: &Registry,
         force: bool,
-        out: &mut Vec<Output>,
+        out: &mut dyn Sink,
         path: &str,
     ) -> Result<bool, PipelineError> {
         if self.parser.is_some() {
@@ -120,19 +156,14 @@ impl ParserSlot {
         })?;
         let mut parser = def.parser();
         let head = std::mem::take(&mut self.head);
-        let kept = head.strip_suffix(b"\n").unwrap_or(&head);
-        if !head.is_empty() {
-            for line in kept.split(|&b| b == b'\n') {
-                parser.feed(line, out);
-            }
-        }
+        parser.feed_block(&head, out);
         self.parser = Some(parser);
         self.chosen = Some(name);
         Ok(true)
     }
 
     /// Close the current parser (a restart): flush its open record.
-    fn close(&mut self, out: &mut Vec<Output>) -> Option<crate::record::LineStats> {
+    fn close(&mut self, out: &mut dyn Sink) -> Option<LineStats> {
         let stats = self.parser.as_mut().map(|p| {
             p.finish(out);
             p.stats()
@@ -149,10 +180,13 @@ impl ParserSlot {
 /// One source: its follower and the parser of its current file.
 pub struct SourceReader {
     follower: Follower,
+    /// The path or glob followed.
+    path: PathBuf,
     registry: Arc<Registry>,
     slot: ParserSlot,
     label: String,
-    out: Vec<Output>,
+    /// Complete lines not parsed yet, each ending in `\n`.
+    block: Vec<u8>,
     /// The parser name last announced with [`IngestItem::Parser`].
     announced: Option<String>,
     /// Whether anything has been read yet (the first read reports the file's mtime as its
@@ -160,6 +194,15 @@ pub struct SourceReader {
     read_before: bool,
     /// The note that the file exists but is empty has been given.
     said_empty: bool,
+    partial: PartialLine,
+    open_quiet: Duration,
+    /// When a live read last got lines, and whether the open record was shown since.
+    last_lines: Option<Instant>,
+    open_shown: bool,
+    /// Blocks read on other cores and handed over (see `bulk.rs`).
+    parallel_blocks: u64,
+    /// Threads for a bulk read (`None`: the cores the load leaves free).
+    workers: Option<usize>,
 }
 
 impl SourceReader {
@@ -180,6 +223,7 @@ impl SourceReader {
         }
         Ok(SourceReader {
             follower: Follower::new(spec.path.clone(), cfg),
+            path: spec.path.clone(),
             registry,
             slot: ParserSlot {
                 named: spec.parser.clone(),
@@ -188,11 +232,38 @@ impl SourceReader {
                 head: Vec::new(),
             },
             label: spec.label.clone(),
-            out: Vec::new(),
+            block: Vec::new(),
             announced: None,
             read_before: false,
             said_empty: false,
+            partial: PartialLine::default(),
+            open_quiet: OPEN_QUIET,
+            last_lines: None,
+            open_shown: false,
+            parallel_blocks: 0,
+            workers: None,
         })
+    }
+
+    /// What one-shot reads do with a final line that has no newline.
+    pub fn set_partial_line(&mut self, p: PartialLine) {
+        self.partial = p;
+    }
+
+    /// How long a live source must be quiet before its open record is shown.
+    pub fn set_open_quiet(&mut self, d: Duration) {
+        self.open_quiet = d;
+    }
+
+    /// Parse large reads with this many threads (default: the cores the load average leaves
+    /// free; fewer than two keeps reads on one thread).
+    pub fn set_workers(&mut self, n: usize) {
+        self.workers = Some(n);
+    }
+
+    /// Blocks of lines that were parsed on another core and used as such so far.
+    pub fn parallel_blocks(&self) -> u64 {
+        self.parallel_blocks
     }
 
     /// The source's label (path as the user wrote it).
@@ -216,8 +287,8 @@ impl SourceReader {
 
     /// Read what is new; returns the items to apply (empty when nothing changed).
     ///
-    /// With `at_end` (one-shot reads), the final unterminated line is used, the open record
-    /// is flushed and a file no definition recognises is an error.
+    /// With `at_end` (one-shot reads), the open record is flushed, a final unterminated line
+    /// is read as [`PartialLine`] says, and a file no definition recognises is an error.
     pub fn read(&mut self, at_end: bool) -> Result<Vec<IngestItem>, PipelineError> {
         let mut chunks = Vec::new();
         let mut last = self.read_chunked(at_end, &mut |c| chunks.extend(c))?;
@@ -226,75 +297,185 @@ impl SourceReader {
     }
 
     /// [`read`](Self::read), handing out what is ready at each progress mark of a large
-    /// first read (every 64 MiB), so a live view shows progress and early data instead of
-    /// freezing until the whole file is read. Returns the rest.
+    /// first read (every 64 MiB) and whenever the parsed data held reaches a few MiB, so a
+    /// live view shows progress and early data instead of freezing until the whole file is
+    /// read, and the ingest thread holds little. Returns the rest.
     pub fn read_chunked(
         &mut self,
         at_end: bool,
         on_chunk: &mut dyn FnMut(Vec<IngestItem>),
     ) -> Result<Vec<IngestItem>, PipelineError> {
-        let SourceReader { follower, registry, slot, label, out, .. } = self;
-        let mut items = Vec::new();
-        let mut grew = false;
-        let mut error = None;
-        let mut sink = |item: FollowItem<'_>| {
-            if error.is_some() {
-                return;
-            }
-            match item {
-                FollowItem::Line(line) => {
-                    grew = true;
-                    if let Err(e) = slot.feed(registry, line, out, label) {
-                        error = Some(e);
-                    }
-                }
-                FollowItem::Restart(reason) => {
-                    let stats = slot.close(out);
-                    items.extend(out.drain(..).map(IngestItem::Output));
-                    if let Some(s) = stats {
-                        items.push(IngestItem::Stats(s));
-                    }
-                    items.push(IngestItem::Restart(reason));
-                }
-                FollowItem::Note(n) => items.push(IngestItem::Note(n)),
-                FollowItem::Progress { read, total } => {
-                    items.extend(out.drain(..).map(IngestItem::Output));
-                    if let Some(p) = &slot.parser {
-                        items.push(IngestItem::Stats(p.stats()));
-                    }
-                    items.push(IngestItem::Progress { read, total });
-                    on_chunk(std::mem::take(&mut items));
-                }
+        let mut dest = Collect::default();
+        let mut hand_on = |c: &mut Collect, progress: bool| {
+            if progress || c.pending_bytes() >= LIVE_CHUNK_BYTES {
+                on_chunk(c.take());
             }
         };
-        if at_end {
-            follower.read_to_end(&mut sink);
-        } else {
-            follower.poll(&mut sink);
-        }
+        self.read_with(at_end, &mut dest, &mut hand_on)?;
+        Ok(dest.take())
+    }
+
+    /// A one-shot read to the end of the data, straight into `store`.
+    pub fn read_into(
+        &mut self,
+        store: &mut SourceStore,
+        activity: &mut SourceActivity,
+    ) -> Result<(), PipelineError> {
+        let mut dest = ApplyTo { store, activity };
+        self.read_with(true, &mut dest, &mut |_, _| {})
+    }
+
+    /// The read itself. `hand_on(dest, at_progress_mark)` is called after each block and at
+    /// each progress mark, to pass on what `dest` holds when it wants to.
+    fn read_with<D: Dest>(
+        &mut self,
+        at_end: bool,
+        dest: &mut D,
+        hand_on: &mut dyn FnMut(&mut D, bool),
+    ) -> Result<(), PipelineError> {
+        // Bytes left to read, when the source is one plain file (for the store's reservation).
+        let size = std::fs::metadata(&self.path).map(|m| m.len()).unwrap_or(0);
+        let size = size.saturating_sub(self.follower.offset());
+        let SourceReader {
+            follower,
+            registry,
+            slot,
+            label,
+            block,
+            partial,
+            parallel_blocks,
+            workers,
+            ..
+        } = self;
+        let mut grew = false;
+        let mut error = None;
+        std::thread::scope(|scope| {
+            let mut pool = Pool::new(scope, *workers);
+            // Bytes of lines fed in place in this read; past one block, lines are gathered
+            // into blocks for the pool (a bulk read).
+            let mut in_place = 0usize;
+            let mut sink = |item: FollowItem<'_>| {
+                if error.is_some() {
+                    return;
+                }
+                match item {
+                    FollowItem::Line(line) => {
+                        grew = true;
+                        let Some(parser) = slot.parser.as_mut() else {
+                            if let Err(e) = slot.feed(registry, line, dest, label) {
+                                error = Some(e);
+                            }
+                            return;
+                        };
+                        if in_place < BLOCK_BYTES || !pool.parallel() {
+                            let before = in_place;
+                            in_place += line.len() + 1;
+                            parser.feed(line, dest);
+                            if before < BLOCK_BYTES && in_place >= BLOCK_BYTES && size > 0 {
+                                dest.read_fraction(in_place as f64 / size as f64);
+                            }
+                            if before / BLOCK_BYTES != in_place / BLOCK_BYTES {
+                                hand_on(dest, false);
+                            }
+                            return;
+                        }
+                        block.extend_from_slice(line);
+                        block.push(b'\n');
+                        if block.len() >= BLOCK_BYTES {
+                            parse_block(&mut pool, block, parser, dest);
+                            hand_on(dest, false);
+                        }
+                    }
+                    FollowItem::Restart(reason) => {
+                        if let Some(parser) = slot.parser.as_mut() {
+                            parse_block(&mut pool, block, parser, dest);
+                            pool.drain(parser, dest);
+                        }
+                        let stats = slot.close(dest);
+                        if let Some(s) = stats {
+                            dest.item(IngestItem::Stats(s));
+                        }
+                        dest.item(IngestItem::Restart(reason));
+                    }
+                    FollowItem::Note(n) => dest.item(IngestItem::Note(n)),
+                    FollowItem::Progress { read, total } => {
+                        if let Some(parser) = slot.parser.as_mut() {
+                            parse_block(&mut pool, block, parser, dest);
+                            pool.drain(parser, dest);
+                            dest.item(IngestItem::Stats(parser.stats()));
+                        }
+                        dest.item(IngestItem::Progress { read, total });
+                        hand_on(dest, true);
+                    }
+                }
+            };
+            if at_end {
+                for _ in 0..MAX_POLLS_TO_END {
+                    let o = follower.poll(&mut sink);
+                    if !o.grew() && !o.restarted {
+                        break;
+                    }
+                }
+                if let Some(part) = follower.partial_line() {
+                    let age = follower
+                        .current_path()
+                        .and_then(|p| std::fs::metadata(p).and_then(|m| m.modified()).ok())
+                        .and_then(|m| SystemTime::now().duration_since(m).ok());
+                    match (*partial, age) {
+                        (PartialLine::Include, _) => follower.finish(&mut sink),
+                        (PartialLine::IfQuiet(q), Some(a)) if a >= q => follower.finish(&mut sink),
+                        (PartialLine::IfQuiet(_), _) => {
+                            let path = follower
+                                .current_path()
+                                .map_or_else(|| label.clone(), |p| p.display().to_string());
+                            let age = age.map_or_else(
+                                || "just now".to_string(),
+                                |a| format!("{:.1} s ago", a.as_secs_f64()),
+                            );
+                            let n = part.len();
+                            sink(FollowItem::Note(format!(
+                                "{path}: left out a partial last line ({n} bytes, no newline \
+                                 yet; the file changed {age}): it is read once complete, or \
+                                 with --include-partial"
+                            )));
+                        }
+                    }
+                }
+            } else {
+                follower.poll(&mut sink);
+            }
+            // (`sink` is not used past here: its borrows end.)
+            if let Some(parser) = slot.parser.as_mut() {
+                parse_block(&mut pool, block, parser, dest);
+                pool.drain(parser, dest);
+            }
+            *parallel_blocks += pool.handed_over;
+        });
         if let Some(e) = error {
             return Err(e);
         }
-        slot.decide(registry, at_end, out, label)?;
+        slot.decide(registry, at_end, dest, label)?;
         if at_end && let Some(p) = slot.parser.as_mut() {
-            p.finish(out);
+            p.finish(dest);
         }
-        items.extend(out.drain(..).map(IngestItem::Output));
         if let Some(p) = &slot.parser {
-            items.push(IngestItem::Stats(p.stats()));
+            dest.item(IngestItem::Stats(p.stats()));
         }
         if slot.chosen.is_some() && slot.chosen != self.announced {
             self.announced = slot.chosen.clone();
-            items.insert(0, IngestItem::Parser(slot.chosen.clone().unwrap_or_default()));
+            dest.item(IngestItem::Parser(slot.chosen.clone().unwrap_or_default()));
         }
         // An existing file with nothing in it yet says so once: the run then knows this
         // source has been looked at (a finished run waits for every source's first read).
         if !grew && !self.read_before && !self.said_empty && self.follower.current_path().is_some()
         {
             self.said_empty = true;
-            items.push(IngestItem::Note(format!("{} is empty so far", self.label)));
+            dest.item(IngestItem::Note(format!("{} is empty so far", self.label)));
         }
+        let now = Instant::now();
         if grew {
+            self.last_lines = Some(now);
+            self.open_shown = false;
             let now = SystemTime::now();
             let at = if self.read_before {
                 now
@@ -305,10 +486,33 @@ impl SourceReader {
                     .map_or(now, |m| m.min(now))
             };
             self.read_before = true;
-            items.push(IngestItem::Grew(at));
+            dest.item(IngestItem::Grew(at));
+        } else if !at_end
+            && !self.open_shown
+            && self.last_lines.is_some_and(|t| now.duration_since(t) >= self.open_quiet)
+            && let Some(rec) = self.slot.parser.as_ref().and_then(Parser::open_record)
+        {
+            self.open_shown = true;
+            dest.item(IngestItem::Open(rec.to_record()));
         }
-        Ok(items)
+        hand_on(dest, false);
+        Ok(())
     }
+}
+
+/// Parse the lines gathered into `block` (those after the first block's worth of a read) on
+/// the pool.
+fn parse_block(
+    pool: &mut Pool<'_, '_>,
+    block: &mut Vec<u8>,
+    parser: &mut Parser,
+    out: &mut dyn Sink,
+) {
+    if block.is_empty() {
+        return;
+    }
+    let full = std::mem::replace(block, pool.buffer());
+    pool.submit(full, parser, out);
 }
 
 /// Read every source of `spec` to the end of its data, once (`parse`, `check`, `report`).
@@ -318,6 +522,15 @@ pub fn read_run(
     spec: &RunSpec,
     registry: Arc<Registry>,
 ) -> Result<(RunStore, Vec<String>), PipelineError> {
+    read_run_with(spec, registry, PartialLine::default())
+}
+
+/// [`read_run`] with a policy for final lines without a newline.
+pub fn read_run_with(
+    spec: &RunSpec,
+    registry: Arc<Registry>,
+    partial: PartialLine,
+) -> Result<(RunStore, Vec<String>), PipelineError> {
     let mut run = RunStore::new(spec.name.clone());
     let mut parsers = Vec::new();
     for s in &spec.sources {
@@ -325,109 +538,22 @@ pub fn read_run(
             return Err(PipelineError::Missing { path: s.path.clone() });
         }
         let mut reader = SourceReader::new(s, registry.clone(), FollowConfig::default())?;
-        let items = reader.read(true)?;
-        let name = reader.parser_name().unwrap_or("-").to_string();
-        let mut store = SourceStore::new(s.label.clone(), name.clone());
+        reader.set_partial_line(partial);
+        let mut store = SourceStore::new(s.label.clone(), "-");
         let mut activity = SourceActivity::default();
-        apply(&mut store, &mut activity, items);
+        reader.read_into(&mut store, &mut activity)?;
+        let name = reader.parser_name().unwrap_or("-").to_string();
+        store.parser = name.clone();
         run.sources.push(store);
         parsers.push(name);
     }
     Ok((run, parsers))
 }
 
-/// One source of the live loop, with the run and source index its batches carry.
-pub struct LiveSource {
-    pub run: usize,
-    pub source: usize,
-    pub reader: SourceReader,
-}
-
-/// Start the ingest thread: it owns every follower, wakes on file events or the poll tick
-/// (never a busy loop), and sends each non-empty batch through `tx` wrapped by `wrap`.
-///
-/// The thread ends when `shutdown` is set or the receiver is gone. A panic inside it is
-/// caught and reported through `on_panic`, so the UI can restore the terminal and exit.
-pub fn spawn_live<M: Send + 'static>(
-    mut sources: Vec<LiveSource>,
-    poll: Duration,
-    tx: Sender<M>,
-    wrap: fn(IngestBatch) -> M,
-    on_panic: fn(String) -> M,
-    shutdown: Arc<AtomicBool>,
-) -> std::io::Result<JoinHandle<()>> {
-    std::thread::Builder::new().name("settle-ingest".into()).spawn(move || {
-        let panic_tx = tx.clone();
-        let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(move || {
-            live_loop(&mut sources, poll, &tx, wrap, &shutdown)
-        }));
-        if let Err(p) = result {
-            let msg = p
-                .downcast_ref::<String>()
-                .cloned()
-                .or_else(|| p.downcast_ref::<&str>().map(|s| s.to_string()))
-                .unwrap_or_else(|| "ingest thread panicked".into());
-            let _ = panic_tx.send(on_panic(msg));
-        }
-    })
-}
-
-fn live_loop<M>(
-    sources: &mut [LiveSource],
-    poll: Duration,
-    tx: &Sender<M>,
-    wrap: fn(IngestBatch) -> M,
-    shutdown: &AtomicBool,
-) {
-    let mut waker = Waker::new();
-    let mut failed = vec![false; sources.len()];
-    while !shutdown.load(Ordering::Relaxed) {
-        let names_dirty = waker.take_names_dirty();
-        for (i, s) in sources.iter_mut().enumerate() {
-            if names_dirty {
-                s.reader.follower_mut().hint_names();
-            }
-            for dir in s.reader.follower().watch_dirs() {
-                waker.watch(&dir);
-            }
-            if failed[i] {
-                continue;
-            }
-            let (run, source) = (s.run, s.source);
-            let mut closed = false;
-            let mut send_chunk = |items: Vec<IngestItem>| {
-                closed |= tx.send(wrap(IngestBatch { run, source, items })).is_err();
-            };
-            let read = s.reader.read_chunked(false, &mut send_chunk);
-            if closed {
-                return;
-            }
-            let items = match read {
-                Ok(items) => items,
-                Err(e) => {
-                    failed[i] = true;
-                    vec![IngestItem::Note(format!("stopped reading: {e}"))]
-                }
-            };
-            let mut items = items;
-            let notes: Vec<IngestItem> =
-                waker.take_notes().into_iter().map(IngestItem::Note).collect();
-            items.extend(notes);
-            if items.iter().all(|it| matches!(it, IngestItem::Stats(_))) {
-                continue;
-            }
-            let batch = IngestBatch { run: s.run, source: s.source, items };
-            if tx.send(wrap(batch)).is_err() {
-                return;
-            }
-        }
-        waker.wait(poll);
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::record::Output;
     use crate::run::config::SourceSpec;
 
     fn csv(dir: &std::path::Path, rows: usize) -> PathBuf {
@@ -442,6 +568,17 @@ mod tests {
 
     fn spec(path: PathBuf, parser: Option<&str>) -> SourceSpec {
         SourceSpec { label: path.display().to_string(), path, parser: parser.map(str::to_string) }
+    }
+
+    fn records(items: &[IngestItem]) -> usize {
+        items
+            .iter()
+            .map(|i| match i {
+                IngestItem::Output(Output::Record(_)) => 1,
+                IngestItem::Parsed(b) => b.records(),
+                _ => 0,
+            })
+            .sum()
     }
 
     #[test]
@@ -459,13 +596,8 @@ mod tests {
         let rest = reader.read_chunked(true, &mut |c| chunks.push(c)).unwrap();
         assert!(chunks.len() >= 3, "{} chunks", chunks.len());
         assert!(chunks.iter().all(|c| matches!(c.last(), Some(IngestItem::Progress { .. }))));
-        let records = chunks
-            .iter()
-            .flatten()
-            .chain(rest.iter())
-            .filter(|i| matches!(i, IngestItem::Output(Output::Record(_))))
-            .count();
-        assert_eq!(records, 5000, "every row once, across chunks");
+        let all: Vec<IngestItem> = chunks.iter().flatten().chain(rest.iter()).cloned().collect();
+        assert_eq!(records(&all), 5000, "every row once, across chunks");
         assert!(rest.iter().any(|i| matches!(i, IngestItem::Parser(n) if n == "csv")));
     }
 

@@ -14,12 +14,23 @@ use std::path::PathBuf;
 use serde::Serialize;
 
 use crate::judge::{RunInput, SeriesInput};
-use crate::record::{Event, LineStats, Output, Record, Role, SeriesId, SeriesInfo, Skip};
+use crate::record::{Event, LineStats, Output, RecordRef, SeriesId, SeriesInfo, Sink, Skip};
+
+mod append;
+mod open;
+mod reread;
+mod series;
+
+use series::Placement;
+pub use series::Series;
 
 /// How many skip reasons a source keeps (the count is kept in full in [`LineStats`]).
 pub const MAX_SKIP_REASONS: usize = 20;
 /// How many events a source keeps (oldest dropped first, counted in `events_dropped`).
 pub const MAX_EVENTS: usize = 10_000;
+
+/// An entry of [`SourceStore::ids`] for an id no announcement has mapped.
+const NO_SERIES: u32 = u32::MAX;
 
 /// Why a new segment began.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -46,94 +57,6 @@ pub struct Segment {
     pub reason: SegmentReason,
 }
 
-/// Where the values of a series sit among the source's records.
-#[derive(Debug, Clone, PartialEq)]
-enum Placement {
-    /// One value per record, starting at record `first`.
-    Dense { first: u32 },
-    /// Explicit record position of every value.
-    Sparse(Vec<u32>),
-}
-
-/// One named quantity of a source.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Series {
-    pub name: String,
-    pub role: Role,
-    values: Vec<f64>,
-    placement: Placement,
-}
-
-impl Series {
-    fn new(name: String, role: Role) -> Self {
-        Series { name, role, values: Vec::new(), placement: Placement::Dense { first: 0 } }
-    }
-
-    pub fn len(&self) -> usize {
-        self.values.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.values.is_empty()
-    }
-
-    /// All values in order.
-    pub fn values(&self) -> &[f64] {
-        &self.values
-    }
-
-    pub fn last(&self) -> Option<f64> {
-        self.values.last().copied()
-    }
-
-    /// Record position of value `i`.
-    pub fn record_of(&self, i: usize) -> usize {
-        match &self.placement {
-            Placement::Dense { first } => *first as usize + i,
-            Placement::Sparse(rec) => rec[i] as usize,
-        }
-    }
-
-    /// Index of the first value whose record is at or after `record`.
-    pub fn first_value_at_or_after(&self, record: usize) -> usize {
-        match &self.placement {
-            Placement::Dense { first } => {
-                record.saturating_sub(*first as usize).min(self.values.len())
-            }
-            Placement::Sparse(rec) => rec.partition_point(|&r| (r as usize) < record),
-        }
-    }
-
-    fn push(&mut self, record: u32, value: f64) {
-        match &mut self.placement {
-            Placement::Dense { first } => {
-                if self.values.is_empty() {
-                    *first = record;
-                } else if *first as usize + self.values.len() != record as usize {
-                    let first = *first;
-                    let mut rec: Vec<u32> =
-                        (0..self.values.len() as u32).map(|i| first + i).collect();
-                    rec.push(record);
-                    self.placement = Placement::Sparse(rec);
-                    self.values.push(value);
-                    return;
-                }
-            }
-            Placement::Sparse(rec) => rec.push(record),
-        }
-        self.values.push(value);
-    }
-
-    /// Bytes held by this series (values plus positions), for the memory benchmark.
-    pub fn heap_bytes(&self) -> usize {
-        self.values.capacity() * 8
-            + match &self.placement {
-                Placement::Dense { .. } => 0,
-                Placement::Sparse(r) => r.capacity() * 4,
-            }
-    }
-}
-
 /// Everything read from one source (a file, or a glob of restart files).
 #[derive(Debug, Clone, Default)]
 pub struct SourceStore {
@@ -145,8 +68,9 @@ pub struct SourceStore {
     times: Vec<f64>,
     has_time: bool,
     series: Vec<Series>,
-    /// Parser series id → index into `series` (reset when a new parser instance starts).
-    ids: HashMap<SeriesId, usize>,
+    /// Parser series id → index into `series` ([`NO_SERIES`] when unknown); set by the
+    /// latest announcement of the id, reset when a new parser instance starts.
+    ids: Vec<u32>,
     pub segments: Vec<Segment>,
     pub events: Vec<Event>,
     pub events_dropped: u64,
@@ -159,6 +83,12 @@ pub struct SourceStore {
     /// Notes from the follower (truncated, replaced, missing, junk skipped), newest last.
     pub notes: Vec<String>,
     pending_segment: Option<SegmentReason>,
+    /// The provisional last record, when one is shown (`open.rs`).
+    open: Option<Box<open::Provisional>>,
+    /// Where the current file's content begins, and a re-read of it (`reread.rs`).
+    file: reread::FileStart,
+    reread: Option<reread::Reread>,
+    rewound: Option<usize>,
 }
 
 impl SourceStore {
@@ -166,23 +96,11 @@ impl SourceStore {
         SourceStore { label: label.into(), parser: parser.into(), ..Default::default() }
     }
 
-    /// Apply a batch of parser output.
+    /// Apply owned parser output (parsers usually write into the store directly through
+    /// its [`Sink`] implementation).
     pub fn apply(&mut self, outputs: impl IntoIterator<Item = Output>) {
         for out in outputs {
-            match out {
-                Output::Series(info) => self.add_series(info),
-                Output::Record(rec) => self.push_record(rec),
-                Output::Event(ev) => self.push_event(ev),
-                Output::EndOfRun { line: _, message } => {
-                    let it = self.iterations.last().copied().unwrap_or(0);
-                    self.ended = Some((it, message));
-                }
-                Output::Skipped(skip) => {
-                    if self.skips.len() < MAX_SKIP_REASONS {
-                        self.skips.push(skip);
-                    }
-                }
-            }
+            out.send_to(self);
         }
     }
 
@@ -196,15 +114,24 @@ impl SourceStore {
         };
     }
 
-    /// A new parser instance starts (new file, truncation, replacement): its series ids are
-    /// fresh, and the next record opens a new segment for `reason`.
+    /// A new parser instance starts: its series ids are fresh. For a new file (replacement,
+    /// next restart file) the next record opens a new segment for `reason`; a file read again
+    /// from its start (`Truncated`: truncation or in-place rewrite) replaces what the store
+    /// holds of it (see `reread.rs`).
     pub fn restart(&mut self, reason: SegmentReason) {
+        self.settle_open();
         self.ids.clear();
-        self.stats_base = self.stats;
         self.ended = None;
+        if reason == SegmentReason::Truncated {
+            self.begin_reread();
+            return;
+        }
+        self.reread = None;
+        self.stats_base = self.stats;
         if !self.iterations.is_empty() {
             self.pending_segment = Some(reason);
         }
+        self.begin_file();
     }
 
     /// Add a follower note (shown in views; not judged).
@@ -224,12 +151,20 @@ impl SourceStore {
                 self.series.len() - 1
             }
         };
-        self.ids.insert(info.id, idx);
+        let id = info.id as usize;
+        if id >= self.ids.len() {
+            self.ids.resize(id + 1, NO_SERIES);
+        }
+        self.ids[id] = idx as u32;
     }
 
     fn push_event(&mut self, mut ev: Event) {
+        self.settle_open();
         if ev.iteration.is_none() {
-            ev.iteration = self.iterations.last().copied();
+            ev.iteration = self.current_iteration();
+        }
+        if self.rereading() && self.reread_event(&ev) {
+            return;
         }
         if self.events.len() >= MAX_EVENTS {
             self.events.remove(0);
@@ -238,9 +173,26 @@ impl SourceStore {
         self.events.push(ev);
     }
 
-    fn push_record(&mut self, rec: Record) {
+    fn push_record(&mut self, rec: RecordRef<'_>) {
+        self.settle_open();
+        if self.rereading() && self.reread_record(&rec) {
+            return;
+        }
+        let pos = self.push_head(rec.iteration, rec.time);
+        for &(id, v) in rec.values {
+            if let Some(&idx) = self.ids.get(id as usize)
+                && idx != NO_SERIES
+            {
+                self.series[idx as usize].push(pos, v);
+            }
+        }
+    }
+
+    /// A new record's iteration and time (its values follow): opens a segment when it
+    /// must, and returns the record's position.
+    fn push_head(&mut self, iteration: Option<i64>, time: Option<f64>) -> u32 {
         let last = self.iterations.last().copied();
-        let iteration = match (rec.iteration, last) {
+        let iteration = match (iteration, last) {
             (Some(it), _) => it,
             (None, Some(l)) if self.pending_segment.is_none() => l + 1,
             (None, Some(_)) | (None, None) => 1,
@@ -260,7 +212,7 @@ impl SourceStore {
         self.pending_segment = None;
         let pos = self.iterations.len() as u32;
         self.iterations.push(iteration);
-        match rec.time {
+        match time {
             Some(t) => {
                 if !self.has_time {
                     self.times = vec![f64::NAN; self.iterations.len() - 1];
@@ -271,11 +223,7 @@ impl SourceStore {
             None if self.has_time => self.times.push(f64::NAN),
             None => {}
         }
-        for (id, v) in rec.values {
-            if let Some(&idx) = self.ids.get(&id) {
-                self.series[idx].push(pos, v);
-            }
-        }
+        pos
     }
 
     /// Number of records.
@@ -303,6 +251,20 @@ impl SourceStore {
 
     pub fn last_iteration(&self) -> Option<i64> {
         self.iterations.last().copied()
+    }
+
+    /// Record `p` rebuilt from the columns, with the series' positions in [`series`](
+    /// Self::series) as ids (values in series order), for printing records one by one.
+    pub fn record_at(&self, p: usize) -> Option<crate::record::Record> {
+        let iteration = *self.iterations.get(p)?;
+        let time = self.times().map(|t| t[p]).filter(|t| !t.is_nan());
+        let mut values = Vec::new();
+        for (i, s) in self.series.iter().enumerate() {
+            for k in s.values_at(p) {
+                values.push((i as SeriesId, s.values[k]));
+            }
+        }
+        Some(crate::record::Record { iteration: Some(iteration), time, values, line: 0 })
     }
 
     /// Iteration number of value `i` of `series`.
@@ -338,11 +300,63 @@ impl SourceStore {
         starts
     }
 
+    /// Make room for `total` records in the iteration index and in every dense series that
+    /// has a value in each record so far: a one-shot read that knows the file's size can
+    /// reserve once instead of growing by doubling. Growing by copying leaves the old buffers
+    /// to the allocator, and a doubled buffer is up to half empty; a reservation made from
+    /// the size is touched only as far as it is filled.
+    pub fn reserve_records(&mut self, total: usize) {
+        let have = self.iterations.len();
+        if total <= have {
+            return;
+        }
+        self.iterations.reserve_exact(total - have);
+        if self.has_time {
+            self.times.reserve_exact(total - have);
+        }
+        for s in &mut self.series {
+            s.reserve_dense(have, total);
+        }
+    }
+
     /// Heap bytes held by values, positions and the iteration index.
     pub fn heap_bytes(&self) -> usize {
         self.iterations.capacity() * 8
             + self.times.capacity() * 8
             + self.series.iter().map(Series::heap_bytes).sum::<usize>()
+    }
+}
+
+impl Sink for SourceStore {
+    fn series(&mut self, info: SeriesInfo) {
+        self.add_series(info);
+    }
+
+    fn record(&mut self, rec: RecordRef<'_>) {
+        self.push_record(rec);
+    }
+
+    fn event(&mut self, ev: Event) {
+        self.push_event(ev);
+    }
+
+    fn end_of_run(&mut self, _line: u64, message: String) {
+        self.settle_open();
+        let it = self.current_iteration().unwrap_or(0);
+        self.ended = Some((it, message));
+    }
+
+    fn batch(&mut self, b: &crate::record::Batch, line_offset: u64, after_first_record: bool) {
+        self.append_batch(b, line_offset, after_first_record);
+    }
+
+    fn skipped(&mut self, skip: Skip) {
+        if self.rereading() && self.skips.contains(&skip) {
+            return;
+        }
+        if self.skips.len() < MAX_SKIP_REASONS {
+            self.skips.push(skip);
+        }
     }
 }
 
@@ -646,6 +660,7 @@ pub fn source_tags(labels: &[&str]) -> Vec<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::record::{Record, Role};
 
     fn info(id: u32, name: &str) -> Output {
         Output::Series(SeriesInfo { id, name: name.into(), role: Role::Residual })

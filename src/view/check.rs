@@ -101,12 +101,16 @@ pub fn text(run: &RunStore, j: &Judgement) -> String {
     if j.verdict == Verdict::Converging && !etas.is_empty() {
         let _ = writeln!(o, "\nestimated iterations to target: {}", etas.join(", "));
     }
-    let notes: Vec<String> = j
+    let mut notes: Vec<String> = j
         .findings
         .iter()
         .filter(|f| f.supports.is_none())
         .map(|f| format!("  {}: {}", f.kind.as_str(), clean(&f.detail)))
         .collect();
+    // What reading the files said (a partial last line left out, junk skipped).
+    for src in &run.sources {
+        notes.extend(src.notes.iter().map(|n| format!("  {}: {}", src.label, clean(n))));
+    }
     if !notes.is_empty() {
         let _ = writeln!(o, "\nnotes");
         for n in notes.iter().take(12) {
@@ -137,7 +141,7 @@ pub fn json(run: &RunStore, parsers: &[String], j: &Judgement) -> Value {
         .sources
         .iter()
         .zip(parsers)
-        .map(|(s, p)| json!({"path": s.label, "parser": p, "records": s.records(), "ended": s.ended.is_some()}))
+        .map(|(s, p)| json!({"path": s.label, "parser": p, "records": s.records(), "ended": s.ended.is_some(), "notes": s.notes}))
         .collect();
     json!({
         "settle": env!("CARGO_PKG_VERSION"),

@@ -23,10 +23,15 @@
 //! this engine is: a backtracker over the same ordered-choice program. The unit tests and a
 //! property test compare it against `regex` on every construct it accepts.
 //!
-//! A backtracker can take exponential time on unlucky patterns, so every search has a step
-//! budget proportional to the line length and the program size. A search that runs out
-//! returns [`Outcome::GaveUp`]; the caller then asks `regex` (linear time). The worst case is
-//! bounded and the answer is always the one `regex` gives.
+//! A backtracker can take exponential time on unlucky patterns, and an unanchored search
+//! that scans a long run from every start position takes quadratic time, so every search
+//! (over all its start positions, in both the backtracking and the forward-only mode) has one
+//! step budget proportional to the line length and the program size, charged for every jump,
+//! every backtrack and every byte a run scans. A search that runs out returns
+//! [`Outcome::GaveUp`]; the caller then asks `regex` (linear time). The worst case is thus
+//! O(line length × program size), like `regex`'s, and the answer is always the one `regex`
+//! gives (`tests/parser_matcher_bounds.rs` checks the time bound on the cases that were
+//! quadratic).
 
 /// Largest program accepted (counted repetitions are unrolled).
 const MAX_INSTS: usize = 2048;
@@ -544,6 +549,25 @@ pub enum Gate {
     AfterBlanks { set: ByteSet, min_blanks: u32 },
 }
 
+/// A necessary condition on the end of a matching line, for patterns ending in `X$` or
+/// `X\s*$` with `X` one byte from a set: after dropping trailing bytes of `strip`, the line's
+/// last byte is in `last`. Checked before the search, it rejects most lines such a pattern
+/// would otherwise scan to the end only to fail at `$`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Tail {
+    last: ByteSet,
+    strip: ByteSet,
+}
+
+impl Tail {
+    /// Can `line` match, as far as its end tells?
+    #[inline]
+    pub fn holds(&self, line: &[u8]) -> bool {
+        let end = line.iter().rposition(|&b| !self.strip.contains(b));
+        end.is_some_and(|i| self.last.contains(line[i]))
+    }
+}
+
 /// A compiled pattern.
 #[derive(Debug, Clone)]
 pub struct Pattern {
@@ -556,10 +580,14 @@ pub struct Pattern {
     start_set: ByteSet,
     start_nullable: bool,
     gate: Gate,
+    /// A condition on where a matching line's text ends (patterns ending in `X\s*$`).
+    tail: Option<Tail>,
     /// The program never needs to backtrack beyond "fall back to the last optional part":
     /// every run is possessive, there are no loops, and the skip branch of every choice surely
     /// matches. [`Pattern::forward`] runs it without a backtracking stack.
     forward: bool,
+    /// A forward program with no choice at all: [`Pattern::straight`] runs it op after op.
+    straight: bool,
 }
 
 impl Pattern {
@@ -579,6 +607,7 @@ impl Pattern {
         let anchored = matches!(insts.get(1), Some(Inst::Look(Look::Start)));
         let (start_set, start_nullable) = first_bytes(&insts, 1);
         let gate = gate(&insts, anchored);
+        let tail = tail(&insts);
         let forward = ops.iter().all(|op| match op {
             Op::Run { possessive, .. } => *possessive,
             Op::Jmp(_) => false,
@@ -587,6 +616,7 @@ impl Pattern {
             Inst::Split(_, y) => surely_matches(&insts, *y as usize),
             _ => true,
         });
+        let straight = forward && !ops.iter().any(|op| matches!(op, Op::Split(..)));
         Some(Pattern {
             ops,
             groups: sp.groups as usize + 1,
@@ -594,8 +624,15 @@ impl Pattern {
             start_set,
             start_nullable,
             gate,
+            tail,
             forward,
+            straight,
         })
+    }
+
+    /// The condition on the end of a matching line, when the pattern gives one.
+    pub fn tail(&self) -> Option<Tail> {
+        self.tail
     }
 
     /// Where a matching line's text must start.
@@ -610,6 +647,7 @@ impl Pattern {
 
     /// Leftmost-first search of `hay`. On [`Outcome::Matched`], `slots` (length
     /// `2 * groups()`) holds the start and end of every group, [`NONE`] where unset.
+    #[inline]
     pub fn search(&self, hay: &[u8], slots: &mut [usize], stack: &mut Vec<Frame>) -> Outcome {
         // Straight-line progress is bounded by the program length; the budget counts what can
         // repeat: jumps and backtracking.
@@ -622,8 +660,10 @@ impl Pattern {
             for s in slots.iter_mut() {
                 *s = NONE;
             }
-            let outcome = if self.forward {
-                self.forward(hay, start, slots, stack)
+            let outcome = if self.straight {
+                self.straight(hay, start, slots, &mut budget)
+            } else if self.forward {
+                self.forward(hay, start, slots, stack, &mut budget)
             } else {
                 self.run(hay, start, slots, stack, &mut budget)
             };
@@ -632,6 +672,76 @@ impl Pattern {
             }
         }
         Outcome::NoMatch
+    }
+
+    /// Run a [`Pattern::straight`] program from `start`: every op once, in order; the first
+    /// that fails ends the attempt.
+    #[inline]
+    fn straight(
+        &self,
+        hay: &[u8],
+        start: usize,
+        slots: &mut [usize],
+        budget: &mut usize,
+    ) -> Outcome {
+        let put = |slots: &mut [usize], slot: u32, pos: usize| {
+            if slot != NO_SLOT
+                && let Some(cell) = slots.get_mut(slot as usize)
+            {
+                *cell = pos;
+            }
+        };
+        let mut pos = start;
+        for op in &self.ops {
+            match op {
+                Op::Byte(b) => {
+                    if hay.get(pos) != Some(b) {
+                        return Outcome::NoMatch;
+                    }
+                    pos += 1;
+                }
+                Op::Lit(lit) => {
+                    let ok = hay.len() - pos >= lit.len()
+                        && hay[pos..].iter().zip(lit.iter()).all(|(a, b)| a == b);
+                    if !ok {
+                        return Outcome::NoMatch;
+                    }
+                    pos += lit.len();
+                }
+                Op::Set { set, before, after } => {
+                    if !hay.get(pos).is_some_and(|&b| set[usize::from(b)]) {
+                        return Outcome::NoMatch;
+                    }
+                    put(slots, *before, pos);
+                    pos += 1;
+                    put(slots, *after, pos);
+                }
+                Op::Run { set, min, max, before, after, .. } => {
+                    let rest = &hay[pos..];
+                    let avail = &rest[..rest.len().min(*max as usize)];
+                    let n = avail.iter().position(|&b| !set[usize::from(b)]).unwrap_or(avail.len());
+                    match budget.checked_sub(n) {
+                        Some(b) => *budget = b,
+                        None => return Outcome::GaveUp,
+                    }
+                    if n < *min as usize {
+                        return Outcome::NoMatch;
+                    }
+                    put(slots, *before, pos);
+                    pos += n;
+                    put(slots, *after, pos);
+                }
+                Op::Save(s) => put(slots, *s, pos),
+                Op::Look(look) => {
+                    if !look.holds(hay, pos) {
+                        return Outcome::NoMatch;
+                    }
+                }
+                Op::Match => return Outcome::Matched,
+                Op::Split(..) | Op::Jmp(_) => return Outcome::GaveUp,
+            }
+        }
+        Outcome::GaveUp
     }
 
     /// Run a [`Pattern::forward`] program from `start`: one pass, no choice stack. A choice
@@ -645,6 +755,7 @@ impl Pattern {
         start: usize,
         slots: &mut [usize],
         journal: &mut Vec<Frame>,
+        budget: &mut usize,
     ) -> Outcome {
         let ops = &self.ops[..];
         let mut pc = 0usize;
@@ -683,6 +794,12 @@ impl Pattern {
                     let rest = &hay[pos..];
                     let avail = &rest[..rest.len().min(*max as usize)];
                     let n = avail.iter().position(|&b| !set[usize::from(b)]).unwrap_or(avail.len());
+                    // Runs are what a search from every start position can repeat: charge
+                    // the bytes they scan to the search's budget.
+                    match budget.checked_sub(n) {
+                        Some(b) => *budget = b,
+                        None => return Outcome::GaveUp,
+                    }
                     let ok = n >= *min as usize;
                     if ok {
                         write(slots, journal, fb, *before, pos);
@@ -776,6 +893,10 @@ impl Pattern {
                         let avail = &rest[..rest.len().min(max)];
                         let n =
                             avail.iter().position(|&b| !t[usize::from(b)]).unwrap_or(avail.len());
+                        match budget.checked_sub(n) {
+                            Some(b) => *budget = b,
+                            None => return Outcome::GaveUp,
+                        }
                         if n < min {
                             false
                         } else {
@@ -864,6 +985,10 @@ impl Pattern {
                     while at > f.b && fails_at(at) {
                         at -= 1;
                     }
+                    match budget.checked_sub(f.a - at) {
+                        Some(b) => *budget = b,
+                        None => return Outcome::GaveUp,
+                    }
                     if fails_at(at) {
                         continue;
                     }
@@ -886,6 +1011,10 @@ impl Pattern {
                         resumed = true;
                         break;
                     }
+                }
+                match budget.checked_sub(at - f.a) {
+                    Some(b) => *budget = b,
+                    None => return Outcome::GaveUp,
                 }
                 if resumed {
                     if count < max {
@@ -977,6 +1106,9 @@ fn lower(insts: &[Inst]) -> Option<Vec<Op>> {
             Inst::Set(s) => Op::Set { set: table(s), before, after },
             Inst::Run { set, min, max, greedy } => {
                 let (follow, nullable) = first_bytes(insts, pc + 1);
+                // After giving bytes back the search is not at the end of the line, so `$`
+                // cannot let the rest match without consuming one of them.
+                let (follow_mid, nullable_mid) = first_bytes_inside(insts, pc + 1);
                 Op::Run {
                     set: table(set),
                     follow: (!nullable).then(|| table(&follow)),
@@ -984,7 +1116,7 @@ fn lower(insts: &[Inst]) -> Option<Vec<Op>> {
                     max: *max,
                     greedy: *greedy,
                     possessive: *greedy
-                        && ((!nullable && set.is_disjoint(&follow))
+                        && ((!nullable_mid && set.is_disjoint(&follow_mid))
                             || surely_matches(insts, pc + 1)),
                     before,
                     after,
@@ -1030,6 +1162,39 @@ fn gate(insts: &[Inst], anchored: bool) -> Gate {
     if nullable { Gate::Any } else { Gate::Col0(first) }
 }
 
+/// The [`Tail`] of a program `... X (\s*)? $ Save(1) Match` where `X` is a `Byte`, a `Set` or
+/// a `Run` with `min >= 1`, and no jump lands after `X` (so every path to `Match` passes
+/// through `X` and then `$`). `None` for anything else.
+fn tail(insts: &[Inst]) -> Option<Tail> {
+    let end = insts.iter().rposition(|i| matches!(i, Inst::Look(Look::End)))?;
+    // After `$`: only the closing saves and `Match`.
+    if !insts[end + 1..].iter().all(|i| matches!(i, Inst::Save(_) | Inst::Match)) {
+        return None;
+    }
+    let mut pc = end;
+    let mut strip = ByteSet::default();
+    let last = loop {
+        pc = pc.checked_sub(1)?;
+        match &insts[pc] {
+            Inst::Save(_) => {}
+            Inst::Run { set, min: 0, .. } if strip == ByteSet::default() => strip = *set,
+            Inst::Run { set, min, .. } if *min >= 1 => break *set,
+            Inst::Set(set) => break *set,
+            Inst::Byte(b) => break ByteSet::single(*b),
+            _ => return None,
+        }
+    };
+    if !last.is_disjoint(&strip) {
+        return None;
+    }
+    let lands_inside = insts.iter().any(|i| match i {
+        Inst::Split(x, y) => (*x as usize) > pc || (*y as usize) > pc,
+        Inst::Jmp(x) => (*x as usize) > pc,
+        _ => false,
+    });
+    (!lands_inside).then_some(Tail { last, strip })
+}
+
 /// Does the program surely match from `pc`, at any position? True when `Match` is reachable
 /// without consuming a byte and without passing an assertion: the backtracker then finds a
 /// match before it would ever return to a choice made earlier, so a greedy run just before
@@ -1059,6 +1224,16 @@ fn surely_matches(insts: &[Inst], pc: usize) -> bool {
 /// The bytes a match can consume first from `pc`, and whether it can reach the end without
 /// consuming any (assertions count as passable: this is an over-approximation).
 fn first_bytes(insts: &[Inst], pc: usize) -> (ByteSet, bool) {
+    first_bytes_with(insts, pc, true)
+}
+
+/// [`first_bytes`] at a position known not to be the end of the line: `$` (and `\z`) cannot
+/// be passed there.
+fn first_bytes_inside(insts: &[Inst], pc: usize) -> (ByteSet, bool) {
+    first_bytes_with(insts, pc, false)
+}
+
+fn first_bytes_with(insts: &[Inst], pc: usize, end_passable: bool) -> (ByteSet, bool) {
     let mut set = ByteSet::default();
     let mut nullable = false;
     let mut seen = vec![false; insts.len()];
@@ -1083,6 +1258,7 @@ fn first_bytes(insts: &[Inst], pc: usize) -> (ByteSet, bool) {
                 todo.push(*y as usize);
             }
             Inst::Jmp(x) => todo.push(*x as usize),
+            Inst::Look(Look::End) if !end_passable => {}
             Inst::Save(_) | Inst::Look(_) => todo.push(pc + 1),
             Inst::Match => nullable = true,
         }
@@ -1476,7 +1652,9 @@ mod tests {
         // Overlapping sets, or an assertion after the run: bytes may have to be given back.
         assert_eq!(count(r"\w+\d"), 0);
         assert_eq!(count(r"a\s*\b"), 0);
-        assert_eq!(count(r"\S+$"), 0);
+        // But `$` never holds once a byte was given back: runs before it keep what they took.
+        assert_eq!(count(r"\S+$"), 1);
+        assert_eq!(count(r"^\s+(?P<n>\w+)\s+(?P<v>\S+)\s+(?P<k>\d+)\s*$"), 7);
         assert!(Pattern::compile(r"^\s+x").expect("compiles").anchored);
     }
 
@@ -1537,6 +1715,21 @@ mod tests {
     }
 
     #[test]
+    fn tails() {
+        let t = |p: &str| Pattern::compile(p).and_then(|p| p.tail());
+        let resid = t(r"^\s+(?P<name>\w+)\s+(?P<v>\S+)\s+(?P<n>\d+)\s*$").expect("a tail");
+        assert!(resid.holds(b"  Ux  1.0e-3  3  "));
+        assert!(!resid.holds(b"  Total ( 1 2 3 )"));
+        assert!(!resid.holds(b"   "));
+        assert!(t(r"^a(b|c)$").is_none(), "a jump lands between the byte and `$`");
+        assert!(t(r"a|a$").is_none(), "a branch reaches the end without `$`");
+        assert!(t(r"^x.*$").is_none(), "nullable last item");
+        assert!(t(r"^x\d+").is_none(), "no `$`");
+        assert!(t(r"^x\s+\s*$").is_none(), "last item overlaps the stripped blanks");
+        assert!(t(r"^\d+x$").is_some_and(|t| t.holds(b"12x") && !t.holds(b"12y")));
+    }
+
+    #[test]
     fn gates() {
         let g = |p: &str| Pattern::compile(p).expect("compiles").gate();
         assert_eq!(g(r"^\[step"), Gate::Col0(ByteSet::single(b'[')));
@@ -1570,6 +1763,18 @@ mod tests {
             for hay in &hays {
                 if re.is_match(hay) {
                     prop_assert!(gate_holds(p.gate(), hay), "{} {:?} on {:?}", pat, p.gate(), hay);
+                }
+            }
+        }
+
+        #[test]
+        fn tails_never_reject_a_match(pat in pattern(), end in 0usize..4, hays in prop::collection::vec(haystack(), 1..6)) {
+            let pat = format!("{pat}{}", [r"$", r"\s*$", r"\d+\s*$", r"[a-c]$"][end]);
+            let Ok(re) = build_regex(&pat) else { return Ok(()) };
+            let Some(p) = Pattern::compile(&pat) else { return Ok(()) };
+            for hay in &hays {
+                if re.is_match(hay) {
+                    prop_assert!(p.tail().is_none_or(|t| t.holds(hay)), "{} {:?} on {:?}", pat, p.tail(), hay);
                 }
             }
         }
