@@ -18,6 +18,7 @@ fn step(it: i64, res: [f64; 6], sweeps: [u32; 6]) -> Step {
         drag: 0.4123,
         lift: 0.0211,
         dp: 153.2,
+        side: None,
         cfl: 5.0,
         notices: vec![],
         warnings: vec![],
@@ -33,6 +34,7 @@ fn header() -> Header {
         zones: 3,
         started: "2026-11-30 08:14:02".into(),
         relaxation: [0.7, 0.3, 0.8, 0.8],
+        model: "k-omega SST",
     }
 }
 
@@ -55,6 +57,7 @@ fn small_run() -> SynthRun {
         end: End::Finished,
         solver_converged: true,
         crash: None,
+        truth: Default::default(),
     }
 }
 

@@ -23,6 +23,13 @@ pub const OSC_MIN_RESIDUAL_DEC: f64 = 0.05;
 /// this fraction of the band limit, i.e. when the oscillation is what breaks the band (ours).
 pub const OSC_MONITOR_BAND_SHARE: f64 = 0.5;
 
+/// A monitor's mean is "near zero" when it is below this share of the monitor's own largest
+/// magnitude in the latest segment (block medians of 5, so one spike does not count); the
+/// automatic reference of drift, band and CI is then this share of that magnitude instead of
+/// the mean: continuous where the two meet, and never smaller than the mean (ours: "an order
+/// of magnitude below what the quantity was during the run").
+pub const NEAR_ZERO_SHARE: f64 = 0.1;
+
 /// Fewest values for an oscillation test.
 pub const OSC_MIN_POINTS: usize = 32;
 
