@@ -11,6 +11,13 @@
 /// CI) always use the configured window (our choice).
 pub const MIN_EVIDENCE_WINDOW: usize = 500;
 
+/// A stall needs the residual flat over at least this many iterations after the start-up
+/// (and over the evidence window if it is longer): pseudo-plateaus while a recirculation
+/// forms last "a hundred or more" iterations (DESIGN §7), in separated flows several hundred;
+/// a stall must outlast them (ours). A finished run that ended flat needs only half of its
+/// segment (no later fall can come).
+pub const STALL_MIN_ITERATIONS: usize = 650;
+
 /// Significance level of the oscillation test per series. 1 % rather than 5 % because a run
 /// has several series and a false "oscillating" costs the user a look (our choice).
 pub const OSC_ALPHA: f64 = 0.01;
@@ -20,8 +27,32 @@ pub const OSC_ALPHA: f64 = 0.01;
 pub const OSC_MIN_RESIDUAL_DEC: f64 = 0.05;
 
 /// A monitor oscillation decides the verdict only when its peak-to-peak amplitude is at least
-/// this fraction of the band limit, i.e. when the oscillation is what breaks the band (ours).
-pub const OSC_MONITOR_BAND_SHARE: f64 = 0.5;
+/// this fraction of the band limit: the oscillation alone breaks the band (ours: "large
+/// against the band limit"; a ±0.2 % ripple inside a 0.5 % band never decides).
+pub const OSC_MONITOR_BAND_SHARE: f64 = 1.0;
+
+/// Monitors whose segment is longer than two evidence windows are also searched for a
+/// periodic component over this many evidence windows (4000 iterations by default), so that a
+/// period of a few hundred iterations shows the five cycles the test needs (ours).
+pub const LONG_LOOKBACK_WINDOWS: usize = 8;
+
+/// A growing oscillation is looked for only with at least this many cycles in the window
+/// (ours: growth measured over fewer cycles is as often a stretch of red noise).
+pub const GROWTH_MIN_CYCLES: f64 = 8.0;
+
+/// Significance level of the spectral peak of a growing oscillation candidate. Looser than
+/// [`OSC_ALPHA`]: a growing component spreads its power and is dominant long before its
+/// peak is significant at 1 %, and the candidate decides only when a second series
+/// corroborates it (ours).
+pub const GROWTH_ALPHA: f64 = 0.05;
+
+/// Growing oscillations of two series with periods within this relative difference are the
+/// same instability (ours).
+pub const GROWTH_SAME_PERIOD: f64 = 0.1;
+
+/// Windows (iterations) over which a growing oscillation is looked for, shortest first (ours:
+/// twenty cycles of a period-3 cycle, and longer for longer periods).
+pub const GROWTH_WINDOWS: [usize; 3] = [60, 120, 240];
 
 /// A monitor's mean is "near zero" when it is below this share of the monitor's own largest
 /// magnitude in the latest segment (block medians of 5, so one spike does not count); the
@@ -55,6 +86,15 @@ pub const BLOWUP_DEC: f64 = 2.0;
 /// Sustained exponential growth of a monitor or indicator: at least this rise over the window
 /// in decades, significantly positive and not slowing down (ours).
 pub const EXP_GROWTH_DEC: f64 = 1.0;
+
+/// The same during the start-up, where a quantity may move from its initial guess by a
+/// modest factor: two decades (ours).
+pub const STARTUP_EXP_GROWTH_DEC: f64 = 2.0;
+
+/// Any time, even during the start-up: this many decades beyond the largest of the segment's
+/// first values is a blow-up ("many orders of magnitude"; a developing flow moves residuals
+/// by a decade or two and monitors by a modest factor; ours).
+pub const STARTUP_BLOWUP_DEC: f64 = 3.0;
 
 /// "Not slowing down": the rise over the last third of the window is at least this fraction
 /// of the rise over the middle third (exponential growth keeps its rate; a ramp-up towards a

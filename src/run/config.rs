@@ -235,6 +235,10 @@ pub fn check_criteria(c: &Criteria) -> Result<(), (String, String)> {
         positive(k("drift"), s.drift)?;
         positive(k("band"), s.band)?;
         positive(k("ci"), s.ci)?;
+        positive(k("scale"), s.scale)?;
+        positive(k("drift_abs"), s.drift_abs)?;
+        positive(k("band_abs"), s.band_abs)?;
+        positive(k("ci_abs"), s.ci_abs)?;
     }
     Ok(())
 }

@@ -505,6 +505,7 @@ mod tests {
             met,
             since: None,
             default: true,
+            ..Default::default()
         };
         Judgement {
             verdict: Verdict::Stalled,
