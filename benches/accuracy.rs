@@ -11,11 +11,13 @@
 //!   prefix given the expected verdict; for runs that crash, also the **lead** — iterations
 //!   from that prefix to the crash (target: at least 30 on every early blow-up);
 //! * **converged delay** (runs labelled `converged`): iterations from the true settling step
-//!   (`Truth::settled`, from the noise-free model) to the first prefix judged `converged`;
+//!   (`Truth::settled`, from the noise-free model) to the first prefix judged `converged`
+//!   (in the latest segment: a restart can undo a convergence called before it);
 //!   the target is at most max(100, 20 % of the run) and never negative ("early" counts the
 //!   runs called converged before the truth);
 //! * **ETA error** (runs whose residuals meet their 3-decade drop, in the run or in its
-//!   continuation): at the prefix halfway to that step, the judge's estimate of the remaining
+//!   continuation): at the prefix halfway to that step (from the start of the latest
+//!   segment), the judge's estimate of the remaining
 //!   iterations (the slowest residual's) against the true remainder, |error| in percent;
 //! * **false alarms** (healthy runs): the share of prefixes judged `diverging`, `stalled` or
 //!   `oscillating` (target 0), and, separately, `suspect`.
@@ -147,6 +149,9 @@ fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: 
     }
 
     let onset_step = run.onset.and_then(|o| run.steps.iter().position(|st| st.iteration >= o));
+    // A restart can undo a convergence called before it: the converged call is looked for
+    // in the latest segment.
+    let seg_start = run.steps.iter().rposition(|st| st.restart_from.is_some()).unwrap_or(0);
     let mut detected: Option<usize> = None;
     let mut first_converged: Option<usize> = None;
     for k in prefixes(&run) {
@@ -160,7 +165,7 @@ fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: 
         {
             detected = Some(k);
         }
-        if v == Verdict::Converged && first_converged.is_none() {
+        if v == Verdict::Converged && first_converged.is_none() && k > seg_start {
             first_converged = Some(k);
         }
         if s.healthy() && !whole {
@@ -198,9 +203,11 @@ fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: 
         }
     }
     if let Some(met) = run.truth.residuals_met
-        && met >= 2 * PREFIX_FROM
+        && met >= seg_start + 2 * PREFIX_FROM
     {
-        let half = met / 2;
+        // Halfway from the start of the latest segment: a restart is an event no estimate
+        // made before it can foresee.
+        let half = seg_start + (met - seg_start) / 2;
         let input = synth::prefix_input(&full, &run, half + 1);
         let j = clock.judge(&input, criteria);
         let truth = (met - half) as f64;

@@ -200,9 +200,9 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                 if !facts.failing.is_empty() {
                     failing_monitors.push(Failing {
                         name: name.to_string(),
-                        criteria: facts.failing,
-                        drift_pct: facts.drift_pct,
                         window: facts.window,
+                        count: facts.failing.len(),
+                        why: facts.why,
                     });
                 }
                 crash_signs.extend(facts.crash_sign);
@@ -287,9 +287,11 @@ fn corroborate_growth(sink: &mut Sink) {
 /// A monitor failing its criteria, for the run-level rules.
 struct Failing {
     name: String,
-    criteria: Vec<&'static str>,
-    drift_pct: f64,
     window: usize,
+    /// The failing criterion in words ("drag drifts +0.3 % of the mean over …").
+    why: String,
+    /// How many of its criteria fail.
+    count: usize,
 }
 
 /// Last touches that need every finding: no estimate of iterations to target while anything
@@ -357,17 +359,6 @@ fn false_convergence(
     last: i64,
     sink: &mut Sink,
 ) {
-    let describe = |m: &Failing| -> String {
-        if m.criteria.contains(&"drift") && m.drift_pct.is_finite() {
-            format!(
-                "drifts {} over the last {} iterations",
-                text::signed_pct(m.drift_pct),
-                m.window
-            )
-        } else {
-            format!("fails its {} limit", m.criteria.join(" and "))
-        }
-    };
     for m in failing {
         if residuals_met {
             let first = met_since.unwrap_or(last).max(last.saturating_sub(m.window as i64 - 1));
@@ -378,12 +369,11 @@ fn false_convergence(
                 last,
                 "monitor_criteria_failed",
             );
-            f.value = m.criteria.len() as f64;
+            f.value = m.count as f64;
             f.supports = Some(Verdict::Suspect);
             f.detail = format!(
-                "every residual criterion is met but {} {}: the solution is still changing",
-                m.name,
-                describe(m)
+                "every residual criterion is met but {}: the solution is still changing",
+                m.why
             );
             sink.findings.push(f);
         }
@@ -408,10 +398,9 @@ fn false_convergence(
         f.value = names.len() as f64;
         f.supports = Some(Verdict::Suspect);
         f.detail = format!(
-            "the solver reached {what} at it {} while {} {}{}",
+            "the solver reached {what} at it {} while {}{}",
             at.min(last),
-            failing[0].name,
-            describe(&failing[0]),
+            failing[0].why,
             if names.len() > 1 {
                 format!(" (and {} more)", names.len() - 1)
             } else {

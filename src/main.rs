@@ -47,8 +47,9 @@ enum Command {
     ///
     /// PATH is a log file, several files of one run (residual log + monitor files), or a
     /// case directory holding settle.toml. The exit code tells the verdict: 0 converged,
-    /// 10 converging, 11 stalled, 12 oscillating, 13 suspect, 14 diverging (1 = error,
-    /// 2 = usage error).
+    /// 10 converging, 11 stalled, 12 oscillating, 13 suspect, 14 diverging (1 = error, also
+    /// when there is nothing to judge: no data, or no parser recognised the file; 2 = usage
+    /// error).
     Check(CheckArgs),
     /// Write a convergence report (HTML, Markdown or JSON, by the extension of -o).
     ///
@@ -492,8 +493,11 @@ fn resolve_run(
     Ok(config::from_files(paths, parser))
 }
 
-fn judge_run(run: &RunStore, criteria: &Criteria) -> Judgement {
-    judge::judge(&run.judge_input(), criteria)
+/// Judge a run that was read to its end; a run with nothing to judge is an error naming why,
+/// never a verdict.
+fn judge_run(run: &RunStore, criteria: &Criteria) -> Result<Judgement> {
+    judge::try_judge(&run.judge_input(), criteria)
+        .map_err(|why| anyhow::anyhow!(view::check::no_verdict(run, &why)))
 }
 
 fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
@@ -503,7 +507,7 @@ fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
     let (run, parsers) = pipeline::read_run(&spec, registry)?;
-    let j = judge_run(&run, &spec.criteria);
+    let j = judge_run(&run, &spec.criteria)?;
     if a.json {
         out(&format!(
             "{}\n",
@@ -529,7 +533,7 @@ fn load_and_judge(
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
     let (run, parsers) = pipeline::read_run(&spec, registry)?;
-    let j = judge_run(&run, &spec.criteria);
+    let j = judge_run(&run, &spec.criteria)?;
     Ok((spec, run, parsers, j))
 }
 

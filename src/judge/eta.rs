@@ -38,12 +38,34 @@ pub fn recent_length(v: &View<'_>, evidence: usize) -> usize {
 }
 
 /// Estimate the iterations until log10 of the residual `v` reaches `target_log10`.
+///
+/// The printed values, not their trend, must stay below the target, so the trend has to
+/// reach [`NOISE_SDS`] standard deviations of the noise about it below the target. And
+/// convergence usually slows down: when the second half of the recent window falls
+/// significantly slower than the first (the difference beyond two standard errors), the
+/// second half's rate is extrapolated.
 pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta> {
     let len = recent_length(v, evidence);
     let win = v.window_map(v.last_it(), len, |x| if x > 0.0 { x.log10() } else { f64::NAN });
-    let t = trend::fit(&win.its, &win.vals)?;
-    let gap = t.fitted_last - target_log10;
-    if !(t.ci.1 < 0.0 && gap > 0.0) {
+    let whole = trend::fit(&win.its, &win.vals)?;
+    // Convergence slows down as it goes on: when the second half of the recent window falls
+    // significantly slower than the first, its rate is the one to extrapolate.
+    let mid = win.its.len() / 2;
+    let first = trend::fit(&win.its[..mid], &win.vals[..mid]);
+    let second = trend::fit(&win.its[mid..], &win.vals[mid..]);
+    let (t, window) = match (first, second) {
+        (Some(a), Some(b))
+            if b.ci.1 < 0.0
+                && b.slope_dec_per_kit > a.slope_dec_per_kit
+                && b.slope_dec_per_kit - a.slope_dec_per_kit
+                    > 2.0 * a.se_dec_per_kit.hypot(b.se_dec_per_kit) =>
+        {
+            (b, len / 2)
+        }
+        _ => (whole, len),
+    };
+    let gap = t.fitted_last - (target_log10 - NOISE_SDS * whole.resid_sd);
+    if !(t.ci.1 < 0.0 && gap > 0.0 && t.fitted_last > target_log10) {
         return None;
     }
     let at = |rate: f64| gap / -rate * 1000.0;
@@ -52,10 +74,14 @@ pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta>
     (iterations.is_finite() && range.0.is_finite() && range.1.is_finite()).then_some(Eta {
         iterations,
         range,
-        window: len,
+        window,
         trend: t,
     })
 }
+
+/// Standard deviations of the noise about the trend the trend must fall below the target
+/// (ours: about two, so that the printed values stay below it).
+pub const NOISE_SDS: f64 = 2.0;
 
 #[cfg(test)]
 mod tests {
@@ -86,6 +112,7 @@ mod tests {
         let v = View::new(&s).expect("non-empty");
         let e = estimate(&v, -4.5, 500).expect("falling");
         assert_eq!(e.window, 250);
+        // The ±0.001-decade alternation puts the target 0.002 decades further: +0.7 it.
         assert!((e.iterations - 1000.0).abs() < 5.0, "{e:?}");
         assert!(e.range.0 <= e.iterations && e.iterations <= e.range.1);
         // Already below the target: nothing to estimate.

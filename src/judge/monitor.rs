@@ -40,6 +40,8 @@ pub struct MonitorFacts {
     pub drift_pct: f64,
     /// Iterations of the window the criteria used.
     pub window: usize,
+    /// What fails, in words (the detail of the first failing criterion's finding).
+    pub why: String,
     pub crash_sign: Option<String>,
 }
 
@@ -321,7 +323,11 @@ pub fn analyse(
         summary.band_pct = s.rel(s.band);
         summary.reference = s.reference.0;
         summary.reference_value = s.reference.1;
+        let before = sink.findings.len();
         drift_findings(name, win, s, rc, &crits, &facts.failing, sink);
+        if let Some(f) = sink.findings.get(before) {
+            facts.why = f.detail.clone();
+        }
         let breaks = facts.failing.iter().any(|c| *c == "drift" || *c == "band");
         if let Some(p) = &per {
             oscillation_finding(name, p, s, rc, breaks, sink);

@@ -219,16 +219,21 @@ fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<eta::Eta>, sink
 /// The stall test: the criteria are unmet, and over the stall window after the start-up the
 /// residual's 95 % upper slope bound is not below −0.1 dec/kit. The window is at least
 /// [`STALL_MIN_ITERATIONS`] (pseudo-plateaus of a developing flow last hundreds of
-/// iterations); a finished run (end-of-run mark) that ended flat needs only half its segment.
+/// iterations); for a finished run (end-of-run mark) the evidence window, or half the segment
+/// of a short run, will do.
 fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: &mut Sink) {
     let last_it = v.last_it();
     let seg_len = last_it.saturating_sub(v.seg_first_it()).saturating_add(1).max(1) as usize;
     let mut w = rc.evidence().max(STALL_MIN_ITERATIONS);
     let mut startup = series::startup_end(v.seg_first_it());
-    if ended && seg_len < w + series::STARTUP_ITERATIONS as usize {
-        // The run is over: no later fall can make this plateau a pseudo-plateau.
-        w = w.min(seg_len / 2);
-        startup = v.seg_first_it().saturating_add((seg_len / 5) as i64);
+    if ended {
+        // The run is over: no later fall can make this plateau a pseudo-plateau, so the
+        // evidence window will do, or half the segment of a short run.
+        w = rc.evidence();
+        if seg_len < w + series::STARTUP_ITERATIONS as usize {
+            w = w.min(seg_len / 2);
+            startup = v.seg_first_it().saturating_add((seg_len / 5) as i64);
+        }
     }
     let win = v
         .window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN })

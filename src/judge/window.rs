@@ -28,7 +28,7 @@
 use super::criteria::Resolved;
 use super::series::{View, Window};
 use super::stationarity;
-use super::stats;
+use super::trend;
 
 /// Fewest iterations of an adaptive window (ours: 20 batch means of at least 2 values, and a
 /// regression over 50 points has a slope standard error small enough for 0.1 %).
@@ -69,7 +69,7 @@ pub fn upper(v: &View<'_>, t: i64, rc: &Resolved) -> usize {
 /// `s₃/s₂ = e^{−Δ/τ}` (`Δ` the distance of the thirds' centres) gives the decay time `τ`, and
 /// the change still to come is about `s₃·τ`. The horizon `τ` is trusted up to
 /// [`HORIZON_WINDOWS`] upper windows only when both slopes stand clearly out of the noise
-/// (four standard errors): otherwise — noise, or a slope that does not shrink — it is the
+/// (four standard errors, widened for autocorrelation as in [`trend::fit`]): otherwise — noise, or a slope that does not shrink — it is the
 /// upper window itself, the change the current slope makes over it, so that noise cannot
 /// project a settled monitor far away. A clear decay is projected with a margin for the
 /// uncertainty of the two slopes (their relative standard errors added), so that an estimate
@@ -80,7 +80,7 @@ pub struct Projection {
     pub remaining: f64,
     /// The value the monitor is heading for.
     pub limit: f64,
-    /// The slope shrinks from the middle to the last third (a decay was seen).
+    /// The slope shrinks significantly from the middle to the last third (a decay was seen).
     pub decaying: bool,
 }
 
@@ -94,23 +94,24 @@ pub fn project(outer: &Window) -> Option<Projection> {
     if n < 30 {
         return None;
     }
-    let x = outer.its_f64();
     let third = n / 3;
-    let mid = stats::ols(&x[n - 2 * third..n - third], &outer.vals[n - 2 * third..n - third])?;
-    let last = stats::ols(&x[n - third..], &outer.vals[n - third..])?;
-    let (s2, s3) = (mid.slope, last.slope);
-    let gap = last.x_mean - mid.x_mean;
+    let (a, b) = (n - 2 * third, n - third);
+    // Slopes with standard errors that allow for the autocorrelation of monitor noise.
+    let mid = trend::fit(&outer.its[a..b], &outer.vals[a..b])?;
+    let last = trend::fit(&outer.its[b..], &outer.vals[b..])?;
+    let (s2, s3) = (mid.slope_dec_per_kit / 1000.0, last.slope_dec_per_kit / 1000.0);
+    let (e2, e3) = (mid.se_dec_per_kit / 1000.0, last.se_dec_per_kit / 1000.0);
+    let centre = |its: &[i64]| its.iter().map(|&i| i as f64).sum::<f64>() / its.len() as f64;
+    let gap = centre(&outer.its[b..]) - centre(&outer.its[a..b]);
     let span = outer.span() as f64 + outer.spacing();
-    let decaying = s2 * s3 > 0.0 && s3.abs() < s2.abs() && gap > 0.0;
-    let clear = s2.abs() > 4.0 * mid.se_slope && s3.abs() > 4.0 * last.se_slope;
+    // A decay must be more than noise: the slope shrank by more than two standard errors of
+    // the difference (a steady creep keeps its slope).
+    let decaying = s2 * s3 > 0.0 && s2.abs() - s3.abs() > 2.0 * e2.hypot(e3) && gap > 0.0;
+    let clear = s2.abs() > 4.0 * e2 && s3.abs() > 4.0 * e3;
     let cap = if clear { HORIZON_WINDOWS * span } else { span };
     let horizon = if decaying { (gap / (s2 / s3).ln()).min(cap) } else { span };
-    let margin = if clear && decaying {
-        1.0 + last.se_slope / s3.abs() + mid.se_slope / s2.abs()
-    } else {
-        1.0
-    };
-    let end = last.at(0.0);
+    let margin = if clear && decaying { 1.0 + e3 / s3.abs() + e2 / s2.abs() } else { 1.0 };
+    let end = last.fitted_last;
     let remaining = s3 * horizon * margin;
     Some(Projection { remaining, limit: end + remaining, decaying })
 }
