@@ -16,8 +16,8 @@
 //!   the target is at most max(100, 20 % of the run) and never negative ("early" counts the
 //!   runs called converged before the truth);
 //! * **ETA error** (runs whose residuals meet their 3-decade drop, in the run or in its
-//!   continuation): at the prefix halfway to that step (from the start of the latest
-//!   segment), the judge's estimate of the remaining
+//!   continuation, without a restart between the halfway point and that step): at the
+//!   prefix halfway to that step, the judge's estimate of the remaining
 //!   iterations (the slowest residual's) against the true remainder, |error| in percent;
 //! * **false alarms** (healthy runs): the share of prefixes judged `diverging`, `stalled` or
 //!   `oscillating` (target 0), and, separately, `suspect`.
@@ -202,12 +202,13 @@ fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: 
             None => row.conv_never += 1,
         }
     }
+    // Halfway to the step the residuals meet their drop; not when a restart falls between
+    // the halfway point and that step (an event no estimate made before it can foresee).
     if let Some(met) = run.truth.residuals_met
-        && met >= seg_start + 2 * PREFIX_FROM
+        && met >= 2 * PREFIX_FROM
+        && !(seg_start > met / 2 && seg_start <= met)
     {
-        // Halfway from the start of the latest segment: a restart is an event no estimate
-        // made before it can foresee.
-        let half = seg_start + (met - seg_start) / 2;
+        let half = met / 2;
         let input = synth::prefix_input(&full, &run, half + 1);
         let j = clock.judge(&input, criteria);
         let truth = (met - half) as f64;

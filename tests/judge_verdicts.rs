@@ -943,9 +943,9 @@ fn the_estimate_to_target_comes_from_the_recent_rate_with_a_range() {
     assert!((450.0..600.0).contains(&eta), "{eta}\n{}", explain(&j));
     let (lo, hi) = r.eta_range.expect("range");
     assert!(lo <= eta && eta <= hi && hi - lo > 1.0, "{lo} {hi}");
-    // The recent quarter of the segment (250 iterations), or its second half when that
-    // falls significantly slower.
-    assert!(matches!(r.eta_window, Some(250) | Some(125)), "{r:?}");
+    // The recent half of the segment (500 iterations) holds the change of rate at it 600:
+    // the rate of its second half (250) is extrapolated.
+    assert_eq!(r.eta_window, Some(250), "{r:?}");
     // A flat, noisy residual has no estimate: its rate's interval includes zero.
     let mut rng = Rng(331);
     let flat = Run::new().add(

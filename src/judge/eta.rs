@@ -14,8 +14,8 @@ use super::series::View;
 use super::trend::{self, Trend};
 
 /// Share of the latest segment (so far) whose rate is extrapolated (ours: recent enough to
-/// leave the start-up and early plateaus out, long enough to average the noise).
-pub const RECENT_SHARE: f64 = 0.25;
+/// leave most of the start-up out, long enough to average the noise of the residuals).
+pub const RECENT_SHARE: f64 = 0.5;
 
 /// Fewest iterations the rate is measured over (ours).
 pub const MIN_RECENT: usize = 40;
@@ -40,31 +40,29 @@ pub fn recent_length(v: &View<'_>, evidence: usize) -> usize {
 /// Estimate the iterations until log10 of the residual `v` reaches `target_log10`.
 ///
 /// The printed values, not their trend, must stay below the target, so the trend has to
-/// reach [`NOISE_SDS`] standard deviations of the noise about it below the target. And
-/// convergence usually slows down: when the second half of the recent window falls
-/// significantly slower than the first (the difference beyond two standard errors), the
-/// second half's rate is extrapolated.
+/// reach [`NOISE_SDS`] standard deviations of the noise about it below the target. And when
+/// the rate of the second half of the recent window differs from the first by more than two
+/// standard errors of the difference, the second half's rate is extrapolated.
 pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta> {
     let len = recent_length(v, evidence);
     let win = v.window_map(v.last_it(), len, |x| if x > 0.0 { x.log10() } else { f64::NAN });
     let whole = trend::fit(&win.its, &win.vals)?;
-    // Convergence slows down as it goes on: when the second half of the recent window falls
-    // significantly slower than the first, its rate is the one to extrapolate.
+    // When the rate changed significantly within the recent window (convergence slowing
+    // down, or picking up after a plateau), the rate of its second half is the recent one.
     let mid = win.its.len() / 2;
     let first = trend::fit(&win.its[..mid], &win.vals[..mid]);
     let second = trend::fit(&win.its[mid..], &win.vals[mid..]);
     let (t, window) = match (first, second) {
         (Some(a), Some(b))
             if b.ci.1 < 0.0
-                && b.slope_dec_per_kit > a.slope_dec_per_kit
-                && b.slope_dec_per_kit - a.slope_dec_per_kit
+                && (b.slope_dec_per_kit - a.slope_dec_per_kit).abs()
                     > 2.0 * a.se_dec_per_kit.hypot(b.se_dec_per_kit) =>
         {
             (b, len / 2)
         }
         _ => (whole, len),
     };
-    let gap = t.fitted_last - (target_log10 - NOISE_SDS * whole.resid_sd);
+    let gap = t.fitted_last - (target_log10 - NOISE_SDS * t.resid_sd);
     if !(t.ci.1 < 0.0 && gap > 0.0 && t.fitted_last > target_log10) {
         return None;
     }
@@ -111,6 +109,7 @@ mod tests {
         };
         let v = View::new(&s).expect("non-empty");
         let e = estimate(&v, -4.5, 500).expect("falling");
+        // The recent half (its 501–1000) holds the change of rate at it 600: its second half.
         assert_eq!(e.window, 250);
         // The ±0.001-decade alternation puts the target 0.002 decades further: +0.7 it.
         assert!((e.iterations - 1000.0).abs() < 5.0, "{e:?}");

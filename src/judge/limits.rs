@@ -11,12 +11,13 @@
 /// CI) always use the configured window (our choice).
 pub const MIN_EVIDENCE_WINDOW: usize = 500;
 
-/// A stall needs the residual flat over at least this many iterations after the start-up
-/// (and over the evidence window if it is longer): pseudo-plateaus while a recirculation
-/// forms last "a hundred or more" iterations (DESIGN §7), in separated flows several hundred;
-/// a stall must outlast them (ours). A finished run that ended flat needs only half of its
-/// segment (no later fall can come).
-pub const STALL_MIN_ITERATIONS: usize = 650;
+/// A live run's stall needs the residual flat over at least this many iterations after the
+/// start-up (and over the evidence window if it is longer): pseudo-plateaus while a
+/// recirculation forms last "a hundred or more" iterations (DESIGN §7), in separated flows up
+/// to about 600, and the bends into and out of them add to that; a stall must outlast them
+/// (ours). A finished run (end-of-run mark) needs only the evidence window: no later fall can
+/// come.
+pub const STALL_MIN_ITERATIONS: usize = 800;
 
 /// Significance level of the oscillation test per series. 1 % rather than 5 % because a run
 /// has several series and a false "oscillating" costs the user a look (our choice).
@@ -60,6 +61,11 @@ pub const GROWTH_WINDOWS: [usize; 3] = [60, 120, 240];
 /// the mean: continuous where the two meet, and never smaller than the mean (ours: "an order
 /// of magnitude below what the quantity was during the run").
 pub const NEAR_ZERO_SHARE: f64 = 0.1;
+
+/// A residual oscillation decides only with at least this many cycles in its window: at the
+/// five the spectrum test needs, slow red noise on a plateau passes for a cycle of a fifth
+/// of the window too often (ours).
+pub const OSC_MIN_CYCLES_TO_DECIDE: f64 = 6.0;
 
 /// Fewest values for an oscillation test.
 pub const OSC_MIN_POINTS: usize = 32;

@@ -156,7 +156,19 @@ pub fn analyse(
         // crest of the oscillation around the fitted level is above the target.
         let crest_above = |amp: f64| tr.is_none_or(|t| t.fitted_last + amp > target.log10());
         let may_decide = |amp: f64| !falling && (!met || crest_above(amp));
-        oscillation_finding(name, &post, rc.window as f64, may_decide, sink);
+        // Too few cycles of a long period in the evidence window: look back over twice it
+        // (still after the start-up), where a real limit cycle shows more of them.
+        let cycles_in = |p: &oscillation::Periodic| (p.last - p.first) as f64 / p.period;
+        let near = oscillation::find(&post);
+        let far =
+            near.as_ref().filter(|p| cycles_in(p) < OSC_MIN_CYCLES_TO_DECIDE).and_then(|_| {
+                let long = v
+                    .window_map(last_it, 2 * w, to_log)
+                    .from_iteration(series::startup_end(v.seg_first_it()));
+                (long.span() > post.span() + w as i64 / 5).then_some(long)
+            });
+        let win = far.as_ref().unwrap_or(&post);
+        oscillation_finding(name, win, rc.window as f64, may_decide, sink);
     }
     frozen(name, v, sink);
     step_drop(name, v, &lv, drop, rc.drop.value, drop_since.is_some(), sink);
@@ -439,7 +451,11 @@ fn oscillation_finding(
         return;
     }
     let material = o.amplitude >= OSC_MIN_RESIDUAL_DEC;
-    let decisive = material && p.sustained_and_dominant(horizon) && may_decide(o.amplitude);
+    let cycles = (p.last.saturating_sub(p.first)) as f64 / p.period;
+    let decisive = material
+        && cycles >= OSC_MIN_CYCLES_TO_DECIDE
+        && p.sustained_and_dominant(horizon)
+        && may_decide(o.amplitude);
     let note = if decisive {
         ""
     } else if p.ring_down(horizon) {
@@ -448,6 +464,8 @@ fn oscillation_finding(
         ", a weak ripple in broadband noise"
     } else if !material {
         ", too small to matter"
+    } else if cycles < OSC_MIN_CYCLES_TO_DECIDE {
+        ", too few cycles in the window to tell it from slow noise"
     } else {
         ""
     };

@@ -605,11 +605,16 @@ impl Sim<'_> {
                 + wander
                 + restart_jump;
             let fnoise = self.floor_noise[e].next(&mut self.rng);
-            let floor = p.floor.unwrap_or(c.floor_level) + eq.floor_spread + c.floor_sd * fnoise;
+            // A noisy floor grows its noise in with the others (the first value stays 1).
+            let floor_sd = if p.zero_sweeps { c.floor_sd * ramp_noise } else { c.floor_sd };
+            let floor = p.floor.unwrap_or(c.floor_level) + eq.floor_spread + floor_sd * fnoise;
             on_floor[e] = p.floor.is_some() && l < floor - 0.3;
             l = log_add(l, floor);
-            if let Some(cap) = p.res_cap {
-                // Normalised residuals saturate: a smooth minimum with the cap.
+            if let Some(cap) = p.res_cap
+                && p.cycle.as_ref().is_some_and(|cy| x >= cy.onset)
+            {
+                // Normalised residuals saturate once the instability grows: a smooth minimum
+                // with the cap (before it the first value stays exactly 1).
                 l = -log_add(-l, -cap);
             }
             let mut v = clamp_mag(10f64.powf(l.min(300.0)));

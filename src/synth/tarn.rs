@@ -44,7 +44,11 @@ pub fn render_banner(run: &SynthRun) -> String {
     let _ = writeln!(s, "case       : {}", run.case);
     let _ = writeln!(s, "mesh       : {} cells, {} zones", h.cells, h.zones);
     let _ = writeln!(s, "started    : {}", h.started);
-    let _ = writeln!(s, "relaxation : U {}  p {}  k {}  omega {}", r[0], r[1], r[2], r[3]);
+    if h.model == "laminar" {
+        let _ = writeln!(s, "relaxation : U {}  p {}", r[0], r[1]);
+    } else {
+        let _ = writeln!(s, "relaxation : U {}  p {}  k {}  omega {}", r[0], r[1], r[2], r[3]);
+    }
     let _ = writeln!(s, "{}", "-".repeat(SEPARATOR_WIDTH));
     s
 }
