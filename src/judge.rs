@@ -1,7 +1,7 @@
 //! The judge: pure functions from series to findings, criteria results and a verdict.
 //!
 //! It never reads files and never draws; `check`, `watch` and `report` call the same
-//! [`judge`] function. The methods are published ones (DESIGN §7, METHODS.md), each in its
+//! [`judge`] function. The methods are published ones (cited in each module and in the README), each in its
 //! own module:
 //!
 //! * [`stats`]: two-pass mean/SD, lag-1 autocorrelation, centred OLS, Student-t (statrs);
@@ -10,35 +10,48 @@
 //! * [`stationarity`]: MSER/MSER-5, batch means, integrated autocorrelation time, drift, band;
 //! * [`iterative`]: Aitken Δ² and the eigenvalue (ratio of successive differences) estimate;
 //! * [`criteria`]: the criteria in effect per series and `since` bookkeeping;
+//! * [`window`]: the monitor window fitted to the run, and where a monitor is heading;
+//! * [`scale`]: the reference of a monitor's relative criteria, round-off-only monitors;
+//! * [`oscillation`]: dominance, lasting amplitude and growth of a periodic component;
+//! * [`eta`]: iterations to target from the recent rate, with a range;
 //! * [`verdict`]: the precedence that turns findings into a verdict;
 //! * [`limits`]: the fixed thresholds at which a statistic becomes a finding, with reasons.
 //!
 //! Per-role analyses (`residual`, `monitor`, `health`, `events`) combine them.
+//! [`try_judge`] says why a run has nothing to judge (no verdict then); [`judge`] keeps the
+//! simple signature for live callers.
 //!
 //! # Decisions
 //!
 //! * **Segments.** Everything windowed looks at the latest segment (after the last restart);
 //!   the residual drop is measured from the peak of the whole run, so a restart does not
 //!   reset what was achieved; `since` dates stay inside the latest segment.
-//! * **Windows.** Monitor criteria (drift, band, CI) use the configured window `W` (default
-//!   500 iterations). The stall, divergence, oscillation and blow-up tests use an evidence
-//!   window of `max(W, 500)` ([`limits::MIN_EVIDENCE_WINDOW`]). The first 200 iterations of a
-//!   segment are its start-up ([`series::STARTUP_ITERATIONS`]): growth there is not
-//!   divergence and a plateau there is not a stall.
+//! * **Windows.** Monitor criteria use a window fitted to the run ([`window`]): at most the
+//!   configured `W` (default 500) and half of a short segment, the part after the start-up
+//!   transient (MSER-5, or where a monitor still on its way comes within tolerance), at
+//!   least 50 iterations and two periods of a cycle; an explicit `window` is used as given.
+//!   The stall, divergence, oscillation and blow-up tests use an evidence window of
+//!   `max(W, 500)` ([`limits::MIN_EVIDENCE_WINDOW`]). The first 200 iterations of a segment
+//!   are its start-up ([`series::STARTUP_ITERATIONS`]): a rise of a decade or two there is
+//!   not divergence, and the stall test starts after it.
 //! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
-//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend covers 90 % of the evidence
-//!   window, and its 95 % upper bound is not below −0.1 dec/kit. Divergence: a significant
-//!   rise of ≥ 1 decade over the evidence window, a significant rise of ≥ 2 decades over its
-//!   last fifth, or 3 decades above the running minimum. Oscillation: Fisher's g at 1 %,
-//!   steady over both half windows, semi-amplitude ≥ 0.05 decades; it decides when the
-//!   residual is not falling and its criteria fail (also when met only at a trough).
-//! * **Monitors.** Drift = slope × `W` / |mean|, band = (max − min) / |mean|, over the whole
-//!   final window; MSER-5 only picks the part the mean and its CI describe. An oscillation
-//!   decides when drift or band fail and its peak-to-peak amplitude is at least half the band
-//!   limit; a small oscillation inside the limits never blocks convergence.
+//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (a live
+//!   run) or the evidence window (a finished one) has a 95 % upper bound not below −0.1
+//!   dec/kit. Divergence: a significant rise of ≥ 1 decade over the evidence window, of ≥ 2
+//!   decades over its last fifth, 3 decades above the running minimum, or — any time — 3
+//!   decades beyond the first values while still shooting up. Oscillation: Fisher's g at 1 %,
+//!   dominant, lasting, ≥ 0.05 decades, six cycles in view; it decides when the residual is
+//!   not falling and its criteria fail (also when met only at a trough).
+//! * **Monitors.** Drift = the larger of the trend's change over the window and the change
+//!   it still projects; band = max − min; both relative to the reference ([`scale`]) or
+//!   absolute. An oscillation decides when drift or band fail, it dominates and lasts, and
+//!   its peak-to-peak amplitude alone reaches the band limit.
 //! * **Blow-up** (monitors and indicators): 2 decades above the reference level, sustained
-//!   exponential growth of ≥ 1 decade, or (indicators) pinned at a maximum ≥ 5× the usual
-//!   level. Non-finite values after the start-up, or as the last value, are divergence.
+//!   exponential growth of ≥ 1 decade (2 in the start-up), 3 decades beyond the first values
+//!   while still shooting up, or (indicators) pinned at a maximum ≥ 5× the usual level.
+//!   Non-finite values after the start-up, or as the last value, are divergence. A growing
+//!   oscillation decides when two series grow with the same period.
+//! * **Estimates to target** are dropped while anything argues for divergence.
 //! * **False convergence.** Residual criteria met while a monitor fails; the solver's own
 //!   end or `converged` mark while a monitor fails; a residual repeating one value 20 times
 //!   at the end; a one-step drop of ≥ 3 decades that the drop criterion depends on; a drop
@@ -47,11 +60,12 @@
 //!   the run diverging when there were signs (a diverging finding, or a monitor or indicator
 //!   jumping ×2 — a residual ×10 — or collapsing in its last values); otherwise it is
 //!   reported without deciding.
+//! * **Evidence ranges** stay inside the data, and `since` is never after the last iteration.
 //!
 //! Every windowed test looks at a bounded window (at most [`series::MAX_WINDOW_POINTS`]
-//! values); the whole-run work is a few cheap O(n) passes (peak, non-finite values, the
-//! backward scan that dates the residual criteria), so a judgement costs about the same at
-//! iteration 1 000 and at iteration 1 000 000.
+//! values, at most eight evidence windows for the long-period search); the whole-run work is
+//! a few cheap O(n) passes (peak, non-finite values, the running largest magnitude of a
+//! monitor, the backward scan that dates the residual criteria).
 
 // NaN must fail every threshold test here; `!(x > t)` says that directly, the
 // `partial_cmp` spelling clippy suggests hides it.

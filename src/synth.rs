@@ -2,7 +2,7 @@
 //!
 //! [`generate`] builds a deterministic history for a [`Scenario`] and a seed: residuals,
 //! sweep counts, continuity, force monitors, CFL, clipping notices and the way the run
-//! ends. The histories follow the facts of DESIGN §7 (normalised residuals starting at 1,
+//! ends. The histories follow the facts of real solver runs (normalised residuals starting at 1,
 //! AR(1)-correlated noise, start-up transients, linear-solver floors, sweep limits when
 //! diverging) and vary by seed in length, rates, noise, onset and period, so that an
 //! accuracy benchmark over many seeds means something. Every number here is invented.

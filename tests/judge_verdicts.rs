@@ -1,5 +1,5 @@
 //! Verdicts on small synthetic runs generated here (seeded). The histories imitate what real
-//! solvers print (DESIGN §7): normalised residuals starting at 1, a start-up rise, noise in
+//! solvers print: normalised residuals starting at 1, a start-up rise, noise in
 //! log space with AR(1) autocorrelation, a floor set by the linear solver, monitors that
 //! settle exponentially with correlated noise. The numbers are invented for these scenarios.
 
@@ -1195,4 +1195,57 @@ fn criterion_values_never_round_across_their_threshold() {
     assert_eq!(c(0.10004, false, Comparison::AtMost, "%").value_text(), "0.101");
     assert_eq!(c(0.0999, true, Comparison::AtMost, "%").value_text(), "0.099");
     assert_eq!(c(f64::NAN, false, Comparison::AtMost, "%").value_text(), "n/a");
+}
+
+#[test]
+fn the_same_log_read_at_once_or_line_by_line_gets_the_same_judgement() {
+    // A tarn log (our invented solver) through the shipped tarn definition: once in one
+    // batch, once applied to the store line by line with a judgement after every 50 lines
+    // (as a watcher does). The final judgements must be identical, `since` included.
+    use settle::parser::Registry;
+    use settle::run::{RunStore, SourceStore};
+    use settle::synth::{self, Options, Scenario};
+    let registry = Registry::builtin();
+    let def = registry.get("tarn").expect("shipped tarn definition");
+    for (scenario, seed) in [(Scenario::Converging, 3), (Scenario::CrashNoNan, 5)] {
+        let run =
+            synth::generate_with(scenario, seed, &Options { iterations: Some(900), case: None });
+        let mut text = Vec::new();
+        synth::write_tarn_log(&run, &mut text).expect("write to memory");
+        let lines: Vec<&[u8]> = text.split(|&b| b == b'\n').filter(|l| !l.is_empty()).collect();
+
+        let mut whole = def.parser();
+        let mut out = Vec::new();
+        for l in &lines {
+            whole.feed(l, &mut out);
+        }
+        whole.finish(&mut out);
+        let mut at_once = SourceStore::new("tarn.log", "tarn");
+        at_once.apply(out);
+
+        let mut grown_parser = def.parser();
+        let mut grown = SourceStore::new("tarn.log", "tarn");
+        for (i, l) in lines.iter().enumerate() {
+            let mut out = Vec::new();
+            grown_parser.feed(l, &mut out);
+            grown.apply(out);
+            if i % 50 == 0 {
+                let mut store = RunStore::new("r");
+                store.sources.push(grown.clone());
+                let _ = judge(&store.judge_input(), &Criteria::default());
+            }
+        }
+        let mut out = Vec::new();
+        grown_parser.finish(&mut out);
+        grown.apply(out);
+
+        let judged = |src: SourceStore| {
+            let mut store = RunStore::new("r");
+            store.sources.push(src);
+            judge(&store.judge_input(), &Criteria::default())
+        };
+        let (a, b) = (judged(at_once), judged(grown));
+        assert_eq!(a, b, "{scenario}");
+        assert_eq!(a.verdict, scenario.expected(), "{scenario}\n{}", explain(&a));
+    }
 }

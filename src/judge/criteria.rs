@@ -1,6 +1,6 @@
 //! The criteria in effect for each series, and the bookkeeping of criterion results.
 //!
-//! Defaults are common practice, not law (DESIGN §7): a residual must drop at least 3 decades
+//! Defaults are common practice, not law: a residual must drop at least 3 decades
 //! from its peak; a monitor must stay within 0.1 % drift and 0.5 % band over the last 500
 //! iterations; an absolute residual level and a confidence-interval limit apply only when the
 //! user sets them.

@@ -2,7 +2,7 @@
 //! orders of magnitude, sustained exponential growth, an indicator pinned at its maximum, and
 //! the jump of the last values that makes a crash signature a divergence.
 //!
-//! Blow-ups do not always show in residuals (DESIGN §7): they saturate near 1 or collapse to
+//! Blow-ups do not always show in residuals: they saturate near 1 or collapse to
 //! tiny values, while monitors, continuity errors and sweep counts explode. These rules are
 //! what lets monitors and indicators make a run `diverging`.
 //!

@@ -2,19 +2,19 @@
 //!
 //! These are not user criteria (those live in [`super::types::Criteria`]) but the levels at
 //! which a statistic becomes a finding. Where no published value exists the number is our
-//! choice, made by reasoning about real solver histories (DESIGN §7), not tuned to test
+//! choice, made by reasoning about real solver histories , not tuned to test
 //! series; each says so.
 
 /// Fewest iterations the stall, divergence, oscillation and blow-up tests look at, whatever
 /// the criteria window: pseudo-plateaus last a hundred iterations and more, and limit cycles
-/// of tens of iterations need several cycles (DESIGN §7). The criteria themselves (drift, band,
+/// of tens of iterations need several cycles. The criteria themselves (drift, band,
 /// CI) always use the configured window (our choice).
 pub const MIN_EVIDENCE_WINDOW: usize = 500;
 
 /// A live run's stall needs the residual flat over at least this many iterations after the
 /// start-up (and over the evidence window if it is longer): pseudo-plateaus while a
-/// recirculation forms last "a hundred or more" iterations (DESIGN §7), in separated flows up
-/// to about 600, and the bends into and out of them add to that; a stall must outlast them
+/// recirculation forms last "a hundred or more" iterations, in separated flows up to about
+/// 600, and the bends into and out of them add to that; a stall must outlast them
 /// (ours). A finished run (end-of-run mark) needs only the evidence window: no later fall can
 /// come.
 pub const STALL_MIN_ITERATIONS: usize = 800;
@@ -81,12 +81,12 @@ pub const DIVERGE_MIN_RISE_DEC: f64 = 1.0;
 pub const DIVERGE_FAST_RISE_DEC: f64 = 2.0;
 
 /// Divergence when a residual stands this many decades above its running minimum after the
-/// start-up, over the last 20 evidence windows (METHODS §6: "residual > 10²–10³ × its running
-/// minimum"; we take the upper end).
+/// start-up, over the last 20 evidence windows (the common rule of thumb "residual > 10²–10³ × its
+/// running minimum", common practice; we take the upper end).
 pub const DIVERGE_ABOVE_MIN_DEC: f64 = 3.0;
 
 /// Monitor or indicator "grows by orders of magnitude": this many decades above its reference
-/// level (DESIGN §7 wording; two orders is our reading).
+/// level ("orders of magnitude": two is our reading).
 pub const BLOWUP_DEC: f64 = 2.0;
 
 /// Sustained exponential growth of a monitor or indicator: at least this rise over the window

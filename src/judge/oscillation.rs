@@ -141,10 +141,18 @@ pub fn find(win: &Window) -> Option<Periodic> {
     let (its, vals) = odd(win);
     let osc = spectrum::find_oscillation(vals)?;
     let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
-    let detrended = stats::quadratic_residuals(vals);
-    let share = band_share(&detrended, osc.k);
-    let envelope = envelope(&detrended, 1.0 / osc.period, 0, detrended.len())
-        .map(|e| Envelope { slope_per_iteration: e.slope / spacing.max(f64::MIN_POSITIVE), ..e });
+    // Dominance and envelope matter only for a candidate that could be significant at the
+    // loosest level any caller uses (5 %); the others are described by the spectrum alone.
+    let (share, envelope) = if osc.p_value < 0.05 {
+        let detrended = stats::quadratic_residuals(vals);
+        let share = band_share(&detrended, osc.k);
+        let envelope = envelope(&detrended, 1.0 / osc.period, 0, detrended.len()).map(|e| {
+            Envelope { slope_per_iteration: e.slope / spacing.max(f64::MIN_POSITIVE), ..e }
+        });
+        (share, envelope)
+    } else {
+        (0.0, None)
+    };
     Some(Periodic {
         osc,
         period: osc.period * spacing,
@@ -179,8 +187,9 @@ pub fn band_share(x: &[f64], k: usize) -> f64 {
         if kh == 0 {
             continue;
         }
-        for b in kh.saturating_sub(width).max(1)..=(kh + width).min(m) {
-            take[b] = true;
+        let (lo, hi) = (kh.saturating_sub(width).max(1), (kh + width).min(m));
+        if lo <= hi {
+            take[lo..=hi].iter_mut().for_each(|t| *t = true);
         }
     }
     let inside: f64 = (1..=m).filter(|&b| take[b]).map(|b| ord[b]).sum();
@@ -222,11 +231,14 @@ pub fn envelope(x: &[f64], f: f64, from: usize, to: usize) -> Option<Envelope> {
             seg.iter().enumerate().map(|(i, v)| (i as f64 - t_mean) * (v - v_mean)).sum();
         let slope = sxy / sxx;
         let (mut re, mut im) = (0.0, 0.0);
+        // cos/sin by rotation from the block's first phase (blocks are short: no drift).
+        let (sw, cw) = w.sin_cos();
+        let (mut sn, mut cs) = (w * a as f64).sin_cos();
         for (i, v) in seg.iter().enumerate() {
-            let ph = w * (a + i) as f64;
             let r = v - v_mean - slope * (i as f64 - t_mean);
-            re += r * ph.cos();
-            im += r * ph.sin();
+            re += r * cs;
+            im += r * sn;
+            (cs, sn) = (cs * cw - sn * sw, sn * cw + cs * sw);
         }
         let amp = 2.0 * re.hypot(im) / block as f64;
         if amp > 0.0 && amp.is_finite() {

@@ -130,7 +130,7 @@ pub fn analyse(
     }
 
     // Trend over the window of the latest segment, without its start-up once there is enough
-    // after it: a pseudo-plateau or a start-up rise must not pass for a stall (DESIGN §7).
+    // after it: a pseudo-plateau or a start-up rise must not pass for a stall.
     let w = rc.evidence();
     let to_log = |x: f64| if x > 0.0 { x.log10() } else { f64::NAN };
     let win = v.window_map(last_it, w, to_log);

@@ -154,7 +154,7 @@ impl<'s> View<'s> {
 /// Length of the start-up in iterations at the beginning of every segment.
 ///
 /// Residuals often rise in the first tens to hundreds of iterations while the flow develops,
-/// and monitors ramp up from zero (DESIGN §7): a rise of a decade or two there is not
+/// and monitors ramp up from zero: a rise of a decade or two there is not
 /// divergence. 200 is our reading of "tens to hundreds". The allowance excuses only that:
 /// growth by many orders of magnitude against the segment's first values, an indicator
 /// pinned at its maximum, sustained exponential growth and a growing oscillation are

@@ -37,7 +37,7 @@ pub struct RunInput<'a> {
     pub ended_at: Option<i64>,
 }
 
-/// The state of a run (DESIGN §4). Lowercase in JSON and on the command line.
+/// The state of a run. Lowercase in JSON and on the command line.
 #[derive(
     Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default, PartialOrd, Ord,
 )]

@@ -28,7 +28,7 @@
 use super::criteria::Resolved;
 use super::series::{View, Window};
 use super::stationarity;
-use super::trend;
+use super::stats;
 
 /// Fewest iterations of an adaptive window (ours: 20 batch means of at least 2 values, and a
 /// regression over 50 points has a slope standard error small enough for 0.1 %).
@@ -65,11 +65,12 @@ pub fn upper(v: &View<'_>, t: i64, rc: &Resolved) -> usize {
 ///
 /// A monitor approaching its value geometrically (error `e·λ^i`, the picture behind the
 /// eigenvalue estimate of Ferziger & Perić) has a slope that shrinks by the same factor over
-/// equal spans: with least-squares slopes `s₂` over the middle and `s₃` over the last third,
+/// equal spans: with least-squares slopes `s₁`, `s₂`, `s₃` over the three thirds (one sign,
+/// shrinking from third to third, the last step beyond two standard errors),
 /// `s₃/s₂ = e^{−Δ/τ}` (`Δ` the distance of the thirds' centres) gives the decay time `τ`, and
 /// the change still to come is about `s₃·τ`. The horizon `τ` is trusted up to
 /// [`HORIZON_WINDOWS`] upper windows only when both slopes stand clearly out of the noise
-/// (four standard errors, widened for autocorrelation as in [`trend::fit`]): otherwise — noise, or a slope that does not shrink — it is the
+/// (four standard errors, widened for autocorrelation): otherwise — noise, or a slope that does not shrink — it is the
 /// upper window itself, the change the current slope makes over it, so that noise cannot
 /// project a settled monitor far away. A clear decay is projected with a margin for the
 /// uncertainty of the two slopes (their relative standard errors added), so that an estimate
@@ -96,24 +97,42 @@ pub fn project(outer: &Window) -> Option<Projection> {
     }
     let third = n / 3;
     let (a, b) = (n - 2 * third, n - third);
-    // Slopes with standard errors that allow for the autocorrelation of monitor noise.
-    let mid = trend::fit(&outer.its[a..b], &outer.vals[a..b])?;
-    let last = trend::fit(&outer.its[b..], &outer.vals[b..])?;
-    let (s2, s3) = (mid.slope_dec_per_kit / 1000.0, last.slope_dec_per_kit / 1000.0);
-    let (e2, e3) = (mid.se_dec_per_kit / 1000.0, last.se_dec_per_kit / 1000.0);
-    let centre = |its: &[i64]| its.iter().map(|&i| i as f64).sum::<f64>() / its.len() as f64;
-    let gap = centre(&outer.its[b..]) - centre(&outer.its[a..b]);
+    let x = outer.its_f64();
+    let early = slope(&x[..a], &outer.vals[..a]);
+    let (s2, e2, c2, _) = slope(&x[a..b], &outer.vals[a..b])?;
+    let (s3, e3, c3, end) = slope(&x[b..], &outer.vals[b..])?;
+    let s1 = early.map_or(f64::NAN, |t| t.0);
+    let gap = c3 - c2;
     let span = outer.span() as f64 + outer.spacing();
-    // A decay must be more than noise: the slope shrank by more than two standard errors of
-    // the difference (a steady creep keeps its slope).
-    let decaying = s2 * s3 > 0.0 && s2.abs() - s3.abs() > 2.0 * e2.hypot(e3) && gap > 0.0;
+    // A decay must be more than noise: one sign over the three thirds, each slope smaller
+    // than the one before, the last step beyond two standard errors of the difference (a
+    // steady creep keeps its slope; slow red noise wanders, it does not decay steadily).
+    let decaying = s2 * s3 > 0.0
+        && s1 * s2 > 0.0
+        && s1.abs() > s2.abs()
+        && s2.abs() - s3.abs() > 2.0 * e2.hypot(e3)
+        && gap > 0.0;
     let clear = s2.abs() > 4.0 * e2 && s3.abs() > 4.0 * e3;
     let cap = if clear { HORIZON_WINDOWS * span } else { span };
     let horizon = if decaying { (gap / (s2 / s3).ln()).min(cap) } else { span };
     let margin = if clear && decaying { 1.0 + e3 / s3.abs() + e2 / s2.abs() } else { 1.0 };
-    let end = last.fitted_last;
     let remaining = s3 * horizon * margin;
     Some(Projection { remaining, limit: end + remaining, decaying })
+}
+
+/// Least-squares slope of `y` against `x` with its standard error widened for the
+/// autocorrelation of monitor noise (AR(1) approximation of the integrated autocorrelation
+/// time from the lag-1 autocorrelation of the residuals, `τ = (1+ρ)/(1−ρ)`, at most n/4: an
+/// O(n) correction, cheap enough for every checkpoint), the centre of `x` and the fitted
+/// value at the last `x`.
+fn slope(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64, f64)> {
+    let fit = stats::ols(x, y)?;
+    let resid = stats::ols_residuals(&fit, x, y);
+    let rho = stats::lag1_autocorrelation(&resid).unwrap_or(0.0).clamp(0.0, 0.99);
+    let n = x.len() as f64;
+    let tau = ((1.0 + rho) / (1.0 - rho)).clamp(1.0, (n / 4.0).max(1.0));
+    let last = x.last().copied()?;
+    Some((fit.slope, fit.se_slope * tau.sqrt(), fit.x_mean, fit.at(last)))
 }
 
 /// The window of the monitor `v` ending at iteration `t`; `period` is the period (in

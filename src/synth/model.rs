@@ -488,7 +488,9 @@ pub(super) fn monitors_settled_step(steps: &[Step], nf: &[[f64; 3]]) -> Option<u
         let big = nf[seg..n].iter().map(|v| v[m].abs()).fold(0.0f64, f64::max);
         let reference = fin.abs().max(crate::judge::limits::NEAR_ZERO_SHARE * big);
         let tol = Criteria::DEFAULT_DRIFT_PCT / 100.0 * reference;
-        let last_out = (0..n).rev().find(|&k| !((nf[k][m] - fin).abs() <= tol));
+        // NaN (a value the model could not give) counts as outside.
+        let inside = |k: usize| (nf[k][m] - fin).abs() <= tol;
+        let last_out = (0..n).rev().find(|&k| !inside(k));
         settled = settled.max(last_out.map_or(0, |k| k + 1));
     }
     (settled < n).then_some(settled)

@@ -6,7 +6,7 @@
 
 use crate::judge::Verdict;
 
-/// One labelled behaviour of a synthetic run (DESIGN §7, "How real runs behave").
+/// One labelled behaviour of a synthetic run (how real runs behave).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum Scenario {
     /// Clean geometric convergence to the solver's targets; monitors settle.
@@ -126,7 +126,7 @@ impl Scenario {
         ALL.into_iter().find(|s| s.name() == name)
     }
 
-    /// The verdict a practitioner would give the complete history (DESIGN §4).
+    /// The verdict a practitioner would give the complete history.
     pub fn expected(&self) -> Verdict {
         match self {
             Scenario::Converging

@@ -10,13 +10,13 @@ use crate::run::RunStore;
 use crate::view::parse::{clean, jnum, num};
 
 fn criterion_value(c: &CriterionResult) -> String {
-    if c.value.is_nan() {
-        return "n/a".into();
-    }
+    // Rounded so that it never reads as meeting a threshold it misses (or the reverse).
+    let v = c.value_text();
     match c.unit.as_str() {
-        "%" => format!("{:.3} %", c.value),
-        "dec" => format!("{:.2} dec", c.value),
-        _ => num(c.value),
+        _ if c.value.is_nan() => v,
+        "%" => format!("{v} %"),
+        "dec" => format!("{v} dec"),
+        _ => v,
     }
 }
 
