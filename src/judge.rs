@@ -1,7 +1,7 @@
 //! The judge: pure functions from series to findings, criteria results and a verdict.
 //!
 //! It never reads files and never draws; `check`, `watch` and `report` call the same
-//! [`judge`] function. The methods are published ones (DESIGN §7, METHODS.md), each in its
+//! [`judge`] function. The methods are published ones (cited in each module and in the README), each in its
 //! own module:
 //!
 //! * [`stats`]: two-pass mean/SD, lag-1 autocorrelation, centred OLS, Student-t (statrs);
@@ -10,35 +10,48 @@
 //! * [`stationarity`]: MSER/MSER-5, batch means, integrated autocorrelation time, drift, band;
 //! * [`iterative`]: Aitken Δ² and the eigenvalue (ratio of successive differences) estimate;
 //! * [`criteria`]: the criteria in effect per series and `since` bookkeeping;
+//! * [`window`]: the monitor window fitted to the run, and where a monitor is heading;
+//! * [`scale`]: the reference of a monitor's relative criteria, round-off-only monitors;
+//! * [`oscillation`]: dominance, lasting amplitude and growth of a periodic component;
+//! * [`eta`]: iterations to target from the recent rate, with a range;
 //! * [`verdict`]: the precedence that turns findings into a verdict;
 //! * [`limits`]: the fixed thresholds at which a statistic becomes a finding, with reasons.
 //!
 //! Per-role analyses (`residual`, `monitor`, `health`, `events`) combine them.
+//! [`try_judge`] says why a run has nothing to judge (no verdict then); [`judge`] keeps the
+//! simple signature for live callers.
 //!
 //! # Decisions
 //!
 //! * **Segments.** Everything windowed looks at the latest segment (after the last restart);
 //!   the residual drop is measured from the peak of the whole run, so a restart does not
 //!   reset what was achieved; `since` dates stay inside the latest segment.
-//! * **Windows.** Monitor criteria (drift, band, CI) use the configured window `W` (default
-//!   500 iterations). The stall, divergence, oscillation and blow-up tests use an evidence
-//!   window of `max(W, 500)` ([`limits::MIN_EVIDENCE_WINDOW`]). The first 200 iterations of a
-//!   segment are its start-up ([`series::STARTUP_ITERATIONS`]): growth there is not
-//!   divergence and a plateau there is not a stall.
+//! * **Windows.** Monitor criteria use a window fitted to the run ([`window`]): at most the
+//!   configured `W` (default 500) and half of a short segment, the part after the start-up
+//!   transient (MSER-5, or where a monitor still on its way comes within tolerance), at
+//!   least 50 iterations and two periods of a cycle; an explicit `window` is used as given.
+//!   The stall, divergence, oscillation and blow-up tests use an evidence window of
+//!   `max(W, 500)` ([`limits::MIN_EVIDENCE_WINDOW`]). The first 200 iterations of a segment
+//!   are its start-up ([`series::STARTUP_ITERATIONS`]): a rise of a decade or two there is
+//!   not divergence, and the stall test starts after it.
 //! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
-//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend covers 90 % of the evidence
-//!   window, and its 95 % upper bound is not below −0.1 dec/kit. Divergence: a significant
-//!   rise of ≥ 1 decade over the evidence window, a significant rise of ≥ 2 decades over its
-//!   last fifth, or 3 decades above the running minimum. Oscillation: Fisher's g at 1 %,
-//!   steady over both half windows, semi-amplitude ≥ 0.05 decades; it decides when the
-//!   residual is not falling and its criteria fail (also when met only at a trough).
-//! * **Monitors.** Drift = slope × `W` / |mean|, band = (max − min) / |mean|, over the whole
-//!   final window; MSER-5 only picks the part the mean and its CI describe. An oscillation
-//!   decides when drift or band fail and its peak-to-peak amplitude is at least half the band
-//!   limit; a small oscillation inside the limits never blocks convergence.
+//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (a live
+//!   run) or the evidence window (a finished one) has a 95 % upper bound not below −0.1
+//!   dec/kit. Divergence: a significant rise of ≥ 1 decade over the evidence window, of ≥ 2
+//!   decades over its last fifth, 3 decades above the running minimum, or — any time — 3
+//!   decades beyond the first values while still shooting up. Oscillation: Fisher's g at 1 %,
+//!   dominant, lasting, ≥ 0.05 decades, six cycles in view; it decides when the residual is
+//!   not falling and its criteria fail (also when met only at a trough).
+//! * **Monitors.** Drift = the larger of the trend's change over the window and the change
+//!   it still projects; band = max − min; both relative to the reference ([`scale`]) or
+//!   absolute. An oscillation decides when drift or band fail, it dominates and lasts, and
+//!   its peak-to-peak amplitude alone reaches the band limit.
 //! * **Blow-up** (monitors and indicators): 2 decades above the reference level, sustained
-//!   exponential growth of ≥ 1 decade, or (indicators) pinned at a maximum ≥ 5× the usual
-//!   level. Non-finite values after the start-up, or as the last value, are divergence.
+//!   exponential growth of ≥ 1 decade (2 in the start-up), 3 decades beyond the first values
+//!   while still shooting up, or (indicators) pinned at a maximum ≥ 5× the usual level.
+//!   Non-finite values after the start-up, or as the last value, are divergence. A growing
+//!   oscillation decides when two series grow with the same period.
+//! * **Estimates to target** are dropped while anything argues for divergence.
 //! * **False convergence.** Residual criteria met while a monitor fails; the solver's own
 //!   end or `converged` mark while a monitor fails; a residual repeating one value 20 times
 //!   at the end; a one-step drop of ≥ 3 decades that the drop criterion depends on; a drop
@@ -47,23 +60,27 @@
 //!   the run diverging when there were signs (a diverging finding, or a monitor or indicator
 //!   jumping ×2 — a residual ×10 — or collapsing in its last values); otherwise it is
 //!   reported without deciding.
+//! * **Evidence ranges** stay inside the data, and `since` is never after the last iteration.
 //!
 //! Every windowed test looks at a bounded window (at most [`series::MAX_WINDOW_POINTS`]
-//! values); the whole-run work is a few cheap O(n) passes (peak, non-finite values, the
-//! backward scan that dates the residual criteria), so a judgement costs about the same at
-//! iteration 1 000 and at iteration 1 000 000.
+//! values, at most eight evidence windows for the long-period search); the whole-run work is
+//! a few cheap O(n) passes (peak, non-finite values, the running largest magnitude of a
+//! monitor, the backward scan that dates the residual criteria).
 
 // NaN must fail every threshold test here; `!(x > t)` says that directly, the
 // `partial_cmp` spelling clippy suggests hides it.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 pub mod criteria;
+pub mod eta;
 mod events;
 mod health;
 pub mod iterative;
 pub mod limits;
 mod monitor;
+pub mod oscillation;
 mod residual;
+pub mod scale;
 pub mod series;
 pub mod spectrum;
 pub mod stationarity;
@@ -72,6 +89,7 @@ mod text;
 pub mod trend;
 pub mod types;
 pub mod verdict;
+pub mod window;
 
 pub use types::*;
 
@@ -84,6 +102,9 @@ struct Sink {
     criteria: Vec<CriterionResult>,
     residuals: Vec<ResidualSummary>,
     monitors: Vec<MonitorSummary>,
+    /// Estimates of iterations to target, appended to the detail of the finding at the index
+    /// only when nothing argues for divergence.
+    eta_notes: Vec<(usize, String)>,
 }
 
 /// A finding about `series` (empty name: none) with the evidence range and statistic set.
@@ -106,17 +127,47 @@ fn finding(kind: FindingKind, series: &str, first: i64, last: i64, statistic: &s
 /// rules: false convergence (residual criteria met while a monitor fails), the solver
 /// stopping on its own mark while a monitor drifts, a crash signature after signs of
 /// blow-up, frequent warnings, restarts. The verdict follows [`verdict::decide`].
+///
+/// A run with nothing to judge gets a `converging` judgement without criteria here; callers
+/// that must not report a verdict for it (`check`, `report`) use [`try_judge`].
 pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
+    try_judge(input, criteria).unwrap_or_default()
+}
+
+/// Why `input` has nothing to judge, if it has not: no value at all, or only `info` and
+/// ignored series. Cheap (no statistics).
+pub fn nothing_to_judge(input: &RunInput<'_>, criteria: &Criteria) -> Option<NothingToJudge> {
+    let with_values: Vec<&SeriesInput<'_>> =
+        input.series.iter().filter(|s| !s.values.is_empty() && !s.iterations.is_empty()).collect();
+    if with_values.is_empty() {
+        return Some(NothingToJudge::NoData);
+    }
+    let judged = with_values.iter().any(|s| {
+        let rc = criteria::resolve(criteria, &s.name, s.role);
+        !rc.ignore && rc.role != Role::Info
+    });
+    (!judged).then_some(NothingToJudge::NothingJudged { series: with_values.len() })
+}
+
+/// Judge a run, or say why there is nothing to judge (no verdict then).
+pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement, NothingToJudge> {
+    if let Some(why) = nothing_to_judge(input, criteria) {
+        return Err(why);
+    }
     let window = criteria::window(criteria);
     let mut sink = Sink::default();
     let last_it = input.series.iter().filter_map(|s| s.iterations.last().copied()).max();
+    let first_it = input.series.iter().filter_map(|s| s.iterations.first().copied()).min();
 
-    let mut residuals_met: Vec<bool> = Vec::new();
-    let mut failing_monitors: Vec<(String, Vec<&'static str>, f64)> = Vec::new();
+    let mut residuals_met: Vec<(bool, Option<i64>)> = Vec::new();
+    let mut failing_monitors: Vec<Failing> = Vec::new();
     let mut crash_signs: Vec<String> = Vec::new();
     let mut restarts: Option<(usize, i64)> = None;
     let mut window_iterations = 0usize;
 
+    // The series to judge, with their criteria and views; monitors with their magnitude, so
+    // that a round-off-only monitor can be told from its companions.
+    let mut work = Vec::new();
     for s in &input.series {
         let rc = criteria::resolve(criteria, &s.name, s.role);
         if rc.ignore || rc.role == Role::Info {
@@ -125,6 +176,13 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
         let Some(view) = series::View::new(s) else {
             continue;
         };
+        let mag = (rc.role == Role::Monitor).then(|| scale::Magnitude::new(&view));
+        work.push((s, rc, view, mag));
+    }
+    let magnitudes: Vec<f64> =
+        work.iter().map(|(_, _, _, m)| m.as_ref().map_or(f64::NAN, |m| m.max())).collect();
+
+    for (k, (s, rc, view, mag)) in work.iter().enumerate() {
         window_iterations = window_iterations.max(view.window(window).len());
         if view.segments > 1 && restarts.is_none_or(|(k, _)| view.segments > k) {
             restarts = Some((view.segments, view.seg_first_it()));
@@ -132,21 +190,41 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
         let name: &str = &s.name;
         match rc.role {
             Role::Residual => {
-                let facts = residual::analyse(name, &view, &rc, &mut sink);
-                residuals_met.push(facts.met);
+                let facts = residual::analyse(name, view, rc, input.ended, &mut sink);
+                let since = sink
+                    .criteria
+                    .iter()
+                    .filter(|c| c.series == name)
+                    .map(|c| c.since)
+                    .collect::<Option<Vec<_>>>()
+                    .and_then(|v| v.into_iter().max());
+                residuals_met.push((facts.met, since));
                 crash_signs.extend(facts.crash_sign);
             }
             Role::Monitor => {
-                let facts = monitor::analyse(name, &view, &rc, &mut sink);
+                let Some(mag) = mag else { continue };
+                let companions = magnitudes
+                    .iter()
+                    .enumerate()
+                    .filter(|(j, m)| *j != k && m.is_finite())
+                    .map(|(_, m)| *m)
+                    .fold(0.0f64, f64::max);
+                let round_off = scale::round_off(mag.max(), companions).then_some(companions);
+                let facts = monitor::analyse(name, view, rc, mag, round_off, &mut sink);
                 if !facts.failing.is_empty() {
-                    failing_monitors.push((name.to_string(), facts.failing, facts.drift_pct));
+                    failing_monitors.push(Failing {
+                        name: name.to_string(),
+                        window: facts.window,
+                        count: facts.failing.len(),
+                        why: facts.why,
+                    });
                 }
                 crash_signs.extend(facts.crash_sign);
             }
             Role::Indicator => {
                 crash_signs.extend(monitor::analyse_indicator(
                     name,
-                    &view,
+                    view,
                     rc.evidence(),
                     &mut sink,
                 ));
@@ -157,8 +235,17 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
 
     let last = last_it.unwrap_or(0);
     run_level(input, last_it, window, window_iterations, &mut sink);
-    let all_residuals_met = !residuals_met.is_empty() && residuals_met.iter().all(|m| *m);
-    false_convergence(input, all_residuals_met, &failing_monitors, last, window, &mut sink);
+    let all_met = !residuals_met.is_empty() && residuals_met.iter().all(|(m, _)| *m);
+    let met_since = if all_met {
+        residuals_met
+            .iter()
+            .map(|(_, s)| *s)
+            .collect::<Option<Vec<_>>>()
+            .and_then(|v| v.into_iter().max())
+    } else {
+        None
+    };
+    false_convergence(input, all_met, met_since, &failing_monitors, last, &mut sink);
     crash(input, last_it, &crash_signs, &mut sink);
     if let Some((segments, from)) = restarts {
         let mut f = finding(FindingKind::Restart, "", from, last, "segments");
@@ -169,17 +256,97 @@ pub fn judge(input: &RunInput<'_>, criteria: &Criteria) -> Judgement {
         );
         sink.findings.push(f);
     }
+    finish(&mut sink, first_it.unwrap_or(last), last);
 
     let (verdict, since, causes) = verdict::decide(&sink.findings, &sink.criteria);
-    Judgement {
+    Ok(Judgement {
         verdict,
-        since,
+        since: since.map(|s| s.min(last)),
         causes,
         findings: sink.findings,
         criteria: sink.criteria,
         residuals: sink.residuals,
         monitors: sink.monitors,
         iterations: last,
+    })
+}
+
+/// A growing oscillation decides (`diverging`) when at least two series grow with the same
+/// period ([`limits::GROWTH_SAME_PERIOD`]); alone it stays a note.
+fn corroborate_growth(sink: &mut Sink) {
+    let growing: Vec<(usize, f64, Option<String>)> = sink
+        .findings
+        .iter()
+        .enumerate()
+        .filter(|(_, f)| f.kind == FindingKind::GrowingOscillation)
+        .filter_map(|(i, f)| f.period.map(|p| (i, p, f.series.clone())))
+        .collect();
+    for (i, p, s) in &growing {
+        let others = growing
+            .iter()
+            .filter(|(j, q, t)| j != i && t != s && (q - p).abs() <= limits::GROWTH_SAME_PERIOD * p)
+            .count();
+        let f = &mut sink.findings[*i];
+        if others > 0 {
+            f.supports = Some(Verdict::Diverging);
+            f.detail.push_str(&format!(
+                "; {others} other series grow with the same period: heading for divergence"
+            ));
+        } else {
+            f.detail.push_str("; no other series grows with it (noted, not deciding)");
+        }
+    }
+}
+
+/// A monitor failing its criteria, for the run-level rules.
+struct Failing {
+    name: String,
+    window: usize,
+    /// The failing criterion in words ("drag drifts +0.3 % of the mean over …").
+    why: String,
+    /// How many of its criteria fail.
+    count: usize,
+}
+
+/// Last touches that need every finding: no estimate of iterations to target while anything
+/// argues for divergence (otherwise the estimates go into the trend details); a stall and a
+/// deciding oscillation of the same residual name each other; evidence ranges stay inside
+/// the data.
+fn finish(sink: &mut Sink, first: i64, last: i64) {
+    corroborate_growth(sink);
+    let diverging = sink.findings.iter().any(|f| f.supports == Some(Verdict::Diverging));
+    if diverging {
+        for r in &mut sink.residuals {
+            r.eta_iterations = None;
+            r.eta_range = None;
+            r.eta_window = None;
+        }
+    } else {
+        for (i, note) in std::mem::take(&mut sink.eta_notes) {
+            if let Some(f) = sink.findings.get_mut(i) {
+                f.detail.push_str(&note);
+            }
+        }
+    }
+    let stalls: Vec<(String, i64)> = sink
+        .findings
+        .iter()
+        .filter(|f| f.kind == FindingKind::Stall)
+        .filter_map(|f| f.series.clone().map(|s| (s, f.last.saturating_sub(f.first))))
+        .collect();
+    for f in &mut sink.findings {
+        let Some(series) = f.series.clone() else { continue };
+        if f.kind == FindingKind::Oscillation && f.supports == Some(Verdict::Oscillating) {
+            if let Some((_, n)) = stalls.iter().find(|(s, _)| *s == series) {
+                f.detail.push_str(&format!(
+                    "; it has also not fallen for {n} iterations (a stall at the level of the cycle)"
+                ));
+            }
+        }
+    }
+    for f in &mut sink.findings {
+        f.last = f.last.clamp(first, last);
+        f.first = f.first.clamp(first, f.last);
     }
 }
 
@@ -195,38 +362,32 @@ fn run_level(
     }
 }
 
-/// Residual criteria met while a monitor fails stationarity → suspect; the solver's own end
-/// or convergence mark while a monitor fails → suspect.
+/// Residual criteria met while a monitor fails stationarity → suspect, dated from when the
+/// residual criteria were all met; the solver's own end or convergence mark while a monitor
+/// fails → suspect.
 fn false_convergence(
     input: &RunInput<'_>,
     residuals_met: bool,
-    failing: &[(String, Vec<&'static str>, f64)],
+    met_since: Option<i64>,
+    failing: &[Failing],
     last: i64,
-    window: usize,
     sink: &mut Sink,
 ) {
-    let first = last.saturating_sub(window as i64);
-    let describe = |crit: &[&str], drift: f64| -> String {
-        if crit.contains(&"drift") && drift.is_finite() {
-            format!("drifts {} over the last {window} iterations", text::signed_pct(drift))
-        } else {
-            format!("fails its {} limit", crit.join(" and "))
-        }
-    };
-    for (name, crit, drift) in failing {
+    for m in failing {
         if residuals_met {
+            let first = met_since.unwrap_or(last).max(last.saturating_sub(m.window as i64 - 1));
             let mut f = finding(
                 FindingKind::FalseConvergence,
-                name,
+                &m.name,
                 first,
                 last,
                 "monitor_criteria_failed",
             );
-            f.value = crit.len() as f64;
+            f.value = m.count as f64;
             f.supports = Some(Verdict::Suspect);
             f.detail = format!(
-                "every residual criterion is met but {name} {}: the solution is still changing",
-                describe(crit, *drift)
+                "every residual criterion is met but {}: the solution is still changing",
+                m.why
             );
             sink.findings.push(f);
         }
@@ -244,16 +405,16 @@ fn false_convergence(
         None => None,
     };
     if let (Some((what, at)), false) = (mark, failing.is_empty()) {
-        let names: Vec<&str> = failing.iter().map(|(n, _, _)| n.as_str()).collect();
+        let names: Vec<&str> = failing.iter().map(|m| m.name.as_str()).collect();
         let mut f =
             finding(FindingKind::SolverStoppedEarly, "", at.min(last), last, "monitors_failing");
         f.series = (names.len() == 1).then(|| names[0].to_string());
         f.value = names.len() as f64;
         f.supports = Some(Verdict::Suspect);
-        let (n0, c0, d0) = &failing[0];
         f.detail = format!(
-            "the solver reached {what} at it {at} while {n0} {}{}",
-            describe(c0, *d0),
+            "the solver reached {what} at it {} while {}{}",
+            at.min(last),
+            failing[0].why,
             if names.len() > 1 {
                 format!(" (and {} more)", names.len() - 1)
             } else {
@@ -271,7 +432,7 @@ fn crash(input: &RunInput<'_>, last_it: Option<i64>, signs: &[String], sink: &mu
     let Some(e) = events::crash(input, last_it) else {
         return;
     };
-    let it = e.iteration.or(last_it).unwrap_or(0);
+    let it = e.iteration.or(last_it).unwrap_or(0).min(last_it.unwrap_or(i64::MAX));
     let diverging = sink.findings.iter().any(|f| f.supports == Some(Verdict::Diverging));
     let decisive = diverging || !signs.is_empty();
     let mut f = finding(FindingKind::Crash, "", it, last_it.unwrap_or(it), "error_at_end");

@@ -47,8 +47,9 @@ enum Command {
     /// PATH is a log file, several files of one run (residual log + monitor files: files
     /// given together are one run), or a case directory (its settle.toml, or the files in it
     /// a parser definition recognises). The exit code tells the verdict: 0 converged,
-    /// 10 converging, 11 stalled, 12 oscillating, 13 suspect, 14 diverging (1 = error,
-    /// 2 = usage error).
+    /// 10 converging, 11 stalled, 12 oscillating, 13 suspect, 14 diverging (1 = error, also
+    /// when there is nothing to judge: no data, or no parser recognised the file; 2 = usage
+    /// error).
     Check(CheckArgs),
     /// Write a convergence report (HTML, Markdown or JSON, by the extension of -o).
     ///
@@ -755,8 +756,11 @@ fn partial_line(include: bool) -> pipeline::PartialLine {
     if include { pipeline::PartialLine::Include } else { pipeline::PartialLine::default() }
 }
 
-fn judge_run(run: &RunStore, criteria: &Criteria) -> Judgement {
-    judge::judge(&run.judge_input(), criteria)
+/// Judge a run that was read to its end; a run with nothing to judge is an error naming why,
+/// never a verdict.
+fn judge_run(run: &RunStore, criteria: &Criteria) -> Result<Judgement> {
+    judge::try_judge(&run.judge_input(), criteria)
+        .map_err(|why| anyhow::anyhow!(view::check::no_verdict(run, &why)))
 }
 
 fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
@@ -766,7 +770,7 @@ fn cmd_check(a: CheckArgs, registry: Arc<Registry>) -> Result<u8> {
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
     let (run, parsers) = pipeline::read_run_with(&spec, registry, partial_line(a.include_partial))?;
-    let j = judge_run(&run, &spec.criteria);
+    let j = judge_run(&run, &spec.criteria)?;
     if a.json {
         out(&format!(
             "{}\n",
@@ -793,7 +797,7 @@ fn load_and_judge(
         anyhow::anyhow!("--{}: {m}", k.trim_start_matches("criteria.").replace('_', "-"))
     })?;
     let (run, parsers) = pipeline::read_run_with(&spec, registry, partial)?;
-    let j = judge_run(&run, &spec.criteria);
+    let j = judge_run(&run, &spec.criteria)?;
     Ok((spec, run, parsers, j))
 }
 

@@ -2,7 +2,7 @@
 //!
 //! [`generate`] builds a deterministic history for a [`Scenario`] and a seed: residuals,
 //! sweep counts, continuity, force monitors, CFL, clipping notices and the way the run
-//! ends. The histories follow the facts of DESIGN §7 (normalised residuals starting at 1,
+//! ends. The histories follow the facts of real solver runs (normalised residuals starting at 1,
 //! AR(1)-correlated noise, start-up transients, linear-solver floors, sweep limits when
 //! diverging) and vary by seed in length, rates, noise, onset and period, so that an
 //! accuracy benchmark over many seeds means something. Every number here is invented.
@@ -56,6 +56,9 @@ pub struct Header {
     pub started: String,
     /// Under-relaxation factors of U, p, k and omega.
     pub relaxation: [f64; 4],
+    /// The flow model printed in the banner: `k-omega SST`, or `laminar` (no k and omega
+    /// equations).
+    pub model: &'static str,
 }
 
 /// The crash signature that ends an [`End::Crash`] log.
@@ -89,6 +92,9 @@ pub struct Step {
     pub drag: f64,
     pub lift: f64,
     pub dp: f64,
+    /// Out-of-plane force of a 2-D case, written only to `forces.csv` (column `side`) when
+    /// the scenario has one.
+    pub side: Option<f64>,
     /// Courant number of a steady run (not printed for time-accurate runs).
     pub cfl: f64,
     /// `notice:` lines (bounding/clipping), without the prefix.
@@ -118,6 +124,28 @@ pub struct SynthRun {
     pub solver_converged: bool,
     /// Set exactly when `end` is [`End::Crash`]; the last step is then partial.
     pub crash: Option<Crash>,
+    /// What is true of the run by construction (for the accuracy benchmark).
+    pub truth: Truth,
+}
+
+/// True facts of a synthetic run, known from how it was built, never from a detector.
+///
+/// Step indices count the steps of [`SynthRun::steps`] (0-based), so that a restart that
+/// repeats iteration numbers stays unambiguous; the iteration is `steps[k].iteration`.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Truth {
+    /// First step from which every default criterion truly holds to the end of the run
+    /// (runs labelled `converged` only): every residual's printed value at least 3 decades
+    /// below its running peak (a fact of the printed data), and every judged monitor of the
+    /// noise-free model within 0.1 % (the default drift limit) of its final noise-free value,
+    /// relative to the reference the judge uses (the mean, or a tenth of the monitor's
+    /// largest magnitude when the mean is near zero). See [`Truth::residuals_met`].
+    pub settled: Option<usize>,
+    /// First step from which every residual's printed value stays at least 3 decades below
+    /// its running peak; for a run that stops before (`still-converging`), found on the
+    /// continuation of the same run (same seed, same noise) beyond its last step, so its
+    /// value can exceed the run's length. `None` when the residuals never get there.
+    pub residuals_met: Option<usize>,
 }
 
 impl SynthRun {

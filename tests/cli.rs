@@ -231,15 +231,46 @@ fn check_rejects_a_bad_config_naming_file_and_key() {
     assert_ne!(o.status.code(), Some(0));
 }
 
+/// Every sample with its label, as the generator wrote them in samples/README.md (a section
+/// per sample, `## \`path\``, with its `* expected verdict: \`…\`` line).
+fn sample_labels() -> Vec<(String, String)> {
+    let readme = std::fs::read_to_string(samples().join("README.md")).unwrap();
+    let mut out = Vec::new();
+    let mut path: Option<String> = None;
+    for line in readme.lines() {
+        if let Some(p) = line.strip_prefix("## `").and_then(|l| l.strip_suffix('`')) {
+            path = Some(p.trim_end_matches('/').to_string());
+        } else if let Some(v) = line.strip_prefix("* expected verdict: `") {
+            let v = v.trim_end_matches('`').to_string();
+            out.push((path.take().expect("a section before its verdict"), v));
+        }
+    }
+    out
+}
+
 #[test]
 fn check_gives_the_labelled_verdicts_of_the_samples() {
-    // Labels as written by the generator (samples/README.md "expected verdict").
+    // Labels as written by the generator (samples/README.md "expected verdict"), for every
+    // sample: each case directory and each plain table.
     let s = samples();
-    for (path, verdict) in [
-        ("duct-bend-07", "converged"),
-        ("mixer-22", "diverging"),
-        ("plain/history.csv", "oscillating"),
-    ] {
+    let labels = sample_labels();
+    let mut on_disk: Vec<String> = std::fs::read_dir(&s)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.is_dir() && p.file_name().is_some_and(|n| n != "plain"))
+        .map(|p| p.file_name().unwrap().to_string_lossy().into_owned())
+        .collect();
+    on_disk.extend(
+        std::fs::read_dir(s.join("plain"))
+            .unwrap()
+            .map(|e| format!("plain/{}", e.unwrap().file_name().to_string_lossy())),
+    );
+    on_disk.sort();
+    let mut labelled: Vec<String> = labels.iter().map(|(p, _)| p.clone()).collect();
+    labelled.sort();
+    assert_eq!(labelled, on_disk, "every sample has a label and every label a sample");
+    for (path, verdict) in &labels {
+        let (path, verdict) = (path.as_str(), verdict.as_str());
         let o = settle(&["check", "--json", s.join(path).to_str().unwrap()]);
         let v: Value = serde_json::from_str(&stdout(&o)).unwrap();
         assert_eq!(v["verdict"], verdict, "{path}: {}", stdout(&o));
@@ -555,4 +586,32 @@ fn draft_write_then_check_then_read_an_invented_log() {
     assert_eq!(series(src, "cd")["role"], "monitor");
     let o = settle_env(&["parsers", "check", saved.to_str().unwrap()], dir.path());
     assert!(stdout(&o).contains("valid lines definition `rill`"), "{}", stdout(&o));
+}
+
+#[test]
+fn nothing_to_judge_is_an_error_not_a_verdict() {
+    let dir = tempfile::tempdir().unwrap();
+    // An empty file: no data, and no parser could recognise it.
+    let empty = dir.path().join("empty.log");
+    std::fs::write(&empty, "").unwrap();
+    for cmd in ["check", "report"] {
+        let out = dir.path().join("r.json");
+        let mut args = vec![cmd, empty.to_str().unwrap()];
+        if cmd == "report" {
+            args.extend(["-o", out.to_str().unwrap()]);
+        }
+        let o = settle(&args);
+        assert_eq!(o.status.code(), Some(1), "{cmd}: {}", stdout(&o));
+        let err = stderr(&o);
+        assert!(err.contains("no verdict") && err.contains("empty"), "{cmd}: {err}");
+        assert!(stdout(&o).is_empty(), "{cmd}: no verdict printed");
+        assert!(!out.exists(), "{cmd}: no report written");
+    }
+    // A table parser that finds no record in a header-only file says so.
+    let header = dir.path().join("h.csv");
+    std::fs::write(&header, "iteration,res_p\n").unwrap();
+    let o = settle(&["check", "--parser", "csv", header.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stdout(&o));
+    let err = stderr(&o);
+    assert!(err.contains("no verdict") && err.contains("no record"), "{err}");
 }

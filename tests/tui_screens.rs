@@ -95,6 +95,7 @@ fn criterion(
         met,
         since: None,
         default: true,
+        ..Default::default()
     }
 }
 
@@ -142,6 +143,7 @@ fn judgement(verdict: Verdict, n: i64) -> Judgement {
             slope_dec_per_kit: -0.02,
             slope_ci: (-0.05, 0.01),
             eta_iterations: None,
+            ..Default::default()
         }],
         monitors: vec![MonitorSummary {
             series: "Cd".into(),

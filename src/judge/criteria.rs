@@ -1,6 +1,6 @@
 //! The criteria in effect for each series, and the bookkeeping of criterion results.
 //!
-//! Defaults are common practice, not law (DESIGN §7): a residual must drop at least 3 decades
+//! Defaults are common practice, not law: a residual must drop at least 3 decades
 //! from its peak; a monitor must stay within 0.1 % drift and 0.5 % band over the last 500
 //! iterations; an absolute residual level and a confidence-interval limit apply only when the
 //! user sets them.
@@ -37,7 +37,17 @@ pub struct Limit {
 pub struct Resolved {
     pub role: Role,
     pub ignore: bool,
+    /// The configured window length (default 500).
     pub window: usize,
+    /// The window was set by the user and is used exactly as given; otherwise it adapts to
+    /// the run ([`super::window`]).
+    pub window_explicit: bool,
+    /// Reference value for a monitor's relative criteria (`scale` in `settle.toml`).
+    pub scale: Option<f64>,
+    /// Absolute limits that replace the relative ones of the same criterion.
+    pub drift_abs: Option<Limit>,
+    pub band_abs: Option<Limit>,
+    pub ci_abs: Option<Limit>,
     pub drop: Limit,
     pub below: Option<Limit>,
     pub drift: Limit,
@@ -92,12 +102,22 @@ pub fn resolve(criteria: &Criteria, name: &str, role: Role) -> Resolved {
         over.band = e.band.or(over.band);
         over.ci = e.ci.or(over.ci);
         over.role = e.role.or(over.role);
+        over.scale = e.scale.or(over.scale);
+        over.drift_abs = e.drift_abs.or(over.drift_abs);
+        over.band_abs = e.band_abs.or(over.band_abs);
+        over.ci_abs = e.ci_abs.or(over.ci_abs);
     }
     let ignore = entries.last().is_some_and(|e| e.ignore);
+    let user = |v: Option<f64>| v.map(|value| Limit { value, default: false });
     Resolved {
         role: over.role.unwrap_or(role),
         ignore,
         window: window(criteria),
+        window_explicit: criteria.window.is_some(),
+        scale: over.scale.filter(|s| s.is_finite() && *s != 0.0).map(f64::abs),
+        drift_abs: user(over.drift_abs),
+        band_abs: user(over.band_abs),
+        ci_abs: user(over.ci_abs),
         drop: limit(over.drop, criteria.residual_drop, Criteria::DEFAULT_RESIDUAL_DROP),
         below: over.below.or(criteria.residual_below).map(|v| Limit { value: v, default: false }),
         drift: limit(over.drift, criteria.drift, Criteria::DEFAULT_DRIFT_PCT),
@@ -127,6 +147,7 @@ pub fn result(
         met,
         since: if met { since } else { None },
         default: lim.default,
+        window: None,
     }
 }
 

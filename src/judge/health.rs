@@ -2,14 +2,24 @@
 //! orders of magnitude, sustained exponential growth, an indicator pinned at its maximum, and
 //! the jump of the last values that makes a crash signature a divergence.
 //!
-//! Blow-ups do not always show in residuals (DESIGN §7): they saturate near 1 or collapse to
+//! Blow-ups do not always show in residuals: they saturate near 1 or collapse to
 //! tiny values, while monitors, continuity errors and sweep counts explode. These rules are
 //! what lets monitors and indicators make a run `diverging`.
+//!
+//! The start-up allowance excuses only what start-ups do: a quantity moving from its first
+//! values by a modest factor. From the first tens of iterations on, a value
+//! [`STARTUP_BLOWUP_DEC`] decades beyond anything in the segment's first values, an
+//! indicator pinned at its maximum, a sustained exponential growth of
+//! [`STARTUP_EXP_GROWTH_DEC`] decades, and an oscillation growing cycle after cycle
+//! ([`growing_cycle`]) are divergence.
 
+use super::criteria::Resolved;
 use super::limits::*;
+use super::oscillation;
+use super::scale::{self, Magnitude};
 use super::series::{self, View};
 use super::stats;
-use super::text::{dec, num};
+use super::text::{dec, num, pct};
 use super::trend;
 use super::types::{FindingKind, Verdict};
 use super::{Sink, finding};
@@ -98,6 +108,36 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
     let reference = if b > a + 10 { median_abs(&v.vals[a..b]) } else { None };
     let now = median_abs(&v.vals[n.saturating_sub(5).max(v.seg)..]);
 
+    // 0. Orders of magnitude beyond anything in the segment's first values, and still
+    // shooting up (a decade above the 20 values before the last 5: a low start that has
+    // levelled off is not this). Any time: the start-up excuses a modest factor, never this.
+    let recently = {
+        let end = n.saturating_sub(5).max(v.seg);
+        median_abs(&v.vals[end.saturating_sub(20).max(v.seg)..end])
+    };
+    if let (Some(early), Some(c), Some(before)) = (series::early_max_abs(v), now, recently)
+        && early > 0.0
+        && (c / early).log10() >= STARTUP_BLOWUP_DEC
+        && c >= 10.0 * before
+    {
+        let growth = (c / early).log10();
+        let from = v.seg + series::EARLY_VALUES.min(n - v.seg);
+        let first =
+            (from..n).find(|&i| v.vals[i].abs() > 10.0 * early).map_or(last_it, |i| v.its[i]);
+        let mut f = finding(FindingKind::BlowUp, name, first, last_it, "growth_dec");
+        f.value = growth;
+        f.threshold = Some(STARTUP_BLOWUP_DEC);
+        f.supports = Some(Verdict::Diverging);
+        f.detail = format!(
+            "{name} grew {} decades beyond its first values (at most {} then, {} now): it is blowing up",
+            dec(growth),
+            num(early),
+            num(c),
+        );
+        sink.findings.push(f);
+        return true;
+    }
+
     // 1. Orders of magnitude above the reference level.
     if let (Some(r), Some(c)) = (reference, now) {
         if r > 0.0 && (c / r).log10() >= BLOWUP_DEC {
@@ -119,9 +159,13 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
         }
     }
 
-    // 2. Sustained exponential growth over the window, after the start-up.
+    // 2. Sustained exponential growth over the window: after the start-up by at least
+    // EXP_GROWTH_DEC; during it (from the EARLY_VALUES-th value on) by STARTUP_EXP_GROWTH_DEC.
     let win = v.window_map(last_it, window, |x| if x != 0.0 { x.abs().log10() } else { f64::NAN });
-    let post = win.from_iteration(startup_end);
+    let young = last_it < startup_end.saturating_add(30);
+    let from = if young { v.its[(v.seg + series::EARLY_VALUES).min(n - 1)] } else { startup_end };
+    let need = if young { STARTUP_EXP_GROWTH_DEC } else { EXP_GROWTH_DEC };
+    let post = win.from_iteration(from);
     if post.len() >= 30 {
         if let Some(t) = trend::fit(&post.its, &post.vals) {
             let rise = t.slope_dec_per_kit * post.span() as f64 / 1000.0;
@@ -129,7 +173,7 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
             let m = |r: std::ops::Range<usize>| stats::median(&post.vals[r]).unwrap_or(f64::NAN);
             let (m1, m2, m3) = (m(0..third), m(third..2 * third), m(2 * third..post.len()));
             let keeps = m2 > m1 && m3 > m2 && (m3 - m2) >= EXP_GROWTH_KEEP * (m2 - m1);
-            if t.rising() && rise >= EXP_GROWTH_DEC && keeps {
+            if t.rising() && rise >= need && keeps {
                 let mut f =
                     finding(FindingKind::BlowUp, name, t.first, t.last, "growth_dec_per_kit");
                 f.value = t.slope_dec_per_kit;
@@ -147,9 +191,18 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
         }
     }
 
-    // 3. Indicators: pinned at the maximum (a sweep count at its limit).
+    // 3. Indicators: pinned at the maximum (a sweep count at its limit). The usual level is
+    // the reference range after the start-up, or, in a young segment, the median of the
+    // values before the pinned stretch (at least PINNED_MIN_VALUES of them).
     if indicator {
-        if let (Some(r), Some(&x)) = (reference, v.vals.last()) {
+        let x_last = v.vals.last().copied().unwrap_or(f64::NAN);
+        let pinned_now = v.vals[v.seg..].iter().rev().take_while(|&&y| y == x_last).count();
+        let before = n - pinned_now;
+        let usual = reference.or_else(|| {
+            let lo = before.saturating_sub(4 * window).max(v.seg);
+            (before >= lo + PINNED_MIN_VALUES).then(|| median_abs(&v.vals[lo..before])).flatten()
+        });
+        if let (Some(r), Some(&x)) = (usual, v.vals.last()) {
             let pinned = v.vals[v.seg..].iter().rev().take_while(|&&y| y == x).count();
             let seg_max =
                 v.vals[v.seg..].iter().copied().filter(|y| y.is_finite()).fold(f64::MIN, f64::max);
@@ -165,7 +218,7 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
                 f.threshold = Some(PINNED_MIN_VALUES as f64);
                 f.supports = Some(Verdict::Diverging);
                 f.detail = format!(
-                    "{name} has been stuck at its maximum {} for {pinned} values (usually about {}): a limit is being hit",
+                    "{name} has been stuck at its maximum {} for {pinned} values (usually about {}): a limit is being hit, the solution is not converging",
                     num(x),
                     num(r),
                 );
@@ -173,6 +226,77 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
                 return true;
             }
         }
+    }
+    false
+}
+
+/// An oscillation whose amplitude grows cycle after cycle ([`oscillation::growing`]) in a
+/// residual (log10 values) or a monitor (`magnitude` given): the classic prelude of a crash.
+/// Looked for over the last 60, 120 and 240 iterations of the segment after its first
+/// values, so that it is found as soon as the growth is significant, start-up or not, with
+/// at least [`GROWTH_MIN_CYCLES`] cycles in the window. The component must be material:
+/// ±[`OSC_MIN_RESIDUAL_DEC`] for residuals, a peak-to-peak amplitude of half the band limit
+/// for monitors (a growing cycle has not finished growing). The finding is pushed without a
+/// verdict: the judge makes it decide only when another series grows with the same period
+/// (an instability shows in the whole solution; a noisy stretch of one residual does not).
+pub fn growing_cycle(
+    name: &str,
+    v: &View<'_>,
+    rc: &Resolved,
+    magnitude: Option<&Magnitude>,
+    sink: &mut Sink,
+) -> bool {
+    let last_it = v.last_it();
+    let n = v.len();
+    let from = v.its[(v.seg + series::EARLY_VALUES).min(n - 1)];
+    for w in GROWTH_WINDOWS {
+        let win = match magnitude {
+            None => v.window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN }),
+            Some(_) => v.window_map(last_it, w, |x| x),
+        }
+        .from_iteration(from);
+        if win.len() < 32 {
+            continue;
+        }
+        let Some(g) = oscillation::growing(&win, GROWTH_ALPHA) else { continue };
+        if (win.span() as f64) < GROWTH_MIN_CYCLES * g.periodic.period {
+            continue;
+        }
+        let (material, amp_text) = match magnitude {
+            None => (
+                g.amplitude_now >= OSC_MIN_RESIDUAL_DEC,
+                format!("±{} decades", dec(g.amplitude_now)),
+            ),
+            Some(m) => {
+                let mean = stats::mean(&win.vals).unwrap_or(f64::NAN);
+                let (kind, r) = scale::reference(mean, m.at(last_it), rc.scale);
+                let amp = super::stationarity::relative_pct(g.amplitude_now, r);
+                let material = match rc.band_abs {
+                    Some(l) => 2.0 * g.amplitude_now >= 0.5 * l.value,
+                    None => 2.0 * amp >= 0.5 * rc.band.value,
+                };
+                (material, format!("±{} {}", pct(amp), scale::describe(kind, r)))
+            }
+        };
+        if !material {
+            continue;
+        }
+        let p = &g.periodic;
+        let mut f =
+            finding(FindingKind::GrowingOscillation, name, p.first, p.last, "growth_per_cycle");
+        f.value = g.per_cycle;
+        f.threshold = Some(1.0);
+        f.p_value = Some(p.osc.p_value);
+        f.period = Some(p.period);
+        f.detail = format!(
+            "{name} oscillates with a period of {} iterations and its amplitude grows ×{} per cycle (×{} over the last {} iterations, now {amp_text})",
+            num(p.period),
+            num(g.per_cycle),
+            num(g.envelope.ratio),
+            last_it.saturating_sub(p.first),
+        );
+        sink.findings.push(f);
+        return true;
     }
     false
 }

@@ -2,14 +2,22 @@
 //!
 //! These are not user criteria (those live in [`super::types::Criteria`]) but the levels at
 //! which a statistic becomes a finding. Where no published value exists the number is our
-//! choice, made by reasoning about real solver histories (DESIGN §7), not tuned to test
+//! choice, made by reasoning about real solver histories , not tuned to test
 //! series; each says so.
 
 /// Fewest iterations the stall, divergence, oscillation and blow-up tests look at, whatever
 /// the criteria window: pseudo-plateaus last a hundred iterations and more, and limit cycles
-/// of tens of iterations need several cycles (DESIGN §7). The criteria themselves (drift, band,
+/// of tens of iterations need several cycles. The criteria themselves (drift, band,
 /// CI) always use the configured window (our choice).
 pub const MIN_EVIDENCE_WINDOW: usize = 500;
+
+/// A live run's stall needs the residual flat over at least this many iterations after the
+/// start-up (and over the evidence window if it is longer): pseudo-plateaus while a
+/// recirculation forms last "a hundred or more" iterations, in separated flows up to about
+/// 600, and the bends into and out of them add to that; a stall must outlast them
+/// (ours). A finished run (end-of-run mark) needs only the evidence window: no later fall can
+/// come.
+pub const STALL_MIN_ITERATIONS: usize = 800;
 
 /// Significance level of the oscillation test per series. 1 % rather than 5 % because a run
 /// has several series and a false "oscillating" costs the user a look (our choice).
@@ -20,8 +28,44 @@ pub const OSC_ALPHA: f64 = 0.01;
 pub const OSC_MIN_RESIDUAL_DEC: f64 = 0.05;
 
 /// A monitor oscillation decides the verdict only when its peak-to-peak amplitude is at least
-/// this fraction of the band limit, i.e. when the oscillation is what breaks the band (ours).
-pub const OSC_MONITOR_BAND_SHARE: f64 = 0.5;
+/// this fraction of the band limit: the oscillation alone breaks the band (ours: "large
+/// against the band limit"; a ±0.2 % ripple inside a 0.5 % band never decides).
+pub const OSC_MONITOR_BAND_SHARE: f64 = 1.0;
+
+/// Monitors whose segment is longer than two evidence windows are also searched for a
+/// periodic component over this many evidence windows (4000 iterations by default), so that a
+/// period of a few hundred iterations shows the five cycles the test needs (ours).
+pub const LONG_LOOKBACK_WINDOWS: usize = 8;
+
+/// A growing oscillation is looked for only with at least this many cycles in the window
+/// (ours: growth measured over fewer cycles is as often a stretch of red noise).
+pub const GROWTH_MIN_CYCLES: f64 = 8.0;
+
+/// Significance level of the spectral peak of a growing oscillation candidate. Looser than
+/// [`OSC_ALPHA`]: a growing component spreads its power and is dominant long before its
+/// peak is significant at 1 %, and the candidate decides only when a second series
+/// corroborates it (ours).
+pub const GROWTH_ALPHA: f64 = 0.05;
+
+/// Growing oscillations of two series with periods within this relative difference are the
+/// same instability (ours).
+pub const GROWTH_SAME_PERIOD: f64 = 0.1;
+
+/// Windows (iterations) over which a growing oscillation is looked for, shortest first (ours:
+/// twenty cycles of a period-3 cycle, and longer for longer periods).
+pub const GROWTH_WINDOWS: [usize; 3] = [60, 120, 240];
+
+/// A monitor's mean is "near zero" when it is below this share of the monitor's own largest
+/// magnitude in the latest segment (block medians of 5, so one spike does not count); the
+/// automatic reference of drift, band and CI is then this share of that magnitude instead of
+/// the mean: continuous where the two meet, and never smaller than the mean (ours: "an order
+/// of magnitude below what the quantity was during the run").
+pub const NEAR_ZERO_SHARE: f64 = 0.1;
+
+/// A residual oscillation decides only with at least this many cycles in its window: at the
+/// five the spectrum test needs, slow red noise on a plateau passes for a cycle of a fifth
+/// of the window too often (ours).
+pub const OSC_MIN_CYCLES_TO_DECIDE: f64 = 6.0;
 
 /// Fewest values for an oscillation test.
 pub const OSC_MIN_POINTS: usize = 32;
@@ -37,17 +81,26 @@ pub const DIVERGE_MIN_RISE_DEC: f64 = 1.0;
 pub const DIVERGE_FAST_RISE_DEC: f64 = 2.0;
 
 /// Divergence when a residual stands this many decades above its running minimum after the
-/// start-up, over the last 20 evidence windows (METHODS §6: "residual > 10²–10³ × its running
-/// minimum"; we take the upper end).
+/// start-up, over the last 20 evidence windows (the common rule of thumb "residual > 10²–10³ × its
+/// running minimum", common practice; we take the upper end).
 pub const DIVERGE_ABOVE_MIN_DEC: f64 = 3.0;
 
 /// Monitor or indicator "grows by orders of magnitude": this many decades above its reference
-/// level (DESIGN §7 wording; two orders is our reading).
+/// level ("orders of magnitude": two is our reading).
 pub const BLOWUP_DEC: f64 = 2.0;
 
 /// Sustained exponential growth of a monitor or indicator: at least this rise over the window
 /// in decades, significantly positive and not slowing down (ours).
 pub const EXP_GROWTH_DEC: f64 = 1.0;
+
+/// The same during the start-up, where a quantity may move from its initial guess by a
+/// modest factor: two decades (ours).
+pub const STARTUP_EXP_GROWTH_DEC: f64 = 2.0;
+
+/// Any time, even during the start-up: this many decades beyond the largest of the segment's
+/// first values is a blow-up ("many orders of magnitude"; a developing flow moves residuals
+/// by a decade or two and monitors by a modest factor; ours).
+pub const STARTUP_BLOWUP_DEC: f64 = 3.0;
 
 /// "Not slowing down": the rise over the last third of the window is at least this fraction
 /// of the rise over the middle third (exponential growth keeps its rate; a ramp-up towards a

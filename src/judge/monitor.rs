@@ -1,27 +1,34 @@
-//! Judging one monitor (a quantity of interest) over the final window of the latest segment:
-//! drift, band and the confidence interval of the mean as criteria; the start-up transient
-//! (MSER-5), oscillation and iterative error as evidence; and the blow-up rules. Indicators
-//! get the health checks only.
+//! Judging one monitor (a quantity of interest) on the latest segment: drift, band and the
+//! confidence interval of the mean as criteria over a window fitted to the run
+//! ([`super::window`]), relative to a reference that stays meaningful near zero
+//! ([`super::scale`]); periodic components as evidence ([`super::oscillation`]); iterative
+//! error; and the blow-up rules. Indicators get the health checks only.
 //!
-//! Drift and band are measured over the whole final window, exactly as the user-facing
-//! criteria read ("over the last 500 iterations"): a transient that still reaches into the
-//! window is a reason not to call the monitor settled. MSER-5 only decides which part of the
-//! window the mean and its confidence interval describe.
+//! **Drift** is the larger of two readings of "the monitor is still changing": the change of
+//! its regression line over the window, and the change still to come that its recent trend
+//! projects ([`window::Projection`]: the decay of the slope, as in the eigenvalue estimate of
+//! Ferziger & Perić, or the current slope over the upper window when it does not decay). The
+//! second keeps a monitor that creeps towards its value from passing on a short window: the
+//! criterion asks that the monitor be within the limit of where it is going, not only that
+//! it moved little lately. An explicit `window` is honoured as given: drift is then the
+//! change over it, as the criterion reads.
+//! **Band** is `max − min` over the window. Both are percent of the reference, or absolute
+//! when the series has an absolute limit.
 //!
-//! A window must span at least half the window length and hold 20 values before drift and
-//! band are computed; before that they are NaN and not met (the run is too young to tell).
-//! Drift is always the slope times the configured window length, so a half window is judged
-//! on the same scale.
+//! A window must hold 20 values before the criteria are computed; before that they are NaN
+//! and not met (the run is too young to tell).
 
 use super::criteria::{self, Limit, Resolved};
 use super::iterative;
 use super::limits::*;
+use super::oscillation::{self, Periodic};
+use super::scale::{self, Magnitude};
 use super::series::{View, Window};
-use super::spectrum;
 use super::stationarity;
 use super::stats;
 use super::text::{num, pct, signed_pct};
-use super::types::{Comparison, FindingKind, MonitorSummary, Verdict};
+use super::types::{Comparison, FindingKind, MonitorSummary, Reference, Verdict};
+use super::window;
 use super::{Sink, finding, health};
 
 /// What the run-level rules need to know about a monitor.
@@ -29,79 +36,156 @@ use super::{Sink, finding, health};
 pub struct MonitorFacts {
     /// Names of the computed criteria that fail (`drift`, `band`, `ci`).
     pub failing: Vec<&'static str>,
-    /// Signed drift over the window, percent (NaN when not computed).
+    /// Signed drift over the window, percent of the reference (NaN when not computed).
     pub drift_pct: f64,
+    /// Iterations of the window the criteria used.
+    pub window: usize,
+    /// What fails, in words (the detail of the first failing criterion's finding).
+    pub why: String,
     pub crash_sign: Option<String>,
 }
 
 /// Window statistics of a monitor at one end iteration.
 struct Stats {
+    /// Signed drift, absolute units (the larger of the window change and the remaining
+    /// change).
     drift: f64,
+    /// The remaining change was the larger reading.
+    remaining: bool,
     band: f64,
     mean: f64,
     ci_half: f64,
-    transient: usize,
+    reference: (Reference, f64),
+    length: usize,
 }
 
-fn computed(win: &Window, w: usize) -> bool {
-    win.span() as f64 >= 0.5 * w as f64 && win.len() >= 20
+impl Stats {
+    /// A quantity relative to the reference, percent.
+    fn rel(&self, a: f64) -> f64 {
+        stationarity::relative_pct(a, self.reference.1)
+    }
 }
 
-/// Drift and band of a window, and — with `full` — the MSER-5 transient, the mean after it
-/// and the CI half-width of that mean.
-fn window_stats(win: &Window, w: usize, full: bool) -> Option<Stats> {
-    if !computed(win, w) {
+/// Statistics of the fitted window `f` (`None` with fewer than 20 values). The CI only with
+/// `with_ci` (it costs an FFT).
+fn window_stats(f: &window::Fitted, magnitude: f64, rc: &Resolved, with_ci: bool) -> Option<Stats> {
+    let win = &f.window;
+    if win.len() < 20 {
         return None;
     }
-    let drift = stationarity::drift_pct(&win.its_f64(), &win.vals, w as f64)?;
-    let band = stationarity::band_pct(&win.vals)?;
-    if !full {
-        let mean = stats::mean(&win.vals)?;
-        return Some(Stats { drift, band, mean, ci_half: f64::NAN, transient: 0 });
-    }
-    let d = stationarity::mser5(&win.vals).unwrap_or(0);
-    let post = if win.len() - d >= 20 { &win.vals[d..] } else { &win.vals[..] };
-    let mean = stats::mean(post)?;
-    let ci_half = stationarity::mean_ci_half(post).unwrap_or(f64::NAN);
-    Some(Stats { drift, band, mean, ci_half, transient: d })
+    let x = win.its_f64();
+    let (lo, hi) = win
+        .vals
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
+    let mean = stats::mean(&win.vals)?;
+    let change = if lo == hi { 0.0 } else { stats::ols(&x, &win.vals)?.slope * f.length as f64 };
+    let remaining =
+        f.projection.map(|p| p.remaining).filter(|r| r.abs() > change.abs() && !rc.window_explicit);
+    let ci_half =
+        if with_ci { stationarity::mean_ci_half(&win.vals).unwrap_or(f64::NAN) } else { f64::NAN };
+    Some(Stats {
+        drift: remaining.unwrap_or(change),
+        remaining: remaining.is_some(),
+        band: hi - lo,
+        mean,
+        ci_half,
+        reference: scale::reference(mean, magnitude, rc.scale),
+        length: f.length,
+    })
 }
 
-/// One windowed criterion of a monitor.
+/// The absolute drift tolerance around a value a monitor converges to: the absolute drift
+/// limit, or the relative one of the reference that value would have.
+fn tolerance(rc: &Resolved, magnitude: f64) -> impl Fn(f64) -> f64 {
+    let (abs, rel, scale) = (rc.drift_abs.map(|l| l.value), rc.drift.value, rc.scale);
+    move |limit: f64| match abs {
+        Some(a) => a,
+        None => rel / 100.0 * scale::reference(limit, magnitude, scale).1,
+    }
+}
+
+/// One windowed criterion of a monitor: its limit, whether it is absolute, and its metric.
 struct Crit {
     name: &'static str,
     lim: Limit,
+    absolute: bool,
     metric: fn(&Stats) -> f64,
     needs_ci: bool,
 }
 
-fn ci_pct(s: &Stats) -> f64 {
-    stationarity::relative_pct(s.ci_half, s.mean)
+impl Crit {
+    fn value(&self, s: &Stats) -> f64 {
+        let v = (self.metric)(s);
+        if self.absolute { v } else { s.rel(v) }
+    }
 }
 
-/// `since` of every criterion in one sweep over checkpoints `last, last − w/10, …` (at most
-/// [`criteria::MAX_CHECKPOINTS`], not before the segment start): a criterion's `since` is the
-/// oldest checkpoint of the unbroken run of checkpoints, from the end, at which it held for
-/// the window ending there (`None` when it does not hold at the end). Each checkpoint's window
-/// statistics are computed once for all criteria still holding; the sweep stops when none does.
-fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Option<i64>> {
+fn crits(rc: &Resolved) -> Vec<Crit> {
+    let pick = |abs: Option<Limit>, rel: Limit| abs.map_or((rel, false), |a| (a, true));
+    let (drift, drift_abs) = pick(rc.drift_abs, rc.drift);
+    let (band, band_abs) = pick(rc.band_abs, rc.band);
+    let mut out = vec![
+        Crit {
+            name: "drift",
+            lim: drift,
+            absolute: drift_abs,
+            metric: |s| s.drift.abs(),
+            needs_ci: false,
+        },
+        Crit { name: "band", lim: band, absolute: band_abs, metric: |s| s.band, needs_ci: false },
+    ];
+    let ci = rc.ci_abs.map(|a| (a, true)).or(rc.ci.map(|l| (l, false)));
+    if let Some((lim, absolute)) = ci {
+        out.push(Crit { name: "ci", lim, absolute, metric: |s| s.ci_half, needs_ci: true });
+    }
+    out
+}
+
+/// Checkpoints for dating: the last iteration, then every tenth of the configured window on
+/// a grid of multiples of that step (so that dates do not move as the run grows), at most
+/// [`criteria::MAX_CHECKPOINTS`], not before the segment start.
+fn checkpoints(v: &View<'_>, w: usize) -> impl Iterator<Item = i64> {
     let last = v.last_it();
     let step = (w / 10).max(1) as i64;
     let floor = v.seg_first_it();
+    let grid = last.div_euclid(step).saturating_mul(step);
+    let first_grid = if grid == last { grid.saturating_sub(step) } else { grid };
+    std::iter::once(last)
+        .chain(
+            (0..criteria::MAX_CHECKPOINTS as i64 - 1)
+                .map(move |j| first_grid.saturating_sub(j.saturating_mul(step))),
+        )
+        .take_while(move |&t| t >= floor)
+}
+
+/// `since` of every criterion: the oldest checkpoint of the unbroken run of checkpoints,
+/// from the end, at which it held for the window ending there (`None` when it does not hold
+/// at the end). The sweep stops when no criterion holds any more.
+fn date_all(
+    v: &View<'_>,
+    rc: &Resolved,
+    mag: &Magnitude,
+    period: Option<f64>,
+    crits: &[Crit],
+    values: &[f64],
+) -> Vec<Option<i64>> {
+    let last = v.last_it();
     let mut since: Vec<Option<i64>> =
         crits.iter().zip(values).map(|(c, x)| (*x <= c.lim.value).then_some(last)).collect();
     let mut alive: Vec<bool> = since.iter().map(Option::is_some).collect();
-    for j in 1..criteria::MAX_CHECKPOINTS as i64 {
-        let t = last.saturating_sub(j.saturating_mul(step));
-        if t < floor || !alive.iter().any(|a| *a) {
+    for t in checkpoints(v, rc.window).skip(1) {
+        if !alive.iter().any(|a| *a) {
             break;
         }
         let need_ci = crits.iter().zip(&alive).any(|(c, a)| *a && c.needs_ci);
-        let st = window_stats(&v.window_map(t, w, |x| x), w, need_ci);
+        let f = window::fit(v, t, rc, period, &tolerance(rc, mag.at(t)));
+        let st = window_stats(&f, mag.at(t), rc, need_ci);
         for (i, c) in crits.iter().enumerate() {
             if !alive[i] {
                 continue;
             }
-            if st.as_ref().is_some_and(|s| (c.metric)(s) <= c.lim.value) {
+            if st.as_ref().is_some_and(|s| c.value(s) <= c.lim.value) {
                 since[i] = Some(t);
             } else {
                 alive[i] = false;
@@ -111,37 +195,111 @@ fn date_all(v: &View<'_>, w: usize, crits: &[Crit], values: &[f64]) -> Vec<Optio
     since
 }
 
-/// Judge one monitor; pushes criteria, findings and the summary into `sink`.
-pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> MonitorFacts {
+/// The periodic component of a monitor: in the evidence window after its transient, or —
+/// when the segment is long and nothing dominant was found — over a longer look-back, so
+/// that periods too long for five cycles in the evidence window are found.
+fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
+    let post = |long: &Window| {
+        let cut = stationarity::mser5(&long.vals).unwrap_or(0);
+        let post = Window { its: long.its[cut..].to_vec(), vals: long.vals[cut..].to_vec() };
+        if post.len() >= 64 { post } else { long.clone() }
+    };
+    let horizon = rc.window as f64;
+    let good = |p: &Option<Periodic>| {
+        p.as_ref().is_some_and(|p| p.osc.p_value < OSC_ALPHA && p.sustained_and_dominant(horizon))
+    };
+    // The envelope (does it keep its amplitude?) over the whole look-back, transient
+    // included: a ring-down shows best over the longest stretch.
+    let e = rc.evidence();
+    let near_win = v.window(e);
+    let near =
+        oscillation::find(&post(&near_win)).map(|p| oscillation::with_envelope_over(p, &near_win));
+    if good(&near) {
+        return near;
+    }
+    let span = v.last_it().saturating_sub(v.seg_first_it()) as usize;
+    if span > 2 * e {
+        let far_win = v.window(LONG_LOOKBACK_WINDOWS * e);
+        let far = oscillation::find(&post(&far_win))
+            .map(|p| oscillation::with_envelope_over(p, &far_win));
+        if good(&far) {
+            return far;
+        }
+    }
+    near
+}
+
+/// Judge one monitor; pushes criteria, findings and the summary into `sink`. `round_off`:
+/// the monitor carries only round-off next to its companions (reported, not judged).
+pub fn analyse(
+    name: &str,
+    v: &View<'_>,
+    rc: &Resolved,
+    mag: &Magnitude,
+    round_off: Option<f64>,
+    sink: &mut Sink,
+) -> MonitorFacts {
     health::non_finite(name, v, sink);
+    let last_it = v.last_it();
+    if let Some(companions) = round_off {
+        let mut f = finding(FindingKind::RoundOff, name, v.seg_first_it(), last_it, "magnitude");
+        f.value = mag.max();
+        f.threshold = Some(scale::ROUNDOFF_SHARE * companions);
+        f.detail = format!(
+            "{name} never exceeds {} while the other monitors reach {}: round-off only (an out-of-plane component?), reported, not judged",
+            num(mag.max()),
+            num(companions),
+        );
+        sink.findings.push(f);
+        sink.monitors.push(MonitorSummary {
+            series: name.into(),
+            last: v.vals[v.len() - 1],
+            mean: f64::NAN,
+            ci_half: f64::NAN,
+            window_first: last_it,
+            window_last: last_it,
+            drift_pct: f64::NAN,
+            band_pct: f64::NAN,
+            round_off: true,
+            ..Default::default()
+        });
+        return MonitorFacts { drift_pct: f64::NAN, ..Default::default() };
+    }
     health::blowup(name, v, rc.evidence(), false, sink);
     let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP);
-    let w = rc.window;
-    let last_it = v.last_it();
-    let win = v.window(w);
-    // The CI is always computed for the summary; it is a criterion only when configured.
-    let st = window_stats(&win, w, true);
 
-    let mut crits = vec![
-        Crit { name: "drift", lim: rc.drift, metric: |s| s.drift.abs(), needs_ci: false },
-        Crit { name: "band", lim: rc.band, metric: |s| s.band, needs_ci: false },
-    ];
-    if let Some(lim) = rc.ci {
-        crits.push(Crit { name: "ci", lim, metric: ci_pct, needs_ci: true });
-    }
+    let per = periodic(v, rc);
+    let decisive_period = per
+        .as_ref()
+        .filter(|p| p.osc.p_value < OSC_ALPHA && p.sustained_and_dominant(rc.window as f64))
+        .map(|p| p.period);
+    health::growing_cycle(name, v, rc, Some(mag), sink);
+
+    let fitted = window::fit(v, last_it, rc, decisive_period, &tolerance(rc, mag.at(last_it)));
+    let win = &fitted.window;
+    let st = window_stats(&fitted, mag.at(last_it), rc, true);
+    let crits = crits(rc);
     let values: Vec<f64> =
-        crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| (c.metric)(s))).collect();
-    let sinces = date_all(v, w, &crits, &values);
-    let mut facts = MonitorFacts { crash_sign, drift_pct: f64::NAN, ..Default::default() };
+        crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| c.value(s))).collect();
+    let sinces = date_all(v, rc, mag, decisive_period, &crits, &values);
+    let mut facts = MonitorFacts {
+        crash_sign,
+        drift_pct: f64::NAN,
+        window: fitted.length,
+        ..Default::default()
+    };
     for ((c, value), since) in crits.iter().zip(&values).zip(sinces) {
-        let res = criteria::result(c.name, name, Comparison::AtMost, c.lim, *value, "%", since);
+        let unit = if c.absolute { "" } else { "%" };
+        let mut res =
+            criteria::result(c.name, name, Comparison::AtMost, c.lim, *value, unit, since);
+        res.window = Some(fitted.length);
         if !res.met && !value.is_nan() {
             facts.failing.push(c.name);
         }
         sink.criteria.push(res);
     }
-    let nan = f64::NAN;
 
+    let nan = f64::NAN;
     let mut summary = MonitorSummary {
         series: name.into(),
         last: v.vals[v.len() - 1],
@@ -149,28 +307,31 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Moni
         ci_half: nan,
         window_first: win.its.first().copied().unwrap_or(last_it),
         window_last: last_it,
-        transient_end: None,
+        transient_end: fitted.transient_end,
         drift_pct: nan,
         band_pct: nan,
         iterative_error: None,
         extrapolated: None,
+        window: fitted.length,
+        ..Default::default()
     };
     if let Some(s) = &st {
-        facts.drift_pct = s.drift;
+        facts.drift_pct = s.rel(s.drift);
         summary.mean = s.mean;
         summary.ci_half = s.ci_half;
-        summary.drift_pct = s.drift;
-        summary.band_pct = s.band;
-        summary.transient_end = (s.transient > 0).then(|| win.its[s.transient.min(win.len() - 1)]);
-        drift_findings(name, &win, s, rc, &facts.failing, sink);
-        // The oscillation test looks at the evidence window (at least 500 iterations) after
-        // the start-up transient MSER-5 finds in it.
-        let long = v.window(rc.evidence());
-        let cut = stationarity::mser5(&long.vals).unwrap_or(0);
-        let post = Window { its: long.its[cut..].to_vec(), vals: long.vals[cut..].to_vec() };
-        let post = if post.len() >= 64 { post } else { long };
-        let band_breaks = facts.failing.iter().any(|c| *c == "drift" || *c == "band");
-        oscillation(name, &post, s.mean, rc.band.value, band_breaks, sink);
+        summary.drift_pct = s.rel(s.drift);
+        summary.band_pct = s.rel(s.band);
+        summary.reference = s.reference.0;
+        summary.reference_value = s.reference.1;
+        let before = sink.findings.len();
+        drift_findings(name, win, s, rc, &crits, &facts.failing, sink);
+        if let Some(f) = sink.findings.get(before) {
+            facts.why = f.detail.clone();
+        }
+        let breaks = facts.failing.iter().any(|c| *c == "drift" || *c == "band");
+        if let Some(p) = &per {
+            oscillation_finding(name, p, s, rc, breaks, sink);
+        }
         if let Some(e) = iterative::block_estimate(&win.vals) {
             summary.iterative_error = Some(e.error);
             summary.extrapolated = Some(e.extrapolated);
@@ -178,11 +339,12 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Moni
                 finding(FindingKind::IterativeError, name, win.its[0], last_it, "iterative_error");
             f.value = e.error;
             f.detail = format!(
-                "{name} approaches {} geometrically (ratio {} per iteration): estimated iterative error {} ({} of the value)",
+                "{name} approaches {} geometrically (ratio {} per iteration): estimated iterative error {} ({} {})",
                 num(e.extrapolated),
                 num(e.lambda),
                 num(e.error),
-                pct(stationarity::relative_pct(e.error, e.extrapolated)),
+                pct(s.rel(e.error)),
+                scale::describe(s.reference.0, s.reference.1),
             );
             sink.findings.push(f);
         }
@@ -196,102 +358,108 @@ fn drift_findings(
     win: &Window,
     s: &Stats,
     rc: &Resolved,
+    crits: &[Crit],
     failing: &[&'static str],
     sink: &mut Sink,
 ) {
     let (first, last) = (win.its[0], win.its[win.len() - 1]);
+    let of = scale::describe(s.reference.0, s.reference.1);
+    let over = format!("the last {} iterations (it {first}–{last})", s.length);
     for &crit in failing {
-        let (stat, value, lim, detail) = match crit {
+        let Some(c) = crits.iter().find(|c| c.name == crit) else { continue };
+        let value = c.value(s);
+        let show = |x: f64| if c.absolute { num(x) } else { format!("{} {of}", pct(x)) };
+        let limit = if c.absolute { num(c.lim.value) } else { pct(c.lim.value) };
+        let (stat, detail) = match crit {
+            "drift" if s.remaining => (
+                "drift_pct",
+                format!(
+                    "{name} is still on its way: its trend projects about {} more change after {over}; limit {limit}",
+                    show(value)
+                ),
+            ),
             "drift" => (
                 "drift_pct",
-                s.drift,
-                rc.drift.value,
                 format!(
-                    "{name} drifts {} over the last {} iterations; limit {}",
-                    signed_pct(s.drift),
-                    rc.window,
-                    pct(rc.drift.value)
+                    "{name} drifts {} over {over}; limit {limit}",
+                    if c.absolute {
+                        num(s.drift)
+                    } else {
+                        format!("{} {of}", signed_pct(s.rel(s.drift)))
+                    }
                 ),
             ),
             "band" => (
                 "band_pct",
-                s.band,
-                rc.band.value,
-                format!(
-                    "{name} moves within a band of {} over the last {} iterations; limit {}",
-                    pct(s.band),
-                    rc.window,
-                    pct(rc.band.value)
-                ),
+                format!("{name} moves within a band of {} over {over}; limit {limit}", show(value)),
             ),
-            _ => {
-                let v = stationarity::relative_pct(s.ci_half, s.mean);
-                let lim = rc.ci.map_or(f64::NAN, |l| l.value);
-                (
-                    "ci_pct",
-                    v,
-                    lim,
-                    format!(
-                        "the mean of {name} is known to ±{} (95 %); limit ±{}",
-                        pct(v),
-                        pct(lim)
-                    ),
-                )
-            }
+            _ => (
+                "ci_pct",
+                format!("the mean of {name} is known to ±{} (95 %); limit ±{limit}", show(value)),
+            ),
         };
         let mut f = finding(FindingKind::MonitorDrift, name, first, last, stat);
         f.value = value;
-        f.threshold = Some(lim);
+        f.threshold = Some(c.lim.value);
         f.detail = detail;
         sink.findings.push(f);
     }
+    let _ = rc;
 }
 
-fn oscillation(
+/// The oscillation finding of a monitor. Decisive when the component is significant,
+/// dominant, sustained (not a ring-down), material (its peak-to-peak amplitude alone reaches
+/// the band limit) and the drift or band criterion fails.
+fn oscillation_finding(
     name: &str,
-    win: &Window,
-    mean: f64,
-    band_limit: f64,
+    p: &Periodic,
+    s: &Stats,
+    rc: &Resolved,
     breaks: bool,
     sink: &mut Sink,
 ) {
-    let k = win.len();
-    if k < OSC_MIN_POINTS {
+    if !(p.osc.p_value < OSC_ALPHA) {
         return;
     }
-    let skip = usize::from(k % 2 == 0);
-    let vals = &win.vals[skip..];
-    let its = &win.its[skip..];
-    let Some(o) = spectrum::find_oscillation(vals) else {
-        return;
+    let amp_pct = s.rel(p.osc.amplitude);
+    let material = match rc.band_abs {
+        Some(l) => 2.0 * p.osc.amplitude >= l.value,
+        None => 2.0 * amp_pct >= OSC_MONITOR_BAND_SHARE * rc.band.value,
     };
-    if !o.significant(OSC_ALPHA) {
-        return;
-    }
-    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
-    let period = o.period * spacing;
-    let amp_pct = stationarity::relative_pct(o.amplitude, mean);
-    let decisive = breaks && 2.0 * amp_pct >= OSC_MONITOR_BAND_SHARE * band_limit;
-    let mut f = finding(FindingKind::Oscillation, name, its[0], its[its.len() - 1], "fisher_g");
-    f.value = o.g;
-    f.threshold = Some(super::residual::fisher_critical(o.m));
-    f.p_value = Some(o.p_value);
-    f.period = Some(period);
+    let horizon = rc.window as f64;
+    let decisive = breaks && material && p.sustained_and_dominant(horizon);
+    let note = if decisive {
+        String::new()
+    } else if p.ring_down(horizon) {
+        let ratio = p.envelope.map_or(f64::NAN, |e| e.ratio);
+        format!(
+            ", ringing down (amplitude ×{} over the window): settling, not a limit cycle",
+            num(ratio)
+        )
+    } else if !p.dominant() {
+        format!(", a weak component ({} of the variance)", pct(100.0 * p.share))
+    } else if !material {
+        ", too small against the band limit".to_string()
+    } else if p.envelope.is_none() {
+        ", too few cycles yet to tell whether it lasts".to_string()
+    } else {
+        ", inside its limits".to_string()
+    };
+    let mut f = finding(FindingKind::Oscillation, name, p.first, p.last, "fisher_g");
+    f.value = p.osc.g;
+    f.threshold = Some(super::residual::fisher_critical(p.osc.m));
+    f.p_value = Some(p.osc.p_value);
+    f.period = Some(p.period);
     f.amplitude = Some(amp_pct);
     f.supports = decisive.then_some(Verdict::Oscillating);
-    let verdict_note = if decisive {
-        ""
-    } else if !breaks {
-        ", inside its limits"
-    } else {
-        ", too small to explain the band"
-    };
     f.detail = format!(
-        "{name} oscillates with a period of {} iterations and ±{}{verdict_note} (Fisher's g = {}, p = {})",
-        num(period),
+        "{name} oscillates with a period of {} iterations and ±{} {}{note} (Fisher's g = {}, p = {}; {} of the variance)",
+        num(p.period),
         pct(amp_pct),
-        num(o.g),
-        num(o.p_value),
+        scale::describe(s.reference.0, s.reference.1),
+        num(p.osc.g),
+        num(p.osc.p_value),
+        pct(100.0 * p.share),
     );
     sink.findings.push(f);
 }
@@ -311,15 +479,18 @@ pub fn analyse_indicator(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::judge::types::SeriesInput;
+    use crate::judge::types::{Criteria, SeriesInput};
+    use crate::record::Role;
     use std::borrow::Cow;
 
     #[test]
-    fn checkpoint_dating_is_bounded_and_stops_at_the_first_failure() {
-        // A monitor that steps from 2 to 1 at it 1000 and is constant after: the band over a
-        // 100-iteration window holds from the window ending at it 1099 on.
+    fn checkpoint_dating_is_bounded_on_a_fixed_grid() {
+        // A monitor that steps from 2 to 1 at it 1000 and is constant after: the band holds
+        // for windows that start after the step.
         let its: Vec<i64> = (1..=3000).collect();
         let vals: Vec<f64> = its.iter().map(|&i| if i < 1000 { 2.0 } else { 1.0 }).collect();
+        let c = Criteria { window: Some(100), ..Default::default() };
+        let rc = criteria::resolve(&c, "m", Role::Monitor);
         let s = SeriesInput {
             name: Cow::Borrowed("m"),
             iterations: Cow::Borrowed(&its),
@@ -328,23 +499,40 @@ mod tests {
             ..Default::default()
         };
         let v = View::new(&s).expect("non-empty");
+        let mag = Magnitude::new(&v);
         let band = Crit {
             name: "band",
             lim: Limit { value: 0.5, default: true },
+            absolute: false,
             metric: |s| s.band,
             needs_ci: false,
         };
-        let since = date_all(&v, 100, std::slice::from_ref(&band), &[0.0]);
-        // Bounded look-back: 49 steps of 10 iterations from 3000.
+        let since = date_all(&v, &rc, &mag, None, std::slice::from_ref(&band), &[0.0]);
+        // Bounded look-back: the last iteration and 49 grid points of 10 iterations.
         assert_eq!(since, vec![Some(3000 - 490)]);
-        let short: Vec<f64> = vals[..1200].to_vec();
-        let s2 = SeriesInput {
-            values: Cow::Borrowed(&short),
-            iterations: Cow::Borrowed(&its[..1200]),
+        let short = SeriesInput {
+            values: Cow::Borrowed(&vals[..1207]),
+            iterations: Cow::Borrowed(&its[..1207]),
             ..s.clone()
         };
-        let v2 = View::new(&s2).expect("non-empty");
-        assert_eq!(date_all(&v2, 100, std::slice::from_ref(&band), &[0.0]), vec![Some(1100)]);
-        assert_eq!(date_all(&v2, 100, std::slice::from_ref(&band), &[1.0]), vec![None]);
+        let v2 = View::new(&short).expect("non-empty");
+        let mag2 = Magnitude::new(&v2);
+        // Grid points 1200, 1190, …, 1100 hold (window (t−100, t] after the step); 1090 not.
+        let d = date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[0.0]);
+        assert_eq!(d, vec![Some(1100)]);
+        // One more value does not move the date.
+        let short3 = SeriesInput {
+            values: Cow::Borrowed(&vals[..1208]),
+            iterations: Cow::Borrowed(&its[..1208]),
+            ..s.clone()
+        };
+        let v3 = View::new(&short3).expect("non-empty");
+        let d3 =
+            date_all(&v3, &rc, &Magnitude::new(&v3), None, std::slice::from_ref(&band), &[0.0]);
+        assert_eq!(d3, vec![Some(1100)]);
+        assert_eq!(
+            date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[1.0]),
+            vec![None]
+        );
     }
 }

@@ -7,11 +7,12 @@
 //! oscillation) uses the latest segment only, and `since` dates stay within it.
 
 use super::criteria::{self, Resolved};
+use super::eta;
 use super::limits::*;
+use super::oscillation;
 use super::series::{self, View};
-use super::spectrum;
 use super::stats;
-use super::text::{dec, its, num};
+use super::text::{dec, its, num, pct};
 use super::trend::{self, MIN_FALL_DEC_PER_KIT, Trend};
 use super::types::{Comparison, FindingKind, ResidualSummary, Verdict};
 use super::{Sink, finding, health};
@@ -50,7 +51,14 @@ fn levels(v: &View<'_>) -> Option<Levels> {
 }
 
 /// Judge one residual series; pushes criteria, findings and the summary into `sink`.
-pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> ResidualFacts {
+/// `input_ended`: the log has its end-of-run mark (a finished run that ends flat stalled).
+pub fn analyse(
+    name: &str,
+    v: &View<'_>,
+    rc: &Resolved,
+    input_ended: bool,
+    sink: &mut Sink,
+) -> ResidualFacts {
     let n = v.len();
     let last_it = v.last_it();
     let last_raw = v.vals[n - 1];
@@ -90,6 +98,8 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
             slope_dec_per_kit: f64::NAN,
             slope_ci: (f64::NAN, f64::NAN),
             eta_iterations: None,
+            eta_range: None,
+            eta_window: None,
         });
         return ResidualFacts { met: false, crash_sign };
     };
@@ -120,33 +130,45 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
     }
 
     // Trend over the window of the latest segment, without its start-up once there is enough
-    // after it: a pseudo-plateau or a start-up rise must not pass for a stall (DESIGN §7).
+    // after it: a pseudo-plateau or a start-up rise must not pass for a stall.
     let w = rc.evidence();
-    let win = v.window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN });
+    let to_log = |x: f64| if x > 0.0 { x.log10() } else { f64::NAN };
+    let win = v.window_map(last_it, w, to_log);
     let post = win.from_iteration(series::startup_end(v.seg_first_it()));
     let settled = if post.len() >= 30 { &post } else { &win };
     let tr = trend::fit(&settled.its, &settled.vals);
     let falling = tr.is_some_and(|t| t.falling(MIN_FALL_DEC_PER_KIT));
-    let eta = if met { None } else { tr.and_then(|t| t.eta(target.log10())) };
-    let full = post.span() as f64 >= 0.9 * w as f64 && post.len() >= 30;
+    let eta = if met { None } else { eta::estimate(v, target.log10(), w) };
     let half = post.span() as f64 >= 0.5 * w as f64 && post.len() >= OSC_MIN_POINTS;
 
     let diverging = divergence(name, v, &win, w, sink);
+    let growing = !diverging && health::growing_cycle(name, v, rc, None, sink);
 
     if let Some(t) = tr {
         if !met && falling {
             trend_finding(name, &t, target, eta, sink);
-        } else if !met && full && !diverging && drop < ROUNDOFF_DROP_DEC {
-            stall(name, v, &t, drop, rc, sink);
+        } else if !met && !diverging && !growing && drop < ROUNDOFF_DROP_DEC {
+            stall(name, v, rc, drop, input_ended, sink);
         }
     }
-    if half && !falling {
+    if half && !growing {
         // Decisive when the criteria are not met, or met only at this point of the cycle: the
         // crest of the oscillation around the fitted level is above the target.
         let crest_above = |amp: f64| tr.is_none_or(|t| t.fitted_last + amp > target.log10());
-        oscillation(name, &post, |amp| !met || crest_above(amp), sink);
-    } else if half {
-        oscillation(name, &post, |_| false, sink);
+        let may_decide = |amp: f64| !falling && (!met || crest_above(amp));
+        // Too few cycles of a long period in the evidence window: look back over twice it
+        // (still after the start-up), where a real limit cycle shows more of them.
+        let cycles_in = |p: &oscillation::Periodic| (p.last - p.first) as f64 / p.period;
+        let near = oscillation::find(&post);
+        let far =
+            near.as_ref().filter(|p| cycles_in(p) < OSC_MIN_CYCLES_TO_DECIDE).and_then(|_| {
+                let long = v
+                    .window_map(last_it, 2 * w, to_log)
+                    .from_iteration(series::startup_end(v.seg_first_it()));
+                (long.span() > post.span() + w as i64 / 5).then_some(long)
+            });
+        let win = far.as_ref().unwrap_or(&post);
+        oscillation_finding(name, win, rc.window as f64, may_decide, sink);
     }
     frozen(name, v, sink);
     step_drop(name, v, &lv, drop, rc.drop.value, drop_since.is_some(), sink);
@@ -159,7 +181,9 @@ pub fn analyse(name: &str, v: &View<'_>, rc: &Resolved, sink: &mut Sink) -> Resi
         drop_dec: drop,
         slope_dec_per_kit: tr.map_or(f64::NAN, |t| t.slope_dec_per_kit),
         slope_ci: tr.map_or((f64::NAN, f64::NAN), |t| t.ci),
-        eta_iterations: eta,
+        eta_iterations: eta.map(|e| e.iterations),
+        eta_range: eta.map(|e| e.range),
+        eta_window: eta.map(|e| e.window),
     });
     ResidualFacts { met, crash_sign }
 }
@@ -178,25 +202,61 @@ fn scan_since(v: &View<'_>, ok: impl Fn(f64) -> bool) -> Option<i64> {
     since
 }
 
-fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<f64>, sink: &mut Sink) {
-    let when = match eta {
-        Some(e) => format!("; about {} iterations to reach {}", its(e), num(target)),
-        None => String::new(),
-    };
+fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<eta::Eta>, sink: &mut Sink) {
     let mut f = finding(FindingKind::Trend, name, t.first, t.last, "slope_dec_per_kit");
     f.value = t.slope_dec_per_kit;
     f.threshold = Some(-MIN_FALL_DEC_PER_KIT);
     f.supports = Some(Verdict::Converging);
     f.detail = format!(
-        "{name} falls {} dec per 1000 it (95 % CI {}…{}){when}",
+        "{name} falls {} dec per 1000 it (95 % CI {}…{})",
         dec(-t.slope_dec_per_kit),
         dec(t.ci.0),
         dec(t.ci.1),
     );
+    if let Some(e) = eta {
+        // Appended by the judge only when nothing argues for divergence.
+        let note = format!(
+            "; about {} iterations to reach {} (range {}–{}, from the rate over the last {} iterations)",
+            its(e.iterations),
+            num(target),
+            its(e.range.0),
+            its(e.range.1),
+            e.window,
+        );
+        sink.eta_notes.push((sink.findings.len(), note));
+    }
     sink.findings.push(f);
 }
 
-fn stall(name: &str, v: &View<'_>, t: &Trend, drop: f64, rc: &Resolved, sink: &mut Sink) {
+/// The stall test: the criteria are unmet, and over the stall window after the start-up the
+/// residual's 95 % upper slope bound is not below −0.1 dec/kit. The window is at least
+/// [`STALL_MIN_ITERATIONS`] (pseudo-plateaus of a developing flow last hundreds of
+/// iterations); for a finished run (end-of-run mark) the evidence window, or half the segment
+/// of a short run, will do.
+fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: &mut Sink) {
+    let last_it = v.last_it();
+    let seg_len = last_it.saturating_sub(v.seg_first_it()).saturating_add(1).max(1) as usize;
+    let mut w = rc.evidence().max(STALL_MIN_ITERATIONS);
+    let mut startup = series::startup_end(v.seg_first_it());
+    if ended {
+        // The run is over: no later fall can make this plateau a pseudo-plateau, so the
+        // evidence window will do, or half the segment of a short run.
+        w = rc.evidence();
+        if seg_len < w + series::STARTUP_ITERATIONS as usize {
+            w = w.min(seg_len / 2);
+            startup = v.seg_first_it().saturating_add((seg_len / 5) as i64);
+        }
+    }
+    let win = v
+        .window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN })
+        .from_iteration(startup);
+    if !(win.span() as f64 >= 0.9 * w as f64 && win.len() >= 30) {
+        return;
+    }
+    let Some(t) = trend::fit(&win.its, &win.vals) else { return };
+    if t.falling(MIN_FALL_DEC_PER_KIT) {
+        return;
+    }
     // Date the plateau: walk back from the window start until the residual was clearly above
     // the plateau level (bounded look-back of 20 windows).
     let band = (4.0 * t.resid_sd).max(0.3);
@@ -242,6 +302,45 @@ fn divergence(
     let last_it = v.last_it();
     let startup_end = series::startup_end(v.seg_first_it());
     let mut found = false;
+
+    // 0. Any time, start-up included: many decades beyond the segment's first values and
+    // still shooting up (the start-up excuses a rise of a decade or two, never this).
+    let n = v.len();
+    let now = stats::median(
+        &v.vals[n.saturating_sub(5).max(v.seg)..]
+            .iter()
+            .copied()
+            .filter(|x| *x > 0.0)
+            .collect::<Vec<_>>(),
+    );
+    let end = n.saturating_sub(5).max(v.seg);
+    let before = stats::median(
+        &v.vals[end.saturating_sub(20).max(v.seg)..end]
+            .iter()
+            .copied()
+            .filter(|x| *x > 0.0)
+            .collect::<Vec<_>>(),
+    );
+    if let (Some(early), Some(c), Some(b)) = (series::early_max_abs(v), now, before)
+        && early > 0.0
+        && (c / early).log10() >= STARTUP_BLOWUP_DEC
+        && c >= 10.0 * b
+    {
+        let above = (c / early).log10();
+        let mut f =
+            finding(FindingKind::Divergence, name, v.its[end], last_it, "decades_above_start");
+        f.value = above;
+        f.threshold = Some(STARTUP_BLOWUP_DEC);
+        f.supports = Some(Verdict::Diverging);
+        f.detail = format!(
+            "{name} is {} decades above its first values (at most {} then, {} now) and still shooting up",
+            dec(above),
+            num(early),
+            num(c),
+        );
+        sink.findings.push(f);
+        return true;
+    }
 
     // 1. Significantly rising after the start-up, by a material amount.
     let post = win.from_iteration(startup_end);
@@ -302,7 +401,6 @@ fn divergence(
     }
     let look_back = startup_end.max(last_it.saturating_sub(20 * window as i64));
     let from = v.seg + v.its[v.seg..].partition_point(|&i| i < look_back);
-    let n = v.len();
     let current = stats::median(
         &v.vals[n.saturating_sub(5).max(v.seg)..]
             .iter()
@@ -334,35 +432,57 @@ fn divergence(
     found
 }
 
-fn oscillation(name: &str, win: &series::Window, decisive: impl Fn(f64) -> bool, sink: &mut Sink) {
-    let mut vals: &[f64] = &win.vals;
-    let mut its: &[i64] = &win.its;
-    if vals.len() % 2 == 0 {
-        // Odd length keeps a period-2 oscillation off the dropped Nyquist ordinate.
-        vals = &vals[1..];
-        its = &its[1..];
-    }
-    let Some(o) = spectrum::find_oscillation(vals) else {
+/// The residual oscillation finding. `may_decide(amplitude)` says whether the criteria leave
+/// room for it to decide; it decides when, in addition, the component is significant at
+/// [`OSC_ALPHA`], dominates the window, keeps its amplitude and is at least
+/// ±[`OSC_MIN_RESIDUAL_DEC`]. A weaker periodic component is a note (a stalled run's ripple).
+fn oscillation_finding(
+    name: &str,
+    win: &series::Window,
+    horizon: f64,
+    may_decide: impl Fn(f64) -> bool,
+    sink: &mut Sink,
+) {
+    let Some(p) = oscillation::find(win) else {
         return;
     };
-    if !o.significant(OSC_ALPHA) || o.amplitude < OSC_MIN_RESIDUAL_DEC {
+    let o = &p.osc;
+    if !(o.p_value < OSC_ALPHA && o.steady()) {
         return;
     }
-    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
-    let period = o.period * spacing;
-    let mut f = finding(FindingKind::Oscillation, name, its[0], its[its.len() - 1], "fisher_g");
+    let material = o.amplitude >= OSC_MIN_RESIDUAL_DEC;
+    let cycles = (p.last.saturating_sub(p.first)) as f64 / p.period;
+    let decisive = material
+        && cycles >= OSC_MIN_CYCLES_TO_DECIDE
+        && p.sustained_and_dominant(horizon)
+        && may_decide(o.amplitude);
+    let note = if decisive {
+        ""
+    } else if p.ring_down(horizon) {
+        ", ringing down: settling"
+    } else if !p.dominant() {
+        ", a weak ripple in broadband noise"
+    } else if !material {
+        ", too small to matter"
+    } else if cycles < OSC_MIN_CYCLES_TO_DECIDE {
+        ", too few cycles in the window to tell it from slow noise"
+    } else {
+        ""
+    };
+    let mut f = finding(FindingKind::Oscillation, name, p.first, p.last, "fisher_g");
     f.value = o.g;
     f.threshold = Some(fisher_critical(o.m));
     f.p_value = Some(o.p_value);
-    f.period = Some(period);
+    f.period = Some(p.period);
     f.amplitude = Some(o.amplitude);
-    f.supports = decisive(o.amplitude).then_some(Verdict::Oscillating);
+    f.supports = decisive.then_some(Verdict::Oscillating);
     f.detail = format!(
-        "{name} oscillates with a period of {} iterations and ±{} decades (Fisher's g = {}, p = {})",
-        num(period),
+        "{name} oscillates with a period of {} iterations and ±{} decades{note} (Fisher's g = {}, p = {}; {} of the variance)",
+        num(p.period),
         dec(o.amplitude),
         num(o.g),
         num(o.p_value),
+        pct(100.0 * p.share),
     );
     sink.findings.push(f);
 }

@@ -154,10 +154,28 @@ impl<'s> View<'s> {
 /// Length of the start-up in iterations at the beginning of every segment.
 ///
 /// Residuals often rise in the first tens to hundreds of iterations while the flow develops,
-/// and monitors ramp up from zero (DESIGN §7): growth there is not divergence. 200 is our
-/// reading of "tens to hundreds"; blow-ups inside it are still caught by non-finite values
-/// and crash signatures.
+/// and monitors ramp up from zero: a rise of a decade or two there is not
+/// divergence. 200 is our reading of "tens to hundreds". The allowance excuses only that:
+/// growth by many orders of magnitude against the segment's first values, an indicator
+/// pinned at its maximum, sustained exponential growth and a growing oscillation are
+/// divergence inside it too (see `health`).
 pub const STARTUP_ITERATIONS: i64 = 200;
+
+/// Values at the start of a segment that stand for its "early range": what the quantity was
+/// before anything developed (ours: a few iterations, before a blow-up can have started).
+pub const EARLY_VALUES: usize = 10;
+
+/// Largest finite |value| among the first [`EARLY_VALUES`] values of the latest segment
+/// (`None` when there is none).
+pub fn early_max_abs(v: &View<'_>) -> Option<f64> {
+    let end = (v.seg + EARLY_VALUES).min(v.len());
+    let m = v.vals[v.seg..end]
+        .iter()
+        .filter(|x| x.is_finite())
+        .map(|x| x.abs())
+        .fold(f64::NAN, f64::max);
+    m.is_finite().then_some(m)
+}
 
 /// First iteration after the start-up of a segment that began at `seg_first`.
 pub fn startup_end(seg_first: i64) -> i64 {

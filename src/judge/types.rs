@@ -37,7 +37,7 @@ pub struct RunInput<'a> {
     pub ended_at: Option<i64>,
 }
 
-/// The state of a run (DESIGN §4). Lowercase in JSON and on the command line.
+/// The state of a run. Lowercase in JSON and on the command line.
 #[derive(
     Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default, PartialOrd, Ord,
 )]
@@ -146,6 +146,11 @@ pub enum FindingKind {
     Stale,
     /// An action ran (live only): command, exit status.
     Action,
+    /// An oscillation whose amplitude grows cycle after cycle (the prelude of a blow-up).
+    GrowingOscillation,
+    /// A monitor that carries only round-off next to its companions (the out-of-plane force
+    /// of a 2-D case): reported, not judged (informational).
+    RoundOff,
 }
 
 impl FindingKind {
@@ -169,6 +174,8 @@ impl FindingKind {
             FindingKind::Restart => "restart",
             FindingKind::Stale => "stale",
             FindingKind::Action => "action",
+            FindingKind::GrowingOscillation => "growing_oscillation",
+            FindingKind::RoundOff => "round_off",
         }
     }
 }
@@ -228,6 +235,52 @@ pub struct CriterionResult {
     pub since: Option<i64>,
     /// True when the threshold comes from the built-in defaults (common practice).
     pub default: bool,
+    /// Monitor criteria: the window actually used, in iterations (adaptive by default, see
+    /// [`MonitorSummary::window`]).
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub window: Option<usize>,
+}
+
+impl CriterionResult {
+    /// The value as text, rounded so that the text never looks like it meets a threshold the
+    /// value misses (2.996 decades of a 3-decade drop shows as `2.99`, not `3`); `n/a` when it
+    /// could not be computed.
+    pub fn value_text(&self) -> String {
+        if self.value.is_nan() {
+            return "n/a".into();
+        }
+        if self.value.is_infinite() {
+            return if self.value > 0.0 { "+inf".into() } else { "-inf".into() };
+        }
+        let decimals = match self.unit.as_str() {
+            "dec" => 2,
+            "%" => 3,
+            _ => return super::text::num(self.value),
+        };
+        let scale = 10f64.powi(decimals);
+        // Round towards "not met" when unmet, towards "met" when met.
+        let toward_up = matches!(
+            (self.comparison, self.met),
+            (Comparison::AtLeast, true) | (Comparison::AtMost, false)
+        );
+        let v = self.value * scale;
+        let r = if toward_up { v.ceil() } else { v.floor() };
+        format!("{:.*}", decimals as usize, r / scale)
+    }
+}
+
+/// Which reference a monitor's drift, band and CI are relative to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum Reference {
+    /// |mean| over the window (the usual case).
+    #[default]
+    Mean,
+    /// The mean is near zero against the monitor's own magnitude: a tenth of its largest
+    /// magnitude in the latest segment ([`super::limits::NEAR_ZERO_SHARE`]).
+    NearZero,
+    /// The `scale` set for the series in `settle.toml`.
+    Scale,
 }
 
 /// Per-residual numbers shown in views and reports.
@@ -242,8 +295,15 @@ pub struct ResidualSummary {
     pub slope_dec_per_kit: f64,
     /// 95 % confidence interval of the slope.
     pub slope_ci: (f64, f64),
-    /// Estimated iterations still needed to reach the target, when falling.
+    /// Estimated iterations still needed to reach the target, from the recent rate; `None`
+    /// when the residual is not significantly falling or anything argues for divergence.
     pub eta_iterations: Option<f64>,
+    /// Range of that estimate from the 95 % interval of the recent rate (fewest, most).
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub eta_range: Option<(f64, f64)>,
+    /// Iterations of recent history the rate and the estimate come from.
+    #[serde(skip_serializing_if = "Option::is_none", default)]
+    pub eta_window: Option<usize>,
 }
 
 /// Per-monitor numbers over the final window.
@@ -266,6 +326,32 @@ pub struct MonitorSummary {
     pub iterative_error: Option<f64>,
     /// Extrapolated converged value, when the history converges geometrically.
     pub extrapolated: Option<f64>,
+    /// Iterations of the window drift, band and CI were computed over (`window_last −
+    /// window_first + 1` for one value per iteration): by default the part of the configured
+    /// window after the start-up transient, see the README.
+    #[serde(default)]
+    pub window: usize,
+    /// What drift, band and CI are relative to, and its value (absolute).
+    #[serde(default)]
+    pub reference: Reference,
+    #[serde(default)]
+    pub reference_value: f64,
+    /// The monitor carries only round-off next to its companions and is not judged.
+    #[serde(default)]
+    pub round_off: bool,
+}
+
+/// Why a run has no verdict: there is nothing to judge.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum NothingToJudge {
+    /// No series holds a single value.
+    #[error("no data: no values were read")]
+    NoData,
+    /// Values were read, but every series is `info` or ignored by the criteria.
+    #[error(
+        "nothing to judge: the {series} series read are all `info` or ignored (set a role or remove `ignore`)"
+    )]
+    NothingJudged { series: usize },
 }
 
 /// Everything the judge says about a run.
@@ -299,6 +385,14 @@ pub struct SeriesCriteria {
     pub band: Option<f64>,
     /// Maximum half-width of the 95 % CI of the mean, percent of the mean (monitors).
     pub ci: Option<f64>,
+    /// Reference value drift, band and CI are relative to, instead of the mean (monitors whose
+    /// mean is near zero: a side force, a probe at the reference pressure).
+    pub scale: Option<f64>,
+    /// Absolute limits in the monitor's own unit; each replaces the relative limit of the
+    /// same criterion.
+    pub drift_abs: Option<f64>,
+    pub band_abs: Option<f64>,
+    pub ci_abs: Option<f64>,
     /// Override the role given by the parser.
     pub role: Option<Role>,
     /// Leave this series out of the judgement.
@@ -314,7 +408,8 @@ pub struct Criteria {
     pub residual_drop: Option<f64>,
     /// Absolute residual target (default: none).
     pub residual_below: Option<f64>,
-    /// Final window length in iterations for monitors and trends (default 500).
+    /// Final window length in iterations for monitors and trends. Unset: adaptive, at most
+    /// 500 (see the README); set: used exactly as given.
     pub window: Option<usize>,
     /// Maximum monitor drift over the window, percent (default 0.1).
     pub drift: Option<f64>,

@@ -1,4 +1,4 @@
-//! From findings and criterion results to the run's verdict (DESIGN §4).
+//! From findings and criterion results to the run's verdict.
 //!
 //! Each finding names the verdict it argues for (`supports`). The first verdict of the order
 //! `diverging`, `oscillating`, `suspect`, `stalled` that any finding supports wins, and the

@@ -83,6 +83,8 @@ pub fn kind_words(k: FindingKind) -> &'static str {
         FindingKind::Restart => "restart",
         FindingKind::Stale => "stale",
         FindingKind::Action => "action",
+        FindingKind::GrowingOscillation => "growing oscillation",
+        FindingKind::RoundOff => "round-off only",
     }
 }
 

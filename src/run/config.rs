@@ -261,6 +261,10 @@ pub fn check_criteria(c: &Criteria) -> Result<(), (String, String)> {
         positive(k("drift"), s.drift)?;
         positive(k("band"), s.band)?;
         positive(k("ci"), s.ci)?;
+        positive(k("scale"), s.scale)?;
+        positive(k("drift_abs"), s.drift_abs)?;
+        positive(k("band_abs"), s.band_abs)?;
+        positive(k("ci_abs"), s.ci_abs)?;
     }
     Ok(())
 }
@@ -310,6 +314,30 @@ command = ["scancel", "{job}"]
         assert_eq!(spec.job.as_deref(), Some("4711"));
         assert_eq!(spec.actions.len(), 1);
         assert_eq!(spec.actions[0].command, vec!["scancel", "{job}"]);
+    }
+
+    #[test]
+    fn per_series_scale_and_absolute_limits_parse_and_are_checked() {
+        let text = "[[source]]\npath='a'\n[criteria.series.Cs]\nscale = 0.03\nband_abs = 2e-5\n\
+                    drift_abs = 1e-5\nci_abs = 4e-6\n";
+        let spec = parse(text, Path::new("s.toml")).unwrap();
+        let cs = &spec.criteria.series["Cs"];
+        assert_eq!(
+            (cs.scale, cs.drift_abs, cs.band_abs, cs.ci_abs),
+            (Some(0.03), Some(1e-5), Some(2e-5), Some(4e-6))
+        );
+        let err =
+            parse("[[source]]\npath='a'\n[criteria.series.Cs]\nscale = 0\n", Path::new("s.toml"))
+                .unwrap_err()
+                .to_string();
+        assert!(err.contains("criteria.series.Cs.scale") && err.contains("positive"), "{err}");
+        let err = parse(
+            "[[source]]\npath='a'\n[criteria.series.Cs]\nband_abs = -1\n",
+            Path::new("s.toml"),
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(err.contains("band_abs"), "{err}");
     }
 
     #[test]

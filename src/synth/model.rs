@@ -15,7 +15,8 @@ mod plan;
 use std::f64::consts::TAU;
 
 use super::rng::{Ar1, Rng};
-use super::{Crash, EQUATIONS, End, Header, Options, SWEEP_LIMIT, Scenario, Step, SynthRun};
+use super::{Crash, EQUATIONS, End, Header, Options, SWEEP_LIMIT, Scenario, Step, SynthRun, Truth};
+use crate::judge::Criteria;
 use plan::{Plan, Tail};
 
 /// Invented case names.
@@ -117,7 +118,7 @@ pub(super) struct Common {
 impl Common {
     fn draw(r: &mut Rng, scenario: Scenario, options: &Options) -> Common {
         let drawn_n = r.int_range(1500, 4000) as usize;
-        let n = options.iterations.unwrap_or(drawn_n).max(200);
+        let n = options.iterations.unwrap_or_else(|| default_length(scenario, drawn_n)).max(200);
         let drawn_case = r.pick(&CASES);
         let case = options.case.clone().unwrap_or_else(|| drawn_case.to_string());
         let version = r.pick(&["3.1.4", "3.2.0", "3.2.1"]);
@@ -142,7 +143,8 @@ impl Common {
                 r.pick(&[0.6, 0.7, 0.8]),
             ]
         };
-        let header = Header { version, cells, zones, started, relaxation };
+        let model = if scenario == Scenario::ShortLaminar { "laminar" } else { "k-omega SST" };
+        let header = Header { version, cells, zones, started, relaxation, model };
 
         let lead = r.pick(&[0usize, 3, 4]);
         let phi_run = r.range(0.5, 0.95);
@@ -233,6 +235,18 @@ impl Common {
     }
 }
 
+/// Run length of a scenario when the options do not fix it, from the 1500–4000 drawn for
+/// every run (mapped linearly, so no scenario draws more numbers than another).
+fn default_length(scenario: Scenario, drawn: usize) -> usize {
+    let map = |lo: usize, hi: usize| lo + (drawn - 1500) * (hi - lo) / 2500;
+    match scenario {
+        Scenario::ShortLaminar => map(300, 600),
+        Scenario::FloorZeroSweeps => map(500, 1200),
+        Scenario::LongPeriodCycle => map(3500, 4500),
+        _ => drawn,
+    }
+}
+
 /// Build the run of `scenario` for `seed`.
 pub(super) fn generate(scenario: Scenario, seed: u64, options: &Options) -> SynthRun {
     let index = Scenario::all().iter().position(|s| *s == scenario).unwrap_or(0) as u64;
@@ -243,11 +257,18 @@ pub(super) fn generate(scenario: Scenario, seed: u64, options: &Options) -> Synt
     let nrng = root.fork(2);
     let mut common = Common::draw(&mut prng, scenario, options);
     let plan = plan::build(scenario, &mut common, &mut prng);
-    let mut run = simulate(&common, &plan, nrng);
+    let (mut run, mon_nf) = simulate(&common, &plan, nrng);
     run.scenario = scenario;
     run.seed = seed;
     if scenario == Scenario::FalseConvergence {
         run.onset = residual_criteria_met_at(&run.steps);
+    }
+    if scenario.expected() == crate::judge::Verdict::Converged {
+        let monitors = monitors_settled_step(&run.steps, &mon_nf);
+        run.truth.settled = match (run.truth.residuals_met, monitors) {
+            (Some(r), Some(m)) if r < run.steps.len() => Some(r.max(m)),
+            _ => None,
+        };
     }
     run
 }
@@ -331,9 +352,13 @@ struct Sim<'a> {
     /// First iteration of the current solver process and its step count.
     process_start: i64,
     process_steps: usize,
+    /// Noise-free drag, lift and dp of every step so far (for the true settling iteration).
+    mon_nf: Vec<[f64; 3]>,
 }
 
-fn simulate(c: &Common, p: &Plan, mut rng: Rng) -> SynthRun {
+/// Walk the iterations; returns the run (its truth holds the residual dating only) and the
+/// noise-free monitors of every step.
+fn simulate(c: &Common, p: &Plan, mut rng: Rng) -> (SynthRun, Vec<[f64; 3]>) {
     let shared = Ar1::new(c.shared_phi, 1.0, &mut rng);
     let own = c.eqs.iter().map(|e| Ar1::new(e.phi, 1.0, &mut rng)).collect();
     let floor_noise = c.eqs.iter().map(|_| Ar1::new(c.floor_phi, 1.0, &mut rng)).collect();
@@ -364,6 +389,7 @@ fn simulate(c: &Common, p: &Plan, mut rng: Rng) -> SynthRun {
         frozen: None,
         process_start: 1,
         process_steps: 0,
+        mon_nf: Vec::new(),
     };
 
     let mut steps: Vec<Step> = Vec::new();
@@ -378,7 +404,7 @@ fn simulate(c: &Common, p: &Plan, mut rng: Rng) -> SynthRun {
             solver_converged = p.mark_on_target;
             break;
         }
-        if it as usize >= p.n_max {
+        if it as usize >= p.n_max + p.continuation {
             break;
         }
         match &p.restart {
@@ -394,7 +420,8 @@ fn simulate(c: &Common, p: &Plan, mut rng: Rng) -> SynthRun {
     }
 
     let crash = (p.end == End::Crash).then(|| crash_signature(p, &mut sim.rng));
-    SynthRun {
+    let mon_nf = std::mem::take(&mut sim.mon_nf);
+    let mut run = SynthRun {
         scenario: Scenario::Converging,
         seed: 0,
         case: c.case.clone(),
@@ -404,7 +431,69 @@ fn simulate(c: &Common, p: &Plan, mut rng: Rng) -> SynthRun {
         end: p.end,
         solver_converged,
         crash,
+        truth: Truth::default(),
+    };
+    if p.laminar {
+        laminar(&mut run.steps);
     }
+    // The continuation only dates the residual criteria of a run stopped before.
+    run.truth.residuals_met = residuals_met_step(&run.steps);
+    let keep = run.steps.len() - p.continuation.min(run.steps.len());
+    run.steps.truncate(keep);
+    (run, mon_nf)
+}
+
+/// Drop the k and omega equations (and their clipping notices and warnings) of a laminar run.
+fn laminar(steps: &mut [Step]) {
+    for st in steps {
+        st.residuals.truncate(4);
+        st.sweeps.truncate(4);
+        st.notices.clear();
+        st.warnings.retain(|w| !w.contains(" k ") && !w.contains(" omega "));
+    }
+}
+
+/// First step from which every residual's printed value stays at least 3 decades (the
+/// default drop, common practice) below its running peak, to the last step.
+pub(super) fn residuals_met_step(steps: &[Step]) -> Option<usize> {
+    let mut peak: Vec<f64> = Vec::new();
+    let mut first_of_run: Option<usize> = None;
+    for (k, st) in steps.iter().enumerate() {
+        peak.resize(st.residuals.len().max(peak.len()), 0.0);
+        let mut met = !st.residuals.is_empty();
+        for (e, (_, v)) in st.residuals.iter().enumerate() {
+            if v.is_finite() {
+                peak[e] = peak[e].max(*v);
+            }
+            met &= v.is_finite() && *v <= peak[e] * 1e-3;
+        }
+        first_of_run = if met { first_of_run.or(Some(k)) } else { None };
+    }
+    first_of_run
+}
+
+/// First step from which every judged monitor of the noise-free model stays within the
+/// default drift limit (0.1 %) of its final noise-free value, relative to the reference the
+/// judge uses by default: `max(|final|, κ·M)` with `M` the largest noise-free magnitude of
+/// the latest segment and `κ` [`crate::judge::limits::NEAR_ZERO_SHARE`].
+pub(super) fn monitors_settled_step(steps: &[Step], nf: &[[f64; 3]]) -> Option<usize> {
+    let n = nf.len().min(steps.len());
+    if n == 0 {
+        return None;
+    }
+    let seg = steps[..n].iter().rposition(|s| s.restart_from.is_some()).unwrap_or(0);
+    let mut settled = 0usize;
+    for m in 0..3 {
+        let fin = nf[n - 1][m];
+        let big = nf[seg..n].iter().map(|v| v[m].abs()).fold(0.0f64, f64::max);
+        let reference = fin.abs().max(crate::judge::limits::NEAR_ZERO_SHARE * big);
+        let tol = Criteria::DEFAULT_DRIFT_PCT / 100.0 * reference;
+        // NaN (a value the model could not give) counts as outside.
+        let inside = |k: usize| (nf[k][m] - fin).abs() <= tol;
+        let last_out = (0..n).rev().find(|&k| !inside(k));
+        settled = settled.max(last_out.map_or(0, |k| k + 1));
+    }
+    (settled < n).then_some(settled)
 }
 
 /// The crash lines: which routine failed decides how much of the last record was printed.
@@ -459,7 +548,9 @@ impl Sim<'_> {
         let mut env = 0.0;
         if let Some(cy) = &p.cycle {
             self.theta += TAU / cy.period * (1.0 + self.jitter.next(&mut self.rng));
-            if x >= cy.onset {
+            if x >= cy.onset && cy.exp_growth {
+                env = ((x - cy.onset) / cy.grow).exp();
+            } else if x >= cy.onset {
                 env = 1.0 - (-(x - cy.onset) / cy.grow).exp();
                 env *= 1.0 + cy.mod_depth * (TAU * x / cy.mod_period).sin();
             }
@@ -516,9 +607,18 @@ impl Sim<'_> {
                 + wander
                 + restart_jump;
             let fnoise = self.floor_noise[e].next(&mut self.rng);
-            let floor = p.floor.unwrap_or(c.floor_level) + eq.floor_spread + c.floor_sd * fnoise;
+            // A noisy floor grows its noise in with the others (the first value stays 1).
+            let floor_sd = if p.zero_sweeps { c.floor_sd * ramp_noise } else { c.floor_sd };
+            let floor = p.floor.unwrap_or(c.floor_level) + eq.floor_spread + floor_sd * fnoise;
             on_floor[e] = p.floor.is_some() && l < floor - 0.3;
             l = log_add(l, floor);
+            if let Some(cap) = p.res_cap
+                && p.cycle.as_ref().is_some_and(|cy| x >= cy.onset)
+            {
+                // Normalised residuals saturate once the instability grows: a smooth minimum
+                // with the cap (before it the first value stays exactly 1).
+                l = -log_add(-l, -cap);
+            }
             let mut v = clamp_mag(10f64.powf(l.min(300.0)));
             if let Some(fz) = &p.freeze
                 && e == fz.eq
@@ -566,12 +666,23 @@ impl Sim<'_> {
             _ => 0.0,
         };
         let mut mons = [0.0f64; 3];
+        let mut mons_nf = [0.0f64; 3];
         for (m, mp) in c.mons.iter().enumerate() {
             let e_slow = 10f64.powf(mp.beta * slow);
             let mut rel = mp.delta * e_slow
                 + mp.osc_amp
                     * (-x / mp.osc_tau).exp()
                     * (TAU * x / mp.osc_period + mp.osc_phase).sin();
+            // The noise-free part (no cycle phase, wander or noise: only the deterministic
+            // terms of the converging scenarios), added term by term beside `rel`.
+            let mut rel_nf = rel;
+            if let Some(rd) = &p.ringdown
+                && rd.monitor == m
+            {
+                let ring = rd.amp * (-x / rd.tau).exp() * (TAU * x / rd.period + rd.phase).sin();
+                rel += ring;
+                rel_nf += ring;
+            }
             if let Some(cy) = &p.cycle {
                 rel += cy.mon_amp[m] * env * cy.wave(self.theta - cy.mon_lag[m]);
             }
@@ -581,9 +692,11 @@ impl Sim<'_> {
             }
             if let Some(d) = &p.drift {
                 rel += d.delta[m] * (-x / d.tau[m]).exp();
+                rel_nf += d.delta[m] * (-x / d.tau[m]).exp();
             }
             if let (Some(r), Some(s)) = (&p.restart, after_restart) {
                 rel += r.mon_jump * (-s / (3.0 * r.tau)).exp();
+                rel_nf += r.mon_jump * (-s / (3.0 * r.tau)).exp();
             }
             match &p.tail {
                 Tail::Nan { mon_eps, .. } | Tail::Overflow { mon_eps, .. } => {
@@ -598,12 +711,21 @@ impl Sim<'_> {
                 Tail::None => {}
             }
             let noise = self.mon_noise[m].next(&mut self.rng);
-            let mut v = clamp_mag(mp.fin * (1.0 + rel) + mp.fin.abs() * noise);
+            let mut v = if p.zero_mean == Some(m) {
+                // Zero mean: the start-up asymmetry decays to nothing; the noise scales with
+                // the start-up magnitude.
+                mons_nf[m] = mp.fin * rel_nf;
+                clamp_mag(mp.fin * rel + (mp.fin * mp.delta).abs() * noise)
+            } else {
+                mons_nf[m] = mp.fin * (1.0 + rel_nf);
+                clamp_mag(mp.fin * (1.0 + rel) + mp.fin.abs() * noise)
+            };
             if nan_stage.is_some_and(|s| s >= 2) {
                 v = signed_nan(&mut self.rng);
             }
             mons[m] = round_sig(v, 5);
         }
+        self.mon_nf.push(mons_nf);
 
         // Continuity follows the pressure residual.
         let cn = self.cont_noise.next(&mut self.rng);
@@ -628,7 +750,9 @@ impl Sim<'_> {
             if !residuals[e].1.is_finite() {
                 s = SWEEP_LIMIT as f64;
             }
-            if on_floor[e] {
+            if on_floor[e] && p.zero_sweeps {
+                s = 0.0;
+            } else if on_floor[e] {
                 s = if self.rng.chance(0.85) { 0.0 } else { 1.0 };
             }
             if frozen_eq == Some(e) {
@@ -694,6 +818,7 @@ impl Sim<'_> {
             drag: mons[0],
             lift: mons[1],
             dp: mons[2],
+            side: p.side.map(|sd| round_sig(sd * self.rng.normal(), 5)),
             cfl: round_sig(cfl, 3),
             notices,
             warnings,

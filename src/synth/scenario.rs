@@ -6,7 +6,7 @@
 
 use crate::judge::Verdict;
 
-/// One labelled behaviour of a synthetic run (DESIGN §7, "How real runs behave").
+/// One labelled behaviour of a synthetic run (how real runs behave).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum Scenario {
     /// Clean geometric convergence to the solver's targets; monitors settle.
@@ -39,9 +39,30 @@ pub enum Scenario {
     PseudoPlateauThenConverge,
     /// Converged onto a flat, noisy floor set by the linear-solver tolerance.
     FloorConverged,
+    /// Residuals fall for some tens of iterations, then a period-3 oscillation grows cycle
+    /// by cycle until monitors and continuity explode and the solver crashes, all within
+    /// about 150 iterations, without ever printing `nan`.
+    EarlyBlowUp,
+    /// A short laminar run (300–600 iterations) that converges well before its iteration
+    /// limit.
+    ShortLaminar,
+    /// A converging run whose lift has zero mean (a symmetric body) and whose monitor file
+    /// carries the out-of-plane force of a 2-D case at round-off level.
+    NearZeroMonitors,
+    /// A monitor rings down (a decaying oscillation) while the run converges.
+    RingDown,
+    /// Residuals stuck near their start (about 0.9) in broadband noise with a weak periodic
+    /// component.
+    HighResidualStall,
+    /// Residual targets met while a monitor swings in a long-period cycle (about 240
+    /// iterations) over a run of about 4000.
+    LongPeriodCycle,
+    /// A short run that reaches a noisy linear-solver floor early; every linear solver then
+    /// reports zero sweeps.
+    FloorZeroSweeps,
 }
 
-const ALL: [Scenario; 15] = [
+const ALL: [Scenario; 22] = [
     Scenario::Converging,
     Scenario::Stall,
     Scenario::ResidualLimitCycle,
@@ -57,6 +78,13 @@ const ALL: [Scenario; 15] = [
     Scenario::SilentDivergence,
     Scenario::PseudoPlateauThenConverge,
     Scenario::FloorConverged,
+    Scenario::EarlyBlowUp,
+    Scenario::ShortLaminar,
+    Scenario::NearZeroMonitors,
+    Scenario::RingDown,
+    Scenario::HighResidualStall,
+    Scenario::LongPeriodCycle,
+    Scenario::FloorZeroSweeps,
 ];
 
 impl Scenario {
@@ -83,6 +111,13 @@ impl Scenario {
             Scenario::SilentDivergence => "silent-divergence",
             Scenario::PseudoPlateauThenConverge => "pseudo-plateau-then-converge",
             Scenario::FloorConverged => "floor-converged",
+            Scenario::EarlyBlowUp => "early-blow-up",
+            Scenario::ShortLaminar => "short-laminar",
+            Scenario::NearZeroMonitors => "near-zero-monitors",
+            Scenario::RingDown => "ring-down",
+            Scenario::HighResidualStall => "high-residual-stall",
+            Scenario::LongPeriodCycle => "long-period-cycle",
+            Scenario::FloorZeroSweeps => "floor-zero-sweeps",
         }
     }
 
@@ -91,21 +126,28 @@ impl Scenario {
         ALL.into_iter().find(|s| s.name() == name)
     }
 
-    /// The verdict a practitioner would give the complete history (DESIGN §4).
+    /// The verdict a practitioner would give the complete history.
     pub fn expected(&self) -> Verdict {
         match self {
             Scenario::Converging
             | Scenario::StartupRise
             | Scenario::Restart
             | Scenario::PseudoPlateauThenConverge
-            | Scenario::FloorConverged => Verdict::Converged,
+            | Scenario::FloorConverged
+            | Scenario::ShortLaminar
+            | Scenario::NearZeroMonitors
+            | Scenario::RingDown
+            | Scenario::FloorZeroSweeps => Verdict::Converged,
             Scenario::StillConverging => Verdict::Converging,
-            Scenario::Stall => Verdict::Stalled,
-            Scenario::ResidualLimitCycle | Scenario::MonitorOscillation => Verdict::Oscillating,
+            Scenario::Stall | Scenario::HighResidualStall => Verdict::Stalled,
+            Scenario::ResidualLimitCycle
+            | Scenario::MonitorOscillation
+            | Scenario::LongPeriodCycle => Verdict::Oscillating,
             Scenario::DivergeNan
             | Scenario::DivergeOverflow
             | Scenario::CrashNoNan
-            | Scenario::SilentDivergence => Verdict::Diverging,
+            | Scenario::SilentDivergence
+            | Scenario::EarlyBlowUp => Verdict::Diverging,
             Scenario::FalseConvergence | Scenario::FrozenResidual => Verdict::Suspect,
         }
     }
@@ -181,6 +223,40 @@ impl Scenario {
                 "converges onto a flat noisy floor set by the linear-solver tolerance (zero \
                  sweeps reported) four to six decades down, and runs to the iteration limit"
             }
+            Scenario::EarlyBlowUp => {
+                "residuals fall for about 60 iterations, then a period-3 oscillation grows cycle \
+                 by cycle from about iteration 70; an excursion, an explosion of monitors (to \
+                 1e30 and beyond) and continuity, linear solvers pinned at their sweep limit, \
+                 and a floating-point crash near iteration 140, never printing nan"
+            }
+            Scenario::ShortLaminar => {
+                "a laminar quick look of 300 to 600 iterations: residuals fall four to five \
+                 decades and the monitors settle in the first two thirds, then the run goes on \
+                 to its iteration limit"
+            }
+            Scenario::NearZeroMonitors => {
+                "converges to its targets; lift is zero on average (a symmetric body: only the \
+                 start-up transient moves it) and the monitor file carries the out-of-plane \
+                 force of a 2-D case, which is pure round-off (about 1e-21)"
+            }
+            Scenario::RingDown => {
+                "converges to its targets while one monitor rings down: an oscillation of \
+                 period 25 to 70 iterations whose amplitude shrinks from a few percent with a \
+                 decay time of 150 to 450 iterations"
+            }
+            Scenario::HighResidualStall => {
+                "the residuals barely move from their start (about 0.9 of it) and wander in \
+                 broadband red noise with a weak periodic component until the iteration limit"
+            }
+            Scenario::LongPeriodCycle => {
+                "residuals meet their targets while a monitor swings in a sustained cycle of \
+                 period 200 to 300 iterations (a physically unsteady flow solved as steady) \
+                 over a run of 3500 to 4500 iterations"
+            }
+            Scenario::FloorZeroSweeps => {
+                "a run of 500 to 1200 iterations that reaches a noisy linear-solver floor in \
+                 its first half; from then on every linear solver reports zero sweeps"
+            }
         }
     }
 }
@@ -204,7 +280,7 @@ mod tests {
         }
         names.sort();
         names.dedup();
-        assert_eq!(names.len(), 15);
+        assert_eq!(names.len(), 22);
         assert_eq!(Scenario::parse("Converging"), None);
     }
 
@@ -220,7 +296,11 @@ mod tests {
                 "startup-rise",
                 "restart",
                 "pseudo-plateau-then-converge",
-                "floor-converged"
+                "floor-converged",
+                "short-laminar",
+                "near-zero-monitors",
+                "ring-down",
+                "floor-zero-sweeps"
             ]
         );
         assert_eq!(Scenario::CrashNoNan.expected(), Verdict::Diverging);

@@ -23,8 +23,9 @@ fn as_parsed(v: f64) -> f64 {
     if v.is_finite() && v.abs() >= 1e100 { f64::INFINITY.copysign(v) } else { v }
 }
 
-/// Series of a tarn log in the order the parser meets them, with their roles.
-fn series_layout(unsteady: bool) -> Vec<(String, Role)> {
+/// Series of a tarn log in the order the parser meets them, with their roles; a run with an
+/// out-of-plane force adds the `side` column of its `forces.csv` last.
+fn series_layout(unsteady: bool, side: bool) -> Vec<(String, Role)> {
     let mut s = vec![(if unsteady { "dt" } else { "cfl" }.to_string(), Role::Info)];
     for eq in EQUATIONS {
         s.push((eq.to_string(), Role::Residual));
@@ -34,11 +35,15 @@ fn series_layout(unsteady: bool) -> Vec<(String, Role)> {
     for m in ["drag", "lift", "dp"] {
         s.push((m.to_string(), Role::Monitor));
     }
+    if side {
+        s.push(("side".to_string(), Role::Monitor));
+    }
     s
 }
 
 /// The store of the complete run: one source `tarn.log` (parser `tarn`), with its end mark,
-/// solver mark or crash event when the log has them.
+/// solver mark or crash event when the log has them. A run with an out-of-plane force also
+/// gets the `side` series its `forces.csv` carries (as if that column came with the log).
 pub fn to_store(run: &SynthRun) -> RunStore {
     to_store_prefix(run, run.steps.len())
 }
@@ -49,7 +54,8 @@ pub fn to_store_prefix(run: &SynthRun, steps: usize) -> RunStore {
     let whole = steps >= run.steps.len();
     let steps = steps.min(run.steps.len());
     let mut src = SourceStore::new("tarn.log", "tarn");
-    let layout = series_layout(run.unsteady());
+    let side = run.steps.first().is_some_and(|s| s.side.is_some());
+    let layout = series_layout(run.unsteady(), side);
     let mut out: Vec<Output> = layout
         .iter()
         .enumerate()
@@ -88,6 +94,9 @@ pub fn to_store_prefix(run: &SynthRun, steps: usize) -> RunStore {
             values.push((cont_id + 1, as_parsed(st.drag)));
             values.push((cont_id + 2, as_parsed(st.lift)));
             values.push((cont_id + 3, as_parsed(st.dp)));
+            if let (true, Some(v)) = (side, st.side) {
+                values.push((cont_id + 4, as_parsed(v)));
+            }
             for (rule, texts) in [("warning", &st.warnings), ("notice", &st.notices)] {
                 for t in texts {
                     line += 1;

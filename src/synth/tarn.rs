@@ -11,7 +11,7 @@ use super::{EQUATIONS, End, SynthRun};
 
 /// Width of the `---` and `===` rules of the banner and the footer.
 pub const SEPARATOR_WIDTH: usize = 62;
-/// Columns of `forces.csv`.
+/// Columns of `forces.csv` (a run with an out-of-plane force adds a fifth, `side`).
 pub const CSV_HEADER_FIELDS: [&str; 4] = ["step", "drag", "lift", "dp"];
 
 /// Format a number as tarn prints it: `1.2345e-03` with `digits` decimals and a two-digit
@@ -40,11 +40,15 @@ pub fn render_banner(run: &SynthRun) -> String {
     let h = &run.header;
     let r = h.relaxation;
     let mut s = String::new();
-    let _ = writeln!(s, "tarn {} - incompressible RANS solver (k-omega SST)", h.version);
+    let _ = writeln!(s, "tarn {} - incompressible RANS solver ({})", h.version, h.model);
     let _ = writeln!(s, "case       : {}", run.case);
     let _ = writeln!(s, "mesh       : {} cells, {} zones", h.cells, h.zones);
     let _ = writeln!(s, "started    : {}", h.started);
-    let _ = writeln!(s, "relaxation : U {}  p {}  k {}  omega {}", r[0], r[1], r[2], r[3]);
+    if h.model == "laminar" {
+        let _ = writeln!(s, "relaxation : U {}  p {}", r[0], r[1]);
+    } else {
+        let _ = writeln!(s, "relaxation : U {}  p {}  k {}  omega {}", r[0], r[1], r[2], r[3]);
+    }
     let _ = writeln!(s, "{}", "-".repeat(SEPARATOR_WIDTH));
     s
 }
@@ -142,7 +146,13 @@ pub fn write_tarn_log(run: &SynthRun, w: &mut impl Write) -> io::Result<()> {
 
 /// The header lines of `forces.csv`.
 pub fn csv_header(run: &SynthRun) -> String {
-    format!("# tarn force monitor, case {}\n{}\n", run.case, CSV_HEADER_FIELDS.join(","))
+    let side = if has_side(run) { ",side" } else { "" };
+    format!("# tarn force monitor, case {}\n{}{side}\n", run.case, CSV_HEADER_FIELDS.join(","))
+}
+
+/// The run writes the out-of-plane force column.
+fn has_side(run: &SynthRun) -> bool {
+    run.steps.first().is_some_and(|s| s.side.is_some())
 }
 
 /// The `forces.csv` row of step `index`, or `None` for a crashed run's cut-short last step
@@ -152,8 +162,13 @@ pub fn csv_row(run: &SynthRun, index: usize) -> Option<String> {
         return None;
     }
     let st = &run.steps[index];
+    let side = match (has_side(run), st.side) {
+        (true, Some(v)) => format!(",{}", fmt_sci(v, 4)),
+        (true, None) => ",nan".to_string(),
+        (false, _) => String::new(),
+    };
     Some(format!(
-        "{},{},{},{}\n",
+        "{},{},{},{}{side}\n",
         st.iteration,
         fmt_sci(st.drag, 4),
         fmt_sci(st.lift, 4),

@@ -5,18 +5,18 @@ use std::fmt::Write;
 
 use serde_json::{Value, json};
 
-use crate::judge::{Comparison, CriterionResult, Judgement, Verdict};
+use crate::judge::{Comparison, CriterionResult, Judgement, NothingToJudge, Verdict};
 use crate::run::RunStore;
 use crate::view::parse::{clean, jnum, num};
 
 fn criterion_value(c: &CriterionResult) -> String {
-    if c.value.is_nan() {
-        return "n/a".into();
-    }
+    // Rounded so that it never reads as meeting a threshold it misses (or the reverse).
+    let v = c.value_text();
     match c.unit.as_str() {
-        "%" => format!("{:.3} %", c.value),
-        "dec" => format!("{:.2} dec", c.value),
-        _ => num(c.value),
+        _ if c.value.is_nan() => v,
+        "%" => format!("{v} %"),
+        "dec" => format!("{v} dec"),
+        _ => v,
     }
 }
 
@@ -31,6 +31,26 @@ fn criterion_threshold(c: &CriterionResult) -> String {
         _ => num(c.threshold),
     };
     format!("{op} {t}")
+}
+
+/// Why a run read by `check` or `report` has no verdict, source by source (an error
+/// message, not a verdict: a run with nothing to judge is never `converging`).
+pub fn no_verdict(run: &RunStore, why: &NothingToJudge) -> String {
+    let mut o = format!("{}: no verdict: {why}", run.name);
+    for src in &run.sources {
+        let what = if src.parser == "-" || src.stats.lines == 0 {
+            "the file is empty, so no parser recognised it".to_string()
+        } else if src.records() == 0 {
+            format!(
+                "parser `{}` found no record in its {} lines ({} skipped): is it the right parser?",
+                src.parser, src.stats.lines, src.stats.skipped
+            )
+        } else {
+            format!("{} records by parser `{}`", src.records(), src.parser)
+        };
+        let _ = write!(o, "\n  {}: {what}", clean(&src.label));
+    }
+    o
 }
 
 /// The human report of one judged run.

@@ -112,6 +112,7 @@ fn criterion(
         met,
         since: met.then_some(2100),
         default: name != "below",
+        ..Default::default()
     }
 }
 
@@ -184,6 +185,7 @@ fn build_judgement(iterations: i64) -> Judgement {
                 slope_dec_per_kit: -0.02,
                 slope_ci: (-0.05, 0.01),
                 eta_iterations: None,
+                ..Default::default()
             })
             .collect(),
         monitors: vec![
@@ -199,6 +201,7 @@ fn build_judgement(iterations: i64) -> Judgement {
                 band_pct: 0.21,
                 iterative_error: Some(2.1e-6),
                 extrapolated: Some(0.0312003),
+                ..Default::default()
             },
             MonitorSummary {
                 series: "Cl".into(),
@@ -212,6 +215,7 @@ fn build_judgement(iterations: i64) -> Judgement {
                 band_pct: 0.98,
                 iterative_error: None,
                 extrapolated: None,
+                ..Default::default()
             },
         ],
         iterations,

@@ -58,6 +58,7 @@ fn stalled() -> Judgement {
         met,
         since: None,
         default: true,
+        ..Default::default()
     };
     Judgement {
         verdict: Verdict::Stalled,

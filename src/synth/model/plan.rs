@@ -35,6 +35,9 @@ pub(super) struct Cycle {
     /// Share of the residual noise the cycle replaces once grown: in a limit cycle the
     /// iteration-to-iteration variation is mostly the cycle itself.
     pub noise_damp: f64,
+    /// The amplitude grows exponentially, by `e` every `grow` iterations, instead of
+    /// saturating (the prelude of a blow-up); the amplitudes above are then those at the onset.
+    pub exp_growth: bool,
 }
 
 impl Cycle {
@@ -71,6 +74,7 @@ impl Cycle {
             mod_period: 1.0,
             res_amp: r.range(0.2, 0.8),
             noise_damp: 0.5,
+            exp_growth: false,
             eq_amp,
             eq_lag,
             mon_amp: [r.log_range(5e-4, 1e-2), r.log_range(2e-3, 3e-2), r.log_range(3e-4, 5e-3)],
@@ -112,6 +116,16 @@ pub(super) struct Freeze {
 pub(super) struct Drift {
     pub delta: [f64; 3],
     pub tau: [f64; 3],
+}
+
+/// A monitor rings down: `amp · e^{−i/tau} · sin(2πi/period + phase)`, relative.
+#[derive(Debug, Clone)]
+pub(super) struct RingDown {
+    pub monitor: usize,
+    pub amp: f64,
+    pub tau: f64,
+    pub period: f64,
+    pub phase: f64,
 }
 
 /// The job dies and is restarted from a checkpoint.
@@ -186,6 +200,21 @@ pub(super) struct Plan {
     pub end: End,
     pub crash_in_pressure: bool,
     pub onset: Option<i64>,
+    /// Normalised residuals saturate: a smooth cap on the log10 level.
+    pub res_cap: Option<f64>,
+    pub ringdown: Option<RingDown>,
+    /// A monitor whose mean is zero (a symmetric body's lift): its `fin` is only its scale,
+    /// and its noise is relative to its start-up magnitude.
+    pub zero_mean: Option<usize>,
+    /// Standard deviation of a round-off-only out-of-plane force (a 2-D case), absolute.
+    pub side: Option<f64>,
+    /// A laminar run: no k and omega equations.
+    pub laminar: bool,
+    /// Every linear solver reports exactly zero sweeps on the floor.
+    pub zero_sweeps: bool,
+    /// Steps simulated beyond `n_max` only to find when the residuals would meet their
+    /// criteria (a live run stopped before): never part of the run.
+    pub continuation: usize,
 }
 
 impl Plan {
@@ -212,7 +241,27 @@ impl Plan {
             end: End::Finished,
             crash_in_pressure: false,
             onset: None,
+            res_cap: None,
+            ringdown: None,
+            zero_mean: None,
+            side: None,
+            laminar: false,
+            zero_sweeps: false,
+            continuation: 0,
         }
+    }
+
+    /// Extend `base` and `slow` by `extra` steps with the same trajectory, for the
+    /// continuation of a run that stops early.
+    fn extend(&mut self, c: &Common, extra: usize, slow: impl Fn(f64) -> f64) {
+        let s0 = slow(0.0);
+        let n = self.base.len();
+        for i in n..n + extra {
+            let s = slow(i as f64) - s0;
+            self.slow.push(s);
+            self.base.push(c.fast(i as f64) + s);
+        }
+        self.continuation = extra;
     }
 }
 
@@ -257,6 +306,9 @@ pub(super) fn build(scenario: Scenario, c: &mut Common, r: &mut Rng) -> Plan {
             let rate = (r.range(0.6, 1.4) / 1000.0).min((2.5 - c.a) / nf);
             let mut plan = Plan::new(c, n, move |x| -rate * x);
             plan.end = End::Running;
+            // Where the residuals would meet the 3-decade drop if the run went on.
+            let more = (((3.5 - c.a) / rate) as usize).saturating_sub(n) + 400;
+            plan.extend(c, more, move |x| -rate * x);
             plan
         }
         Scenario::StartupRise => {
@@ -512,7 +564,139 @@ pub(super) fn build(scenario: Scenario, c: &mut Common, r: &mut Rng) -> Plan {
             });
             plan
         }
+        Scenario::EarlyBlowUp => early_blow_up(c, r),
+        Scenario::ShortLaminar => {
+            // Residuals reach 4–5 decades at 55–75 % of the run, which then goes on to its
+            // iteration limit.
+            let d = r.range(4.0, 5.0);
+            let reach = (r.range(0.55, 0.75) * nf) as usize;
+            let mut plan = converging_to_target(c, r, d, reach);
+            plan.target = None;
+            plan.mark_on_target = false;
+            plan.n_max = n;
+            plan.laminar = true;
+            plan
+        }
+        Scenario::NearZeroMonitors => {
+            // Deep enough that the start-up asymmetry of the lift (which decays with the
+            // residuals) is gone well within a thousandth of a tenth of its size.
+            let d = r.range(5.5, 6.5);
+            let mut plan = converging_to_target(c, r, d, n);
+            // Lift of a symmetric body: the start-up asymmetry decays, the mean is zero.
+            let m = &mut c.mons[1];
+            m.delta = sign(r) * r.range(0.3, 0.9);
+            m.sigma = r.log_range(1e-6, 1e-5);
+            plan.zero_mean = Some(1);
+            plan.side = Some(r.log_range(3e-22, 3e-21));
+            plan
+        }
+        Scenario::RingDown => {
+            let d = r.range(4.5, 6.0);
+            let mut plan = converging_to_target(c, r, d, n);
+            plan.ringdown = Some(RingDown {
+                monitor: r.pick(&[0usize, 1, 2]),
+                amp: r.range(0.01, 0.05),
+                tau: r.range(150.0, 450.0).min(nf / 6.0),
+                period: r.range(25.0, 70.0),
+                phase: r.range(0.0, TAU),
+            });
+            plan
+        }
+        Scenario::HighResidualStall => {
+            // Barely any drop: the leading residual stays near 0.9 of its start.
+            c.a = r.range(0.02, 0.06);
+            c.bump_h = 0.0;
+            let onset = r.range(60.0, 200.0);
+            let depth = r.range(0.0, 0.04);
+            let mut plan = Plan::new(c, n, saturating(depth, onset / 3.0));
+            plan.wander = Some(Wander {
+                onset,
+                res_phi: r.range(0.6, 0.9),
+                res_sd: r.range(0.05, 0.15),
+                trend: 0.0,
+                mon_phi: r.range(0.9, 0.98),
+                mon_sd: r.log_range(5e-4, 3e-3),
+            });
+            // A weak periodic component buried in the broadband noise.
+            let period = r.log_range(6.0, 40.0);
+            let mut cy = Cycle::draw(r, onset, period);
+            cy.res_amp = r.range(0.02, 0.05);
+            cy.noise_damp = 0.0;
+            cy.grow = r.range(20.0, 60.0);
+            cy.mon_amp =
+                [r.log_range(1e-4, 5e-4), r.log_range(1e-4, 5e-4), r.log_range(1e-4, 5e-4)];
+            plan.cycle = Some(cy);
+            plan.onset = Some(onset as i64 + 1);
+            plan
+        }
+        Scenario::LongPeriodCycle => {
+            // A long run whose residuals meet their drop while a monitor cycle persists.
+            let d = r.range(3.6, 4.6);
+            let mut plan = converging_to_target(c, r, d, n);
+            plan.target = None;
+            plan.mark_on_target = false;
+            plan.n_max = n;
+            let onset = r.range(0.2, 0.4) * nf;
+            let period = r.range(200.0, 300.0);
+            let mut cy = Cycle::draw(r, onset, period);
+            cy.grow = r.range(100.0, 300.0);
+            cy.jitter = r.range(0.001, 0.005);
+            cy.res_amp = r.range(0.005, 0.03);
+            cy.noise_damp = 0.0;
+            let lead = r.pick(&[0usize, 1, 2]);
+            for (m, a) in cy.mon_amp.iter_mut().enumerate() {
+                *a = if m == lead { r.range(0.005, 0.03) } else { r.range(0.0, 0.004) };
+            }
+            plan.cycle = Some(cy);
+            plan.onset = Some(onset as i64 + 1);
+            plan
+        }
+        Scenario::FloorZeroSweeps => {
+            let floor = r.range(-5.5, -4.7);
+            let frac = r.range(0.3, 0.5);
+            let rate = (-floor - c.a) / (frac * nf);
+            c.floor_sd = r.range(0.1, 0.25);
+            let mut plan = Plan::new(c, n, move |x| -rate * x);
+            plan.floor = Some(floor);
+            plan.zero_sweeps = true;
+            plan
+        }
     }
+}
+
+/// The early blow-up: residuals fall for some tens of iterations, a period-3 cycle grows
+/// exponentially from `onset`, an excursion about 13 iterations before the crash turns into
+/// an explosion of monitors and continuity, and the solver crashes at the last step.
+fn early_blow_up(c: &mut Common, r: &mut Rng) -> Plan {
+    let onset = r.range(60.0, 85.0);
+    let n = (onset + r.range(55.0, 85.0)) as usize;
+    let depth = r.range(0.5, 1.5);
+    let mut plan = Plan::new(c, n, saturating(depth, 25.0));
+    let period = 3.0 * r.range(0.97, 1.03);
+    let mut cy = Cycle::draw(r, onset, period);
+    cy.exp_growth = true;
+    cy.jitter = r.range(0.002, 0.01);
+    cy.res_amp = r.range(0.01, 0.03);
+    cy.noise_damp = 0.0;
+    // e-fold time such that the residual cycle reaches about ±2 decades at the excursion.
+    let excursion = n as f64 - 13.0;
+    cy.grow = (excursion - onset) / (2.0 / cy.res_amp).ln();
+    cy.mon_amp = [r.log_range(3e-4, 1e-3), r.log_range(3e-4, 1e-3), r.log_range(3e-4, 1e-3)];
+    plan.cycle = Some(cy);
+    plan.res_cap = Some(r.range(0.2, 0.6));
+    plan.tail = Tail::Crash {
+        onset: excursion as usize,
+        len: 13,
+        power: r.range(2.0, 4.0),
+        cont_dec: r.range(40.0, 50.0),
+        mon_dec: [r.range(45.0, 80.0), r.range(45.0, 80.0), r.range(45.0, 75.0)],
+        mon_sign: [1.0, sign(r), 1.0],
+        tiny: Vec::new(),
+    };
+    plan.end = End::Crash;
+    plan.crash_in_pressure = r.chance(0.6);
+    plan.onset = Some(onset as i64 + 1);
+    plan
 }
 
 /// Convergence down to `d_on` decades at `onset`, then accelerating growth that reaches

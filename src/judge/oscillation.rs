@@ -1,0 +1,401 @@
+//! What makes a periodic component matter: it dominates the window, it keeps its amplitude,
+//! and — separately — whether its amplitude grows cycle after cycle.
+//!
+//! Fisher's g ([`super::spectrum`]) says a peak stands out of the background. That alone
+//! called a monitor ringing down while it settled, the broadband noise of a stalled run with
+//! a weak peak and a ±0.2 % ripple inside the band `oscillating`. Here the significant peak is
+//! described further:
+//!
+//! * **Dominance**: the share of the detrended window's variance in the peak's band (±10 %
+//!   of its frequency, at least two bins for the leakage of a window that does not hold a
+//!   whole number of cycles) and those of its second and third harmonics (a limit
+//!   cycle is rarely a pure sine). `oscillating` needs more than half ([`DOMINANT_SHARE`]):
+//!   the periodic part is bigger than everything else together.
+//! * **Envelope**: the amplitude of the component in consecutive blocks of two periods (one
+//!   period when the window holds fewer than eight such blocks; the projection of the block,
+//!   less its own least-squares line, on the peak frequency, so that neither a local trend
+//!   nor noise at other frequencies counts), and a least-squares line
+//!   through the logarithms of these amplitudes. An envelope that halves within half the
+//!   judge's own horizon (the configured window), or significantly within the horizon, is a
+//!   **ring-down** (settling, not oscillating): `oscillating` must be shown to last. Fewer
+//!   than four blocks cannot tell: such a component does not decide either.
+//! * **Growth** ([`growing`]): a significantly rising envelope that grew at least
+//!   [`GROWTH_MIN_RATIO`]-fold over the window and is not slowing down (the rise over the
+//!   last third at least [`GROWTH_KEEP`] of that over the middle third) is a growing limit
+//!   cycle — the classic prelude of a crash.
+
+use super::series::Window;
+use super::spectrum;
+use super::stats;
+
+/// Share of the detrended variance a dominant component carries (ours: more than all the
+/// rest together).
+pub const DOMINANT_SHARE: f64 = 0.5;
+
+/// A growing cycle has grown at least this factor over the window (ours: a growth that
+/// noise in the amplitude of a steady cycle does not reach over a dozen blocks).
+pub const GROWTH_MIN_RATIO: f64 = 4.0;
+
+/// Exponential growth keeps its rate: the rise of the log-amplitude over the last third is
+/// at least this share of the rise over the middle third (a saturating onset slows; ours,
+/// the same reading as the exponential growth of monitors in `limits`).
+pub const GROWTH_KEEP: f64 = 0.75;
+
+/// Significance level of the envelope slope (two-sided 95 % interval; common practice).
+const ENVELOPE_LEVEL: f64 = 0.975;
+
+/// The amplitude trend of a periodic component over a window.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Envelope {
+    /// Slope of ln(amplitude) per sample and its 95 % interval.
+    pub slope: f64,
+    pub ci: (f64, f64),
+    /// The slope per iteration (per sample over the sample spacing).
+    pub slope_per_iteration: f64,
+    /// Fitted amplitude at the last block over that at the first.
+    pub ratio: f64,
+    /// Rise of the mean log-amplitude (natural log) over the middle and the last third.
+    pub rise_mid: f64,
+    pub rise_last: f64,
+    pub blocks: usize,
+}
+
+/// A significant periodic component of a window, described.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Periodic {
+    pub osc: spectrum::Oscillation,
+    /// Period in iterations.
+    pub period: f64,
+    /// Share of the detrended variance in the peak band and its harmonics.
+    pub share: f64,
+    /// Envelope over the window the component was found in.
+    pub envelope: Option<Envelope>,
+    /// Envelope over a longer look-back ending at the same iteration, when measured.
+    pub envelope_long: Option<Envelope>,
+    pub first: i64,
+    pub last: i64,
+}
+
+impl Periodic {
+    pub fn dominant(&self) -> bool {
+        self.share > DOMINANT_SHARE
+    }
+
+    /// The amplitude shrinks: it halves within `horizon` iterations with significance, or
+    /// within half of it at all (the burden of proof lies with "it lasts"), over the window
+    /// or over the longer look-back.
+    pub fn ring_down(&self, horizon: f64) -> bool {
+        let decays = |e: &Envelope| {
+            let half_life = std::f64::consts::LN_2 / -e.slope_per_iteration;
+            half_life > 0.0
+                && (half_life <= 0.5 * horizon || (e.ci.1 < 0.0 && half_life <= horizon))
+        };
+        self.envelope.as_ref().is_some_and(decays)
+            || self.envelope_long.as_ref().is_some_and(decays)
+    }
+
+    /// Dominant, measured over at least four blocks spanning at least half the `horizon`,
+    /// and not ringing down: a limit cycle shown to last.
+    pub fn sustained_and_dominant(&self, horizon: f64) -> bool {
+        let long_enough = (self.last.saturating_sub(self.first)) as f64 >= 0.5 * horizon;
+        self.dominant() && self.envelope.is_some() && long_enough && !self.ring_down(horizon)
+    }
+}
+
+/// The window with an odd number of values (so that a period-2 oscillation is not the
+/// dropped Nyquist ordinate), as parallel slices.
+fn odd(win: &Window) -> (&[i64], &[f64]) {
+    let skip = usize::from(win.len() % 2 == 0);
+    (&win.its[skip..], &win.vals[skip..])
+}
+
+/// Replace the envelope of `p` by the one measured over `longer` (a longer stretch of the
+/// same series ending at the same iteration), at the same frequency: whether a component
+/// keeps its amplitude shows best over the longest stretch available.
+pub fn with_envelope_over(p: Periodic, longer: &Window) -> Periodic {
+    if longer.len() <= 32 {
+        return p;
+    }
+    let (its, vals) = odd(longer);
+    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
+    let d = stats::quadratic_residuals(vals);
+    let f = spacing / p.period;
+    match envelope(&d, f, 0, d.len()) {
+        Some(e) => Periodic {
+            envelope_long: Some(Envelope {
+                slope_per_iteration: e.slope / spacing.max(f64::MIN_POSITIVE),
+                ..e
+            }),
+            ..p
+        },
+        None => p,
+    }
+}
+
+/// The strongest periodic component of `win`, described; `None` when the spectrum finds no
+/// candidate (fewer than 32 values, a constant window).
+pub fn find(win: &Window) -> Option<Periodic> {
+    if win.len() < 32 {
+        return None;
+    }
+    let (its, vals) = odd(win);
+    let osc = spectrum::find_oscillation(vals)?;
+    let spacing = its[its.len() - 1].saturating_sub(its[0]) as f64 / (its.len() - 1) as f64;
+    // Dominance and envelope matter only for a candidate that could be significant at the
+    // loosest level any caller uses (5 %); the others are described by the spectrum alone.
+    let (share, envelope) = if osc.p_value < 0.05 {
+        let detrended = stats::quadratic_residuals(vals);
+        let share = band_share(&detrended, osc.k);
+        let envelope = envelope(&detrended, 1.0 / osc.period, 0, detrended.len()).map(|e| {
+            Envelope { slope_per_iteration: e.slope / spacing.max(f64::MIN_POSITIVE), ..e }
+        });
+        (share, envelope)
+    } else {
+        (0.0, None)
+    };
+    Some(Periodic {
+        osc,
+        period: osc.period * spacing,
+        share,
+        envelope,
+        envelope_long: None,
+        first: its[0],
+        last: its[its.len() - 1],
+    })
+}
+
+/// Share of the variance of `x` (already detrended) in the bins around Fourier index `k`
+/// and its second and third harmonics (aliased back into `1..=n/2`).
+pub fn band_share(x: &[f64], k: usize) -> f64 {
+    let n = x.len();
+    let ord = spectrum::periodogram(x);
+    let m = spectrum::fisher_m(n);
+    if m < 2 || k == 0 {
+        return 0.0;
+    }
+    let total: f64 = ord[1..=m].iter().sum();
+    if !(total > 0.0) {
+        return 0.0;
+    }
+    let width = ((0.1 * k as f64).round() as usize).max(2);
+    let mut take = vec![false; m + 1];
+    for h in 1..=3usize {
+        let mut kh = (h * k) % n;
+        if kh > n / 2 {
+            kh = n - kh;
+        }
+        if kh == 0 {
+            continue;
+        }
+        let (lo, hi) = (kh.saturating_sub(width).max(1), (kh + width).min(m));
+        if lo <= hi {
+            take[lo..=hi].iter_mut().for_each(|t| *t = true);
+        }
+    }
+    let inside: f64 = (1..=m).filter(|&b| take[b]).map(|b| ord[b]).sum();
+    inside / total
+}
+
+/// Amplitude of the component at frequency `f` (cycles per sample) in blocks of two periods
+/// of `x[from..to]`, and the log-linear trend of these amplitudes. `None` with fewer than 4
+/// blocks.
+pub fn envelope(x: &[f64], f: f64, from: usize, to: usize) -> Option<Envelope> {
+    if !(f > 0.0 && f <= 0.5) {
+        return None;
+    }
+    let len = to.saturating_sub(from);
+    let mut block = ((2.0 / f).ceil() as usize).max(4);
+    if len / block < 8 {
+        block = ((1.0 / f).ceil() as usize).max(4);
+    }
+    let count = len / block;
+    if count < 4 {
+        return None;
+    }
+    // Align the blocks to the end: the newest values matter most.
+    let start = to - count * block;
+    let w = 2.0 * std::f64::consts::PI * f;
+    let mut centres = Vec::with_capacity(count);
+    let mut logs = Vec::with_capacity(count);
+    for b in 0..count {
+        let a = start + b * block;
+        let seg = &x[a..a + block];
+        // Remove the block's own line: a local trend projects onto the frequency as much as
+        // a ramp of its height would (h/π), and a settling monitor has a steep one early on.
+        // Abscissae 0..block: mean and Σ(t − t̄)² in closed form.
+        let bf = block as f64;
+        let t_mean = (bf - 1.0) / 2.0;
+        let sxx = bf * (bf * bf - 1.0) / 12.0;
+        let v_mean = seg.iter().sum::<f64>() / bf;
+        let sxy: f64 =
+            seg.iter().enumerate().map(|(i, v)| (i as f64 - t_mean) * (v - v_mean)).sum();
+        let slope = sxy / sxx;
+        let (mut re, mut im) = (0.0, 0.0);
+        // cos/sin by rotation from the block's first phase (blocks are short: no drift).
+        let (sw, cw) = w.sin_cos();
+        let (mut sn, mut cs) = (w * a as f64).sin_cos();
+        for (i, v) in seg.iter().enumerate() {
+            let r = v - v_mean - slope * (i as f64 - t_mean);
+            re += r * cs;
+            im += r * sn;
+            (cs, sn) = (cs * cw - sn * sw, sn * cw + cs * sw);
+        }
+        let amp = 2.0 * re.hypot(im) / block as f64;
+        if amp > 0.0 && amp.is_finite() {
+            centres.push((a + block / 2) as f64);
+            logs.push(amp.ln());
+        }
+    }
+    if logs.len() < 4 {
+        return None;
+    }
+    let fit = stats::ols(&centres, &logs)?;
+    let dof = (logs.len() - 2) as f64;
+    let t = stats::t_quantile(ENVELOPE_LEVEL, dof.max(1.0))?;
+    let span = centres[centres.len() - 1] - centres[0];
+    let third = logs.len() / 3;
+    let mean_of = |r: std::ops::Range<usize>| stats::mean(&logs[r]).unwrap_or(f64::NAN);
+    let (m1, m2, m3) =
+        (mean_of(0..third), mean_of(third..2 * third), mean_of(2 * third..logs.len()));
+    Some(Envelope {
+        slope: fit.slope,
+        ci: (fit.slope - t * fit.se_slope, fit.slope + t * fit.se_slope),
+        slope_per_iteration: fit.slope,
+        ratio: (fit.slope * span).exp(),
+        rise_mid: m2 - m1,
+        rise_last: m3 - m2,
+        blocks: logs.len(),
+    })
+}
+
+/// A growing periodic component of `win`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Growth {
+    pub periodic: Periodic,
+    pub envelope: Envelope,
+    /// Amplitude growth per cycle (factor).
+    pub per_cycle: f64,
+    /// Semi-amplitude of the component over the last two periods (units of the window).
+    pub amplitude_now: f64,
+}
+
+/// An oscillation whose amplitude grows cycle after cycle: significant at `alpha`, dominant
+/// in the window (a cycle that grows stands out of the noise; a noisy stretch whose spectrum
+/// happens to peak does not), envelope rising significantly by at least
+/// [`GROWTH_MIN_RATIO`] over the window and not slowing.
+pub fn growing(win: &Window, alpha: f64) -> Option<Growth> {
+    // Cheap gate first: a component that grew GROWTH_MIN_RATIO-fold shows in the size of
+    // the iteration-to-iteration changes of the last third against the first.
+    let n = win.len();
+    if n < 32 {
+        return None;
+    }
+    let rms_diff = |r: std::ops::Range<usize>| {
+        let d = &win.vals[r];
+        (d.windows(2).map(|w| (w[1] - w[0]) * (w[1] - w[0])).sum::<f64>() / d.len() as f64).sqrt()
+    };
+    if !(rms_diff(2 * n / 3..n) >= 2.0 * rms_diff(0..n / 3)) {
+        return None;
+    }
+    let p = find(win)?;
+    if !(p.osc.p_value < alpha && p.dominant()) {
+        return None;
+    }
+    let e = p.envelope?;
+    let keeps = e.rise_mid > 0.0 && e.rise_last >= GROWTH_KEEP * e.rise_mid;
+    if !(e.ci.0 > 0.0 && e.ratio >= GROWTH_MIN_RATIO && keeps) {
+        return None;
+    }
+    let samples_per_cycle = p.osc.period;
+    let per_cycle = (e.slope * samples_per_cycle).exp();
+    // Amplitude now: the fitted envelope at the newest block, scaled back from the log fit.
+    let (_, vals) = odd(win);
+    let d = stats::quadratic_residuals(vals);
+    let tail = ((2.0 * samples_per_cycle).ceil() as usize).clamp(4, d.len());
+    let recent = &d[d.len() - tail..];
+    let (lo, hi) =
+        recent.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
+    Some(Growth { periodic: p, envelope: e, per_cycle, amplitude_now: 0.5 * (hi - lo) })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::f64::consts::PI;
+
+    fn window(vals: Vec<f64>) -> Window {
+        Window { its: (1..=vals.len() as i64).collect(), vals }
+    }
+
+    /// Deterministic pseudo-noise in [-1, 1] (a fixed linear congruential sequence).
+    fn noise(n: usize, seed: u64) -> Vec<f64> {
+        let mut s = seed;
+        (0..n)
+            .map(|_| {
+                s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+                ((s >> 11) as f64 / (1u64 << 53) as f64) * 2.0 - 1.0
+            })
+            .collect()
+    }
+
+    #[test]
+    fn a_clean_cycle_dominates_and_keeps_its_amplitude() {
+        let e = noise(501, 1);
+        let x: Vec<f64> = (0..501)
+            .map(|t| 1.0 + 0.01 * (2.0 * PI * t as f64 / 40.0).sin() + 1e-4 * e[t])
+            .collect();
+        let p = find(&window(x)).expect("candidate");
+        assert!((p.period - 40.0).abs() < 0.5, "{p:?}");
+        assert!(p.share > 0.9 && p.sustained_and_dominant(500.0), "{p:?}");
+    }
+
+    #[test]
+    fn a_ring_down_is_not_sustained() {
+        // Amplitude e^{−t/150}: a fifth of it left after 250 iterations.
+        let e = noise(501, 2);
+        let x: Vec<f64> = (0..501)
+            .map(|t| {
+                let t = t as f64;
+                1.0 + 0.02 * (-t / 150.0).exp() * (2.0 * PI * t / 40.0).sin() + 1e-5 * e[t as usize]
+            })
+            .collect();
+        let p = find(&window(x)).expect("candidate");
+        assert!(p.ring_down(500.0) && !p.sustained_and_dominant(500.0), "{p:?}");
+        // Halving every 104 iterations is no ring-down on a horizon of 50.
+        assert!(!p.ring_down(50.0));
+        let env = p.envelope.expect("envelope");
+        // ln-amplitude slope −1/150 per iteration.
+        assert!((env.slope + 1.0 / 150.0).abs() < 0.001, "{env:?}");
+    }
+
+    #[test]
+    fn weak_peak_in_broadband_noise_does_not_dominate() {
+        let e = noise(1001, 3);
+        let x: Vec<f64> =
+            (0..1001).map(|t| e[t] + 0.25 * (2.0 * PI * t as f64 / 12.0).sin()).collect();
+        let p = find(&window(x)).expect("candidate");
+        assert!(p.share < DOMINANT_SHARE, "{p:?}");
+    }
+
+    #[test]
+    fn a_growing_cycle_is_found_and_a_saturating_one_is_not() {
+        let e = noise(121, 4);
+        let grow: Vec<f64> = (0..121)
+            .map(|t| {
+                let t = t as f64;
+                -2.0 + 0.01 * (t / 15.0).exp() * (2.0 * PI * t / 3.0).sin() + 0.005 * e[t as usize]
+            })
+            .collect();
+        let g = growing(&window(grow), 0.01).expect("growing");
+        // e^{3/15} per cycle of 3 iterations.
+        assert!((g.per_cycle - (0.2f64).exp()).abs() < 0.05, "{g:?}");
+        let sat: Vec<f64> = (0..401)
+            .map(|t| {
+                let t = t as f64;
+                let env = 1.0 - (-t / 60.0).exp();
+                -2.0 + 0.3 * env * (2.0 * PI * t / 3.0).sin() + 0.005 * noise(401, 5)[t as usize]
+            })
+            .collect();
+        assert!(growing(&window(sat), 0.01).is_none());
+    }
+}

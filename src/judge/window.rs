@@ -1,0 +1,235 @@
+//! The window a monitor's criteria are computed over, fitted to the run.
+//!
+//! A fixed 500-iteration window judges the start-up of a 600-iteration run instead of its
+//! settled state, and on a healthy 1000-iteration run it holds the `converged` call back for
+//! hundreds of iterations after the monitors settled. Unless the user sets `window` (then it
+//! is used exactly as given), the window is chosen in three steps at every end iteration `t`:
+//!
+//! 1. **Upper bound** `U`: the configured length (default 500), and for a short segment at
+//!    most half of it so far ([`SHORT_RUN_SHARE`]) — the second half of a short run is where
+//!    its settled state can be.
+//! 2. **Transient**: MSER-5 (White 1997; Franklin & White 2008) on the values of that upper
+//!    window finds where the start-up transient inside it ends; the window keeps what follows.
+//!    MSER never cuts more than half, so the window is at least `U/2`. A monitor still
+//!    drifting through the whole window is not let off by the shorter window: its drift
+//!    criterion also counts the change its trend projects over the upper window
+//!    ([`Projection`]).
+//!    When the upper window shows a monitor still approaching its value (see [`Projection`]),
+//!    the transient is known better than MSER can tell: it lasts until the monitor comes
+//!    within the drift tolerance of the value it is heading for, and the window keeps what
+//!    follows.
+//! 3. **Lower bound** `L`: at least [`MIN_WINDOW`] iterations (enough values for the drift
+//!    regression and the 20 batch means of the confidence interval), and at least two
+//!    periods of a periodic component found in the monitor, so the band sees whole cycles.
+//!
+//! The window depends only on the values up to `t`, so a criterion dated at an earlier
+//! checkpoint is judged on the same window whether the run is read at once or as it grows.
+
+use super::criteria::Resolved;
+use super::series::{View, Window};
+use super::stationarity;
+use super::stats;
+
+/// Fewest iterations of an adaptive window (ours: 20 batch means of at least 2 values, and a
+/// regression over 50 points has a slope standard error small enough for 0.1 %).
+pub const MIN_WINDOW: usize = 50;
+
+/// A short segment's adaptive window spans at most this share of it (ours: the second half
+/// of a short run).
+pub const SHORT_RUN_SHARE: f64 = 0.5;
+
+/// The window of a monitor at `t` and where the transient MSER-5 removed ends (`None` when
+/// nothing was removed).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Fitted {
+    pub window: Window,
+    pub transient_end: Option<i64>,
+    /// The nominal length in iterations the window stands for: its span plus one sample
+    /// spacing (the configured length for an explicit window).
+    pub length: usize,
+    /// Where the monitor is heading, from the upper window.
+    pub projection: Option<Projection>,
+}
+
+/// The upper bound `U` at end iteration `t` (the configured length when explicit).
+pub fn upper(v: &View<'_>, t: i64, rc: &Resolved) -> usize {
+    if rc.window_explicit {
+        return rc.window;
+    }
+    let seg_len = t.saturating_sub(v.seg_first_it()).saturating_add(1).max(1) as f64;
+    let short = (SHORT_RUN_SHARE * seg_len) as usize;
+    rc.window.min(short.max(MIN_WINDOW))
+}
+
+/// Where a monitor is heading, from the trend of the last two thirds of its upper window.
+///
+/// A monitor approaching its value geometrically (error `e·λ^i`, the picture behind the
+/// eigenvalue estimate of Ferziger & Perić) has a slope that shrinks by the same factor over
+/// equal spans: with least-squares slopes `s₁`, `s₂`, `s₃` over the three thirds (one sign,
+/// shrinking from third to third, the last step beyond two standard errors),
+/// `s₃/s₂ = e^{−Δ/τ}` (`Δ` the distance of the thirds' centres) gives the decay time `τ`, and
+/// the change still to come is about `s₃·τ`. The horizon `τ` is trusted up to
+/// [`HORIZON_WINDOWS`] upper windows only when both slopes stand clearly out of the noise
+/// (four standard errors, widened for autocorrelation): otherwise — noise, or a slope that does not shrink — it is the
+/// upper window itself, the change the current slope makes over it, so that noise cannot
+/// project a settled monitor far away. A clear decay is projected with a margin for the
+/// uncertainty of the two slopes (their relative standard errors added), so that an estimate
+/// at the limit does not pass for one below it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Projection {
+    /// Signed change still to come (units of the monitor).
+    pub remaining: f64,
+    /// The value the monitor is heading for.
+    pub limit: f64,
+    /// The slope shrinks significantly from the middle to the last third (a decay was seen).
+    pub decaying: bool,
+}
+
+/// A clear decay is projected over at most this many upper windows (ours: a slow approach
+/// that the window sees only the start of is not let off).
+pub const HORIZON_WINDOWS: f64 = 4.0;
+
+/// Project `outer` (values by iteration); `None` with fewer than 30 values.
+pub fn project(outer: &Window) -> Option<Projection> {
+    let n = outer.len();
+    if n < 30 {
+        return None;
+    }
+    let third = n / 3;
+    let (a, b) = (n - 2 * third, n - third);
+    let x = outer.its_f64();
+    let early = slope(&x[..a], &outer.vals[..a]);
+    let (s2, e2, c2, _) = slope(&x[a..b], &outer.vals[a..b])?;
+    let (s3, e3, c3, end) = slope(&x[b..], &outer.vals[b..])?;
+    let s1 = early.map_or(f64::NAN, |t| t.0);
+    let gap = c3 - c2;
+    let span = outer.span() as f64 + outer.spacing();
+    // A decay must be more than noise: one sign over the three thirds, each slope smaller
+    // than the one before, the last step beyond two standard errors of the difference (a
+    // steady creep keeps its slope; slow red noise wanders, it does not decay steadily).
+    let decaying = s2 * s3 > 0.0
+        && s1 * s2 > 0.0
+        && s1.abs() > s2.abs()
+        && s2.abs() - s3.abs() > 2.0 * e2.hypot(e3)
+        && gap > 0.0;
+    let clear = s2.abs() > 4.0 * e2 && s3.abs() > 4.0 * e3;
+    let cap = if clear { HORIZON_WINDOWS * span } else { span };
+    let horizon = if decaying { (gap / (s2 / s3).ln()).min(cap) } else { span };
+    let margin = if clear && decaying { 1.0 + e3 / s3.abs() + e2 / s2.abs() } else { 1.0 };
+    let remaining = s3 * horizon * margin;
+    Some(Projection { remaining, limit: end + remaining, decaying })
+}
+
+/// Least-squares slope of `y` against `x` with its standard error widened for the
+/// autocorrelation of monitor noise (AR(1) approximation of the integrated autocorrelation
+/// time from the lag-1 autocorrelation of the residuals, `τ = (1+ρ)/(1−ρ)`, at most n/4: an
+/// O(n) correction, cheap enough for every checkpoint), the centre of `x` and the fitted
+/// value at the last `x`.
+fn slope(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64, f64)> {
+    let fit = stats::ols(x, y)?;
+    let resid = stats::ols_residuals(&fit, x, y);
+    let rho = stats::lag1_autocorrelation(&resid).unwrap_or(0.0).clamp(0.0, 0.99);
+    let n = x.len() as f64;
+    let tau = ((1.0 + rho) / (1.0 - rho)).clamp(1.0, (n / 4.0).max(1.0));
+    let last = x.last().copied()?;
+    Some((fit.slope, fit.se_slope * tau.sqrt(), fit.x_mean, fit.at(last)))
+}
+
+/// The window of the monitor `v` ending at iteration `t`; `period` is the period (in
+/// iterations) of a periodic component the monitor shows, if any; `tolerance` maps the value
+/// a geometrically converging monitor approaches to the absolute drift tolerance there.
+pub fn fit(
+    v: &View<'_>,
+    t: i64,
+    rc: &Resolved,
+    period: Option<f64>,
+    tolerance: &dyn Fn(f64) -> f64,
+) -> Fitted {
+    let u = upper(v, t, rc);
+    let outer = v.window_map(t, u, |x| x);
+    if outer.is_empty() {
+        return Fitted { window: outer, transient_end: None, length: u, projection: None };
+    }
+    let projection = project(&outer);
+    let approach = projection.filter(|p| p.decaying).map(|p| {
+        let tol = tolerance(p.limit);
+        outer.vals.iter().rposition(|x| !((x - p.limit).abs() <= tol)).map_or(0, |i| i + 1)
+    });
+    let d = match approach {
+        Some(a) => a,
+        None => stationarity::mser5(&outer.vals).unwrap_or(0),
+    }
+    .min(outer.len() - 1);
+    let transient_end = (d > 0).then(|| outer.its[d]);
+    if rc.window_explicit {
+        return Fitted { window: outer, transient_end, length: u, projection };
+    }
+    let cycles = period.map_or(0, |p| (2.0 * p).ceil() as usize);
+    let lower = MIN_WINDOW.max(cycles).min(u) as i64;
+    let cut = outer.its[d].min(t.saturating_sub(lower - 1));
+    let window = outer.from_iteration(cut);
+    let spacing = window.spacing().max(1.0);
+    let length = ((window.span() as f64 + spacing).round() as usize).max(1);
+    Fitted { window, transient_end, length, projection }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::judge::criteria;
+    use crate::judge::types::{Criteria, SeriesInput};
+    use crate::record::Role;
+    use std::borrow::Cow;
+
+    fn input(vals: Vec<f64>) -> SeriesInput<'static> {
+        let its: Vec<i64> = (1..=vals.len() as i64).collect();
+        SeriesInput {
+            name: Cow::Borrowed("m"),
+            iterations: Cow::Owned(its),
+            values: Cow::Owned(vals),
+            segment_starts: vec![0],
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn short_runs_get_their_settled_half_and_the_transient_is_cut() {
+        // 600 iterations: a start-up step from 2 to 1 at it 380, then flat (with a tiny
+        // alternation so MSER has something to compare).
+        let vals: Vec<f64> = (1..=600)
+            .map(|i| if i < 380 { 2.0 } else { 1.0 + if i % 2 == 0 { 1e-6 } else { 0.0 } })
+            .collect();
+        let s = input(vals);
+        let v = View::new(&s).expect("non-empty");
+        let rc = criteria::resolve(&Criteria::default(), "m", Role::Monitor);
+        assert_eq!(upper(&v, 600, &rc), 300);
+        let f = fit(&v, 600, &rc, None, &|_| 1e-3);
+        // MSER-5 on it 301..600 cuts the values before 380 (batch of five boundary).
+        assert_eq!(f.transient_end, Some(381));
+        assert_eq!(f.window.its.first(), Some(&381));
+        assert_eq!(f.length, 220);
+        // A long run is bounded by the configured 500.
+        let long = input(vec![1.0; 3000]);
+        let v = View::new(&long).expect("non-empty");
+        assert_eq!(upper(&v, 3000, &rc), 500);
+        // An explicit window is used as given, transient or not.
+        let c = Criteria { window: Some(400), ..Default::default() };
+        let rc = criteria::resolve(&c, "m", Role::Monitor);
+        let s = input((1..=600).map(|i| if i < 380 { 2.0 } else { 1.0 }).collect());
+        let v = View::new(&s).expect("non-empty");
+        let f = fit(&v, 600, &rc, None, &|_| 1e-3);
+        assert_eq!((f.window.its[0], f.length), (201, 400));
+    }
+
+    #[test]
+    fn the_window_holds_two_periods_of_a_cycle() {
+        let vals: Vec<f64> = (1..=1000)
+            .map(|i| 1.0 + 0.01 * (2.0 * std::f64::consts::PI * i as f64 / 120.0).sin())
+            .collect();
+        let s = input(vals);
+        let v = View::new(&s).expect("non-empty");
+        let rc = criteria::resolve(&Criteria::default(), "m", Role::Monitor);
+        let f = fit(&v, 1000, &rc, Some(120.0), &|_| 1e-3);
+        assert!(f.window.span() >= 239, "{}", f.window.span());
+    }
+}
