@@ -74,5 +74,5 @@ fn main() {
     println!("idle watchers over {secs} s, {files} files (CPU seconds per second):");
     println!("  settle watch --headless : {:.4} ({:.2} % of a core)", s, s * 100.0);
     println!("  tail -F (same files)    : {:.4} ({:.2} % of a core)", t, t * 100.0);
-    println!("  target (DESIGN §10): well under 1 % of a core for 200 runs");
+    println!("  target (README \"Speed and memory\"): well under 1 % of a core for 200 runs");
 }

@@ -1,7 +1,7 @@
 //! Ingest throughput of the `settle` binary on large synthetic logs, side by side in one run
 //! with `cat`, `grep -c` of the step pattern and a plain Python line-by-line regex reader.
 //!
-//! DESIGN §10 and the ingest issue set the targets as ratios measured together: the `lines`
+//! README "Speed and memory" and DEVELOPERS.md "Benchmarks" set the targets as ratios measured together: the `lines`
 //! engine no slower than `grep -c` on one core and faster on two, the `table` engine within
 //! 3× `cat`, at most 10 bytes of peak memory per stored value, and at least 12× the Python
 //! peer. This program writes, at run time, into a temporary folder (nothing is committed):

@@ -5,7 +5,7 @@ It reads the same two synthetic files as `parse_throughput.rs` and keeps the sam
 (one Python list of floats per series), the way a user's own post-processing script would:
 the tarn verbose log with the regexes of `tarn_verbose.toml` tried in order on every line,
 and the whitespace table with `str.split` and `float`. Not optimised on purpose; it is the
-"plain script" of DESIGN section 10.
+"plain script" of the performance targets (DEVELOPERS.md, "Benchmarks").
 
 usage: peer.py lines FILE | peer.py table FILE   (prints "<records> records <values> values")
 """

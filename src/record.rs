@@ -11,7 +11,7 @@ use serde::{Deserialize, Serialize};
 
 pub use batch::{Batch, BatchItem, Column};
 
-/// How the judge treats a series (DESIGN §4).
+/// How the judge treats a series (README "Verdicts and exit codes").
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, Default)]
 #[serde(rename_all = "lowercase")]
 pub enum Role {

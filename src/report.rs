@@ -6,7 +6,7 @@
 //! ([`render_markdown`]) and JSON ([`render_json`]). The renderers are pure functions of a
 //! [`ReportInput`]; only [`Provenance::collect`] (hashing the sources) and [`write_report`]
 //! (writing the files) do I/O. Every report states plainly that a verdict is evidence, not
-//! proof (DESIGN §9).
+//! proof (README, the caution at the top).
 //!
 //! Sections, in every format: the run name with its verdict, `since` and meaning; the safety
 //! statement; *why* (the findings that caused the verdict, with evidence); the criteria table

@@ -1,6 +1,6 @@
 //! `settle watch`: the live panels, their state and the live loop.
 //!
-//! Owns the terminal while watching. Data flow (DESIGN §2): the ingest thread sends
+//! Owns the terminal while watching. Data flow (DEVELOPERS.md, "Where the code lives"): the ingest thread sends
 //! [`Msg::Ingest`] batches; the main thread (this module's [`run`]) applies them to the run
 //! stores, re-judges a run only when it received new data (at most once per refresh
 //! interval), decides `stale` itself, calls the [`LiveHooks`] the binary plugs in (actions),
@@ -113,7 +113,7 @@ impl LiveRun {
     }
 }
 
-/// `stale` overrides every verdict except `diverging` (DESIGN §4).
+/// `stale` overrides every verdict except `diverging` (README "Verdicts and exit codes").
 pub fn effective_verdict(judged: Verdict, stale: bool) -> Verdict {
     if stale && judged != Verdict::Diverging { Verdict::Stale } else { judged }
 }

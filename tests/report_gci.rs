@@ -1,9 +1,9 @@
 //! Grid convergence (GCI) against published worked examples and an exact manufactured case.
 //!
 //! Sources: Celik, Ghia, Roache, Freitas, Coleman & Raad (2008), J. Fluids Eng. 130(7)
-//! 078001, Table 1 (three cases; inputs as quoted in public code, METHODS §5a); NASA Glenn
+//! 078001, Table 1 (three cases; inputs as quoted in public code, docs/methods.md "Grid convergence"); NASA Glenn
 //! "Examining Spatial (Grid) Convergence" example as reproduced by a public implementation's
-//! expected output (METHODS §5b).
+//! expected output (docs/methods.md "Grid convergence").
 
 use settle::report::gci::{GciError, GciWarning, GridPoint, GridSize, MeshStudy, analyse};
 
@@ -31,7 +31,7 @@ fn rel(got: f64, want: f64, tol: f64, what: &str) {
 
 /// Expected values of one Celik et al. (2008) Table 1 case.
 struct Case {
-    /// Bracketed RECOMPUTED values of METHODS §5a, printed to 6 decimals:
+    /// Bracketed RECOMPUTED values of docs/methods.md "Grid convergence", printed to 6 decimals:
     /// p, φ_ext21, e_a21, e_ext21, GCI21, GCI32.
     methods: [f64; 6],
     /// The same quantities recomputed at full double precision (RECOMPUTED: an independent
@@ -92,14 +92,14 @@ fn celik_2008_table1_case1_monotonic() {
     rel(r.coarse.ratio, 4.0 / 3.0, 1e-12, "r32");
     assert_eq!(r.sign, 1);
     assert!(!r.oscillatory());
-    // Independent implementation's published brackets (METHODS §5a, VERIFIED).
+    // Independent implementation's published brackets (docs/methods.md "Grid convergence", VERIFIED).
     assert!(r.order > 1.53 && r.order < 1.54);
     assert!(r.fine.extrapolated > 6.168 && r.fine.extrapolated < 6.169);
     assert!(r.fine.gci_fine > 0.0217 && r.fine.gci_fine < 0.0218);
     assert!(r.coarse.gci_fine > 0.0411 && r.coarse.gci_fine < 0.0412);
-    // Monotonic: both pairs extrapolate to the same value (METHODS §5a).
+    // Monotonic: both pairs extrapolate to the same value (docs/methods.md "Grid convergence").
     rel(r.coarse.extrapolated, r.fine.extrapolated, 1e-12, "phi_ext32");
-    // Asymptotic ratio GCI32/(r21^p GCI21), RECOMPUTED (Python, double). METHODS lists
+    // Asymptotic ratio GCI32/(r21^p GCI21), RECOMPUTED (Python, double). docs/methods.md lists
     // 1.0157 for this ratio; we could not reproduce that number from its own GCI values
     // (0.041129 / (1.5^1.533969 · 0.021750) = 1.01524).
     rel(r.asymptotic_ratio, 1.0152377763, 1e-9, "asymptotic ratio");
@@ -110,7 +110,7 @@ fn celik_2008_table1_case1_monotonic() {
 #[test]
 fn celik_2008_table1_case2_low_order() {
     // Source: Celik et al. (2008) Table 1, column 2; rounded paper values FROM MEMORY
-    // (METHODS §5a: they agree with the recomputation).
+    // (docs/methods.md "Grid convergence": they agree with the recomputation).
     let r = check_case(
         [10.7880, 10.7250, 10.6050],
         [18000, 4500, 980],
@@ -155,14 +155,14 @@ fn celik_2008_table1_case3_oscillatory() {
     assert_eq!(r.sign, -1);
     assert!(r.oscillatory());
     assert_eq!(r.warnings, vec![GciWarning::Oscillatory], "case 3 must be reported oscillatory");
-    // METHODS §5a: for case 3 the coarse pair extrapolates elsewhere, 5.902779 (RECOMPUTED).
+    // docs/methods.md "Grid convergence": for case 3 the coarse pair extrapolates elsewhere, 5.902779 (RECOMPUTED).
     printed(r.coarse.extrapolated, 5.902779, 6, "phi_ext32");
 }
 
 #[test]
 fn nasa_glenn_spacing_example() {
     // Source: NASA Glenn "Examining Spatial (Grid) Convergence" example, spacings 1, 2, 4;
-    // values VERIFIED in a public implementation's expected output (METHODS §5b).
+    // values VERIFIED in a public implementation's expected output (docs/methods.md "Grid convergence").
     let s = study(
         [
             spacing("fine", 1.0, 0.970500),
@@ -185,13 +185,13 @@ fn nasa_glenn_spacing_example() {
     printed(r.coarse.gci_coarse, 0.012287, 6, "coarse gci_coarse");
     // That implementation (and verify.f90) print the reciprocal of our ratio: 0.997980.
     printed(1.0 / r.asymptotic_ratio, 0.997980, 6, "asymptotic ratio (reciprocal)");
-    // RECOMPUTED (double), METHODS §5b.
+    // RECOMPUTED (double), docs/methods.md "Grid convergence".
     rel(r.order, 1.786169592, 1e-9, "p");
     rel(r.fine.extrapolated, 0.9713003333, 1e-9, "f_exact");
     rel(100.0 * r.fine.gci_fine, 0.1030826, 1e-6, "GCI12 %");
     rel(100.0 * r.coarse.gci_fine, 0.3562493, 1e-6, "GCI23 %");
     rel(r.asymptotic_ratio, 1.0020237, 1e-7, "GCI23/(r^p GCI12)");
-    // Ratio = f1/f2 exactly when the ratios are equal (METHODS §5b).
+    // Ratio = f1/f2 exactly when the ratios are equal (docs/methods.md "Grid convergence").
     rel(r.asymptotic_ratio, 0.970500 / 0.968540, 1e-12, "ratio = f1/f2");
 }
 
@@ -251,7 +251,7 @@ fn warnings_small_ratio_iterative_error_and_unsettled_order() {
         r.warnings.iter().any(|w| matches!(w, GciWarning::OrderNotConverged { iterations: 200 }))
     );
 
-    // Iterative error: limit is 1 % of GCI21·|φ1| for grids 1 and 2 (METHODS §4d, derived).
+    // Iterative error: limit is 1 % of GCI21·|φ1| for grids 1 and 2 (docs/methods.md "Iterative versus discretisation error", derived).
     let mut s = study(
         [
             spacing("fine", 1.0, 0.970500),

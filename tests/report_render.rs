@@ -58,7 +58,7 @@ fn html_is_well_formed_self_contained_and_complete() {
     assert!(head.contains("STALLED"), "verdict in the header");
     assert!(head.contains("evidence from iteration 3\u{202f}140"));
     assert!(head.contains("wing-a4 &lt;aoa=4°&gt; &amp; &quot;flaps&quot;"), "run name escaped");
-    // Safety wording (DESIGN §9).
+    // Safety wording (README, the caution at the top).
     assert!(head.contains("not proof that the solution is correct"));
     assert!(head.contains("says nothing about whether the physical model"));
     assert!(head.contains("qualified engineers"));

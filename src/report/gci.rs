@@ -22,7 +22,7 @@ pub const MIN_REFINEMENT_RATIO: f64 = 1.3;
 ///
 /// Derived from the guidance of Eça & Hoekstra and of Roy (2005) that the iterative error be
 /// about two orders of magnitude below the discretisation error (recalled, not read: see
-/// METHODS §4d).
+/// docs/methods.md, "Iterative versus discretisation error").
 pub const ITERATIVE_TO_DISCRETISATION: f64 = 0.01;
 /// Most fixed-point iterations for the apparent order.
 const MAX_ORDER_ITERATIONS: usize = 200;

@@ -8,7 +8,7 @@
 use crate::judge::{Comparison, CriterionResult, Finding, FindingKind, Verdict};
 use crate::view::number;
 
-/// The safety statement of every report (DESIGN §9), in plain words.
+/// The safety statement of every report (README, the caution at the top), in plain words.
 pub const SAFETY: &str = "A convergence verdict is evidence drawn from the solver's own output \
     by statistical tests; it is not proof that the solution is correct. Iterative convergence \
     only shows that the solver settled on an answer to the equations it was given: it says \

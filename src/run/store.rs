@@ -723,7 +723,7 @@ mod tests {
 
     #[test]
     fn dense_series_cost_about_eight_bytes_per_value() {
-        // DESIGN §10: at most about 10 bytes per value. 12 series × 50 000 records, dense.
+        // README "Speed and memory": at most about 10 bytes per value. 12 series × 50 000 records, dense.
         let mut s = SourceStore::new("log", "t");
         s.apply((0..12).map(|i| info(i, &format!("s{i}"))));
         for it in 1..=50_000 {

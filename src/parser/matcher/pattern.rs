@@ -3,7 +3,7 @@
 //! Why it exists: on a 40-byte log line the `regex` crate's capture search costs well over a
 //! thousand instructions, most of it fixed per call (choosing an engine, setting up the
 //! search, converting slots), which alone made the `lines` engine an order of magnitude
-//! slower than a `grep` scan (DESIGN §10). This engine runs the common subset directly on
+//! slower than a `grep` scan (README "Speed and memory"). This engine runs the common subset directly on
 //! the line bytes, with no per-call setup:
 //!
 //! * literals (ASCII, with the usual `\.` `\[` … escapes and `\t` `\n` `\r` `\f` `\v`),
