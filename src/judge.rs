@@ -75,6 +75,7 @@ pub mod criteria;
 pub mod eta;
 mod events;
 mod health;
+pub mod history;
 pub mod iterative;
 pub mod limits;
 mod monitor;
@@ -176,7 +177,8 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         let Some(view) = series::View::new(s) else {
             continue;
         };
-        let mag = (rc.role == Role::Monitor).then(|| scale::Magnitude::new(&view));
+        let mag = (rc.role == Role::Monitor)
+            .then(|| scale::Magnitude::from_iteration(&view, monitor::magnitude_from(&view, &rc)));
         work.push((s, rc, view, mag));
     }
     let magnitudes: Vec<f64> =

@@ -136,6 +136,7 @@ impl Run {
                     iterations: Cow::Borrowed(its),
                     values: Cow::Borrowed(vals),
                     segment_starts: segs.clone(),
+                    history: None,
                 })
                 .collect(),
             events: self.events.iter().map(Cow::Borrowed).collect(),

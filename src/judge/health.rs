@@ -28,16 +28,36 @@ use super::{Sink, finding};
 /// start-up, or as the last value, they make the run diverging; only in the start-up with
 /// finite values since (a ratio monitor undefined on the first iteration) or only in an
 /// earlier segment, they are reported without deciding.
+///
+/// The counts and positions come from the store's running aggregates when given
+/// ([`super::history`]); otherwise from a scan of the run.
 pub fn non_finite(name: &str, v: &View<'_>, sink: &mut Sink) {
-    let Some(first_any) = v.first_non_finite(0) else {
+    let n = v.len();
+    // (first of the run, first and last of the latest segment, count there, count in all).
+    let facts = match v.history.map(|h| h.tally()).filter(|t| t.seg == v.seg) {
+        Some(t) => (t.nf_first, t.seg_nf_first, t.seg_nf_last, t.seg_nf_count, t.nf_count),
+        None if v.first_non_finite(0).is_none() => return,
+        None => {
+            let first_any = v.first_non_finite(0);
+            let mut in_seg = (None, None, 0usize);
+            for i in (v.seg..n).filter(|&i| !v.vals[i].is_finite()) {
+                in_seg = (in_seg.0.or(Some(i)), Some(i), in_seg.2 + 1);
+            }
+            let all = if first_any.is_some() && in_seg.2 == 0 {
+                v.vals.iter().filter(|x| !x.is_finite()).count()
+            } else {
+                in_seg.2
+            };
+            (first_any, in_seg.0, in_seg.1, in_seg.2, all)
+        }
+    };
+    let (Some(first_any), seg_first, seg_last, seg_count, all_count) = facts else {
         return;
     };
-    let n = v.len();
     let last_it = v.last_it();
-    let in_seg: Vec<usize> = (v.seg..n).filter(|&i| !v.vals[i].is_finite()).collect();
     let startup_end = series::startup_end(v.seg_first_it());
-    let (idx, supports, detail_tail) = match (in_seg.first(), in_seg.last()) {
-        (Some(&f), Some(&l)) => {
+    let (idx, supports, detail_tail) = match (seg_first, seg_last) {
+        (Some(f), Some(l)) => {
             let decisive = l == n - 1 || v.its[l] >= startup_end;
             let tail = if decisive { "" } else { " (only during the start-up, finite since)" };
             (f, decisive.then_some(Verdict::Diverging), tail)
@@ -46,11 +66,7 @@ pub fn non_finite(name: &str, v: &View<'_>, sink: &mut Sink) {
     };
     let x = v.vals[idx];
     let what = if x.is_nan() { "NaN" } else { "infinite (overflow)" };
-    let count = if in_seg.is_empty() {
-        v.vals.iter().filter(|x| !x.is_finite()).count()
-    } else {
-        in_seg.len()
-    };
+    let count = if seg_count == 0 { all_count } else { seg_count };
     let mut f = finding(FindingKind::NonFinite, name, v.its[idx], last_it, "non_finite_values");
     f.value = count as f64;
     f.threshold = Some(0.0);
@@ -204,13 +220,16 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
         });
         if let (Some(r), Some(&x)) = (usual, v.vals.last()) {
             let pinned = v.vals[v.seg..].iter().rev().take_while(|&&y| y == x).count();
-            let seg_max =
-                v.vals[v.seg..].iter().copied().filter(|y| y.is_finite()).fold(f64::MIN, f64::max);
+            // The segment's maximum last: only a pinned value far above the usual level
+            // needs the pass over the segment.
+            let seg_max = || {
+                v.vals[v.seg..].iter().copied().filter(|y| y.is_finite()).fold(f64::MIN, f64::max)
+            };
             if x.is_finite()
-                && x == seg_max
                 && pinned >= PINNED_MIN_VALUES
                 && r > 0.0
                 && x.abs() >= PINNED_RATIO * r
+                && x == seg_max()
             {
                 let first = v.its[n - pinned];
                 let mut f = finding(FindingKind::BlowUp, name, first, last_it, "pinned_at_max");

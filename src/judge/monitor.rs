@@ -159,6 +159,13 @@ fn checkpoints(v: &View<'_>, w: usize) -> impl Iterator<Item = i64> {
         .take_while(move |&t| t >= floor)
 }
 
+/// The earliest iteration at which this module asks a monitor's [`Magnitude`] (the oldest
+/// dating checkpoint), so that it need only be built from there
+/// ([`Magnitude::from_iteration`]).
+pub(super) fn magnitude_from(v: &View<'_>, rc: &Resolved) -> i64 {
+    checkpoints(v, rc.window).fold(v.last_it(), i64::min)
+}
+
 /// `since` of every criterion: the oldest checkpoint of the unbroken run of checkpoints,
 /// from the end, at which it held for the window ending there (`None` when it does not hold
 /// at the end). The sweep stops when no criterion holds any more.

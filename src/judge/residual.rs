@@ -34,7 +34,16 @@ struct Levels {
     last_pos: f64,
 }
 
+/// From the store's running aggregates when given ([`super::history`]), else one pass.
 fn levels(v: &View<'_>) -> Option<Levels> {
+    if let Some(t) = v.history.filter(|h| h.has_levels()).map(|h| h.tally()) {
+        return Some(Levels {
+            peak: t.peak,
+            peak_idx: t.peak_idx,
+            first_idx: t.first_pos?,
+            last_pos: t.last_pos,
+        });
+    }
     let mut peak = (f64::NEG_INFINITY, 0usize);
     let mut first_idx = None;
     let mut last_pos = None;
@@ -107,7 +116,7 @@ pub fn analyse(
     // Drop from the peak of the whole run, dated within the latest segment.
     let drop_level = lv.peak / 10f64.powf(rc.drop.value);
     let drop = if last_raw.is_finite() { (lv.peak / lv.last_pos).log10() } else { f64::NAN };
-    let drop_since = scan_since(v, |x| x <= drop_level);
+    let drop_since = since_at_most(v, drop_level);
     let drop_res =
         criteria::result("drop", name, Comparison::AtLeast, rc.drop, drop, "dec", drop_since);
     let mut met = drop_res.met;
@@ -122,7 +131,7 @@ pub fn analyse(
             b,
             value,
             "",
-            scan_since(v, |x| x <= b.value),
+            since_at_most(v, b.value),
         );
         met &= res.met;
         sink.criteria.push(res);
@@ -200,6 +209,16 @@ fn scan_since(v: &View<'_>, ok: impl Fn(f64) -> bool) -> Option<i64> {
         since = Some(v.its[i]);
     }
     since
+}
+
+/// [`scan_since`] for `x <= level`: with the store's block maxima ([`super::history`]) a
+/// descent of O(64 · levels) steps instead of a scan back over every value that holds.
+fn since_at_most(v: &View<'_>, level: f64) -> Option<i64> {
+    match v.history.map(|h| h.last_above(v.vals, v.seg, level)) {
+        Some(Ok(None)) => Some(v.its[v.seg]),
+        Some(Ok(Some(j))) => v.its.get(j + 1).copied(),
+        Some(Err(())) | None => scan_since(v, |x| x <= level),
+    }
 }
 
 fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<eta::Eta>, sink: &mut Sink) {
@@ -542,11 +561,13 @@ fn step_drop(
         sink.findings.push(f);
         return;
     }
-    // Largest single-step fall ratio after the peak, between consecutive positive values: one
-    // cheap O(n) pass (a division per value, the logarithm only for the winner).
-    let mut best = (1.0f64, 0usize);
+    // Largest single-step fall ratio after the peak, between consecutive positive values:
+    // kept by the store as values arrive ([`super::history`]), else one O(n) pass (a
+    // division per value, the logarithm only for the winner).
+    let kept = v.history.filter(|h| h.has_levels()).map(|h| h.tally());
+    let mut best = kept.map_or((1.0f64, 0usize), |t| (t.step_ratio, t.step_idx));
     let mut prev: Option<f64> = None;
-    for i in lv.peak_idx..n {
+    for i in (lv.peak_idx..n).filter(|_| kept.is_none()) {
         let x = v.vals[i];
         if !(x.is_finite() && x > 0.0) {
             prev = None;

@@ -26,19 +26,41 @@ use super::types::Reference;
 pub const ROUNDOFF_SHARE: f64 = 1e-12;
 
 /// The running largest block-median magnitude of a monitor's latest segment: one O(n) pass,
-/// then a binary search per end iteration.
+/// then a binary search per end iteration. With the store's checkpoints
+/// ([`super::history`]) the pass starts at the latest checkpoint before the earliest
+/// iteration asked about ([`Magnitude::from_iteration`]).
 #[derive(Debug, Clone, Default)]
 pub struct Magnitude {
     /// Iteration of the last value of each block of 5, and the largest block median so far.
     ends: Vec<i64>,
     running_max: Vec<f64>,
+    /// The running maximum before the first block of `ends`, valid from iteration `covered`.
+    before: f64,
+    covered: i64,
 }
 
 impl Magnitude {
     pub fn new(v: &View<'_>) -> Magnitude {
-        let meds = block_medians(&v.vals[v.seg..], v.seg, f64::abs);
-        let mut m = Magnitude::default();
-        let mut best = 0.0f64;
+        Magnitude::scan(v, v.seg, 0.0, i64::MIN)
+    }
+
+    /// The magnitude for `at(t)` with `t >= from` only: starts from the store's latest
+    /// checkpoint before `from` when the view has one, else scans the whole segment.
+    pub fn from_iteration(v: &View<'_>, from: i64) -> Magnitude {
+        let Some(h) = v.history.filter(|h| h.tally().seg == v.seg) else {
+            return Magnitude::new(v);
+        };
+        let start = v.seg + v.its[v.seg..].partition_point(|&i| i < from);
+        match h.magnitude_mark(start) {
+            Some(m) if m.next > v.seg => Magnitude::scan(v, m.next, m.best, v.its[m.next - 1]),
+            _ => Magnitude::new(v),
+        }
+    }
+
+    fn scan(v: &View<'_>, from: usize, before: f64, covered: i64) -> Magnitude {
+        let meds = block_medians(&v.vals[from..], from, f64::abs);
+        let mut m = Magnitude { before, covered, ..Default::default() };
+        let mut best = before;
         for (i, med) in meds {
             best = best.max(med);
             m.ends.push(v.its[i]);
@@ -50,12 +72,13 @@ impl Magnitude {
     /// Largest block-median magnitude among blocks ending at or before `t` (0 when none).
     pub fn at(&self, t: i64) -> f64 {
         let k = self.ends.partition_point(|&e| e <= t);
-        if k == 0 { 0.0 } else { self.running_max[k - 1] }
+        debug_assert!(t >= self.covered, "magnitude asked before its first checkpoint");
+        if k == 0 { self.before } else { self.running_max[k - 1] }
     }
 
     /// Largest magnitude of the whole segment.
     pub fn max(&self) -> f64 {
-        self.running_max.last().copied().unwrap_or(0.0)
+        self.running_max.last().copied().unwrap_or(self.before)
     }
 }
 

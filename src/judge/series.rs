@@ -8,6 +8,7 @@
 
 use std::ops::Range;
 
+use super::history::History;
 use super::types::SeriesInput;
 
 /// Most values a windowed test looks at (the newest ones).
@@ -72,6 +73,8 @@ pub struct View<'s> {
     pub seg: usize,
     /// Number of segments.
     pub segments: usize,
+    /// The store's aggregates of exactly these values, when given (`None` otherwise).
+    pub history: Option<&'s History>,
 }
 
 impl<'s> View<'s> {
@@ -83,7 +86,8 @@ impl<'s> View<'s> {
         }
         let seg = s.segment_starts.iter().copied().filter(|&i| i < n).max().unwrap_or(0);
         let segments = s.segment_starts.iter().filter(|&&i| i < n).count().max(1);
-        Some(View { its: &s.iterations[..n], vals: &s.values[..n], seg, segments })
+        let history = s.history.filter(|h| h.len() == n && s.values.len() == n);
+        Some(View { its: &s.iterations[..n], vals: &s.values[..n], seg, segments, history })
     }
 
     pub fn len(&self) -> usize {

@@ -23,6 +23,10 @@ pub struct SeriesInput<'a> {
     /// Indices into `values` where a new segment (restart) begins; always starts with 0 when
     /// the series is non-empty.
     pub segment_starts: Vec<usize>,
+    /// The store's running aggregates of this series ([`super::history::History`]), so the
+    /// judge need not scan the whole run; `None` (and a history that does not match the
+    /// values) makes the judge scan, with the same result.
+    pub history: Option<&'a super::history::History>,
 }
 
 /// Everything the judge needs about one run. Built by the run store; no file access.

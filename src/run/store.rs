@@ -179,11 +179,12 @@ impl SourceStore {
             return;
         }
         let pos = self.push_head(rec.iteration, rec.time);
+        let segment = self.segments.last().map_or(0, |s| s.first_record as u64);
         for &(id, v) in rec.values {
             if let Some(&idx) = self.ids.get(id as usize)
                 && idx != NO_SERIES
             {
-                self.series[idx as usize].push(pos, v);
+                self.series[idx as usize].push(pos, v, segment);
             }
         }
     }
@@ -360,6 +361,13 @@ impl Sink for SourceStore {
     }
 }
 
+/// Index of the segment holding `record`, and its id for [`Series`]' history (its first
+/// record).
+fn segment_of(segments: &[Segment], record: usize) -> (usize, u64) {
+    let k = segments.partition_point(|s| s.first_record <= record).saturating_sub(1);
+    (k, segments.get(k).map_or(0, |s| s.first_record as u64))
+}
+
 /// One run: its sources.
 #[derive(Debug, Clone, Default)]
 pub struct RunStore {
@@ -460,6 +468,7 @@ impl RunStore {
                     iterations: src.series_iterations(s),
                     values: Cow::Borrowed(s.values()),
                     segment_starts: src.series_segment_starts(s),
+                    history: Some(s.history()),
                 });
             }
             input.events.extend(src.events.iter().map(Cow::Borrowed));

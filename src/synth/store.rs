@@ -185,6 +185,8 @@ pub fn prefix_input<'a>(full: &'a RunInput<'_>, run: &SynthRun, steps: usize) ->
                 iterations: Cow::Borrowed(&s.iterations[..count]),
                 values: Cow::Borrowed(&s.values[..count]),
                 segment_starts: s.segment_starts.iter().copied().filter(|&i| i < count).collect(),
+                // The full run's aggregates do not describe a prefix: the judge scans.
+                history: None,
             }
         })
         .collect();

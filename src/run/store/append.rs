@@ -4,7 +4,7 @@
 //! one would give (tests compare both); a store in the middle of re-reading a rewritten
 //! file, or a batch without columns, takes the items one by one.
 
-use super::{NO_SERIES, SourceStore};
+use super::{NO_SERIES, SourceStore, segment_of};
 use crate::record::{Batch, BatchItem, Event, Sink, Skip};
 
 impl SourceStore {
@@ -46,15 +46,26 @@ impl SourceStore {
             };
             let at = |r: u32| (base + r as usize - skip) as u32;
             let series = &mut self.series[idx as usize];
+            let segments = &self.segments[..];
             if col.consecutive() {
                 // Values of skipped records come first.
                 let drop = skip.saturating_sub(col.first as usize).min(col.values.len());
                 let first = col.first + drop as u32;
-                series.extend_consecutive(at(first), &col.values[drop..]);
+                // One copy per segment the batch's records span (usually one).
+                let (mut pos, mut rest) = (at(first) as usize, &col.values[drop..]);
+                while !rest.is_empty() {
+                    let (k, segment) = segment_of(segments, pos);
+                    let take = segments.get(k + 1).map_or(rest.len(), |s| {
+                        s.first_record.saturating_sub(pos).clamp(1, rest.len())
+                    });
+                    series.extend_consecutive(pos as u32, &rest[..take], segment);
+                    pos += take;
+                    rest = &rest[take..];
+                }
             } else {
                 let from = col.records.partition_point(|&r| (r as usize) < skip);
                 for (&r, &v) in col.records[from..].iter().zip(&col.values[from..]) {
-                    series.push(at(r), v);
+                    series.push(at(r), v, segment_of(segments, at(r) as usize).1);
                 }
             }
         }

@@ -148,15 +148,16 @@ impl SourceStore {
         if self.has_time {
             self.times.truncate(record);
         }
-        for s in &mut self.series {
-            s.truncate_records(record);
-        }
         if let Some(i) = self.segments.iter().position(|s| s.first_record >= record) {
             let removed = self.segments.split_off(i);
             // The segment this file opened is opened again by its first new record.
             if record > 0 && record == self.file.records && removed[0].first_record == record {
                 self.pending_segment = Some(removed[0].reason.clone());
             }
+        }
+        let segments = &self.segments[..];
+        for s in &mut self.series {
+            s.truncate_records(record, |r| super::segment_of(segments, r).1);
         }
         if let Some(i) = event.checked_sub(self.events_dropped) {
             self.events.truncate(i as usize);

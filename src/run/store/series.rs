@@ -3,7 +3,13 @@
 //! The common case is dense (one value per record since the series first appeared): the
 //! values alone, 8 bytes each. A series that misses records or repeats within one is sparse
 //! and also keeps the record position of every value.
+//!
+//! Each series also keeps its [`History`]: the running aggregates the judge would otherwise
+//! compute from the whole run (peak, step drop, non-finite values, block maxima, magnitude
+//! checkpoints), updated as values arrive, taken back with them ([`Series::rewind`]) and
+//! rebuilt when a rewritten file cuts the store back ([`Series::truncate_records`]).
 
+use crate::judge::history::{History, Tally};
 use crate::record::Role;
 
 /// Where the values of a series sit among the source's records.
@@ -22,11 +28,23 @@ pub struct Series {
     pub role: Role,
     pub(super) values: Vec<f64>,
     pub(super) placement: Placement,
+    pub(super) history: History,
 }
 
 impl Series {
     pub(super) fn new(name: String, role: Role) -> Self {
-        Series { name, role, values: Vec::new(), placement: Placement::Dense { first: 0 } }
+        Series {
+            name,
+            role,
+            values: Vec::new(),
+            placement: Placement::Dense { first: 0 },
+            history: History::new(role),
+        }
+    }
+
+    /// The running aggregates of the values (see [`History`]).
+    pub fn history(&self) -> &History {
+        &self.history
     }
 
     pub fn len(&self) -> usize {
@@ -64,8 +82,11 @@ impl Series {
         }
     }
 
+    /// Add `value` at `record`, which lies in the segment with id `segment` (the segment's
+    /// first record).
     #[inline]
-    pub(super) fn push(&mut self, record: u32, value: f64) {
+    pub(super) fn push(&mut self, record: u32, value: f64, segment: u64) {
+        self.history.push(value, segment);
         match &mut self.placement {
             Placement::Dense { first } => {
                 if self.values.is_empty() {
@@ -106,18 +127,20 @@ impl Series {
 
     /// Values for consecutive records from `record` on: one copy when the series is dense
     /// and continues right there, else one push each.
-    pub(super) fn extend_consecutive(&mut self, record: u32, values: &[f64]) {
+    /// All the records lie in the segment with id `segment`.
+    pub(super) fn extend_consecutive(&mut self, record: u32, values: &[f64], segment: u64) {
         let Some((&v0, rest)) = values.split_first() else { return };
-        self.push(record, v0);
+        self.push(record, v0, segment);
         match self.placement {
             Placement::Dense { first }
                 if first as usize + self.values.len() == record as usize + 1 =>
             {
                 self.values.extend_from_slice(rest);
+                self.history.extend(rest, segment);
             }
             _ => {
                 for (k, &v) in rest.iter().enumerate() {
-                    self.push(record + 1 + k as u32, v);
+                    self.push(record + 1 + k as u32, v, segment);
                 }
             }
         }
@@ -131,6 +154,7 @@ impl Series {
                 Placement::Dense { first } => Some(*first),
                 Placement::Sparse(_) => None,
             },
+            history: self.history.mark(),
         }
     }
 
@@ -142,6 +166,7 @@ impl Series {
             (placement, Some(first)) => *placement = Placement::Dense { first },
             (Placement::Dense { .. }, None) => {}
         }
+        self.history.rewind(mark.history, &self.values);
     }
 
     /// With `records` records so far: when the series holds one value in each since it
@@ -155,18 +180,21 @@ impl Series {
         }
     }
 
-    /// Drop the values of records `record` and later.
-    pub(super) fn truncate_records(&mut self, record: usize) {
+    /// Drop the values of records `record` and later; `segment_of(r)` is the id of the
+    /// segment of record `r` (the rare path of a rewritten file: the history is rebuilt).
+    pub(super) fn truncate_records(&mut self, record: usize, segment_of: impl Fn(usize) -> u64) {
         let keep = self.first_value_at_or_after(record);
         self.values.truncate(keep);
         if let Placement::Sparse(rec) = &mut self.placement {
             rec.truncate(keep);
         }
+        self.history = History::rebuild(self.role, &self.values, |i| segment_of(self.record_of(i)));
     }
 
     /// Bytes held by this series (values plus positions), for the memory benchmark.
     pub fn heap_bytes(&self) -> usize {
-        self.values.capacity() * 8
+        self.history.heap_bytes()
+            + self.values.capacity() * 8
             + match &self.placement {
                 Placement::Dense { .. } => 0,
                 Placement::Sparse(r) => r.capacity() * 4,
@@ -175,9 +203,10 @@ impl Series {
 }
 
 /// What [`Series::mark`] remembers.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub(super) struct SeriesMark {
     len: usize,
     /// The placement was dense, from this record.
     dense_first: Option<u32>,
+    history: Tally,
 }

@@ -1,0 +1,389 @@
+//! What the judge needs from a series' whole history, kept up to date as values are stored,
+//! so that a judge pass costs what its windows cost, not what the run's length costs.
+//!
+//! Every windowed test already looks at a bounded tail. What used to need the whole run:
+//!
+//! * the residual's peak and its first and last positive values (the drop is measured from
+//!   the peak of the whole run), and the largest single-step fall after the peak;
+//! * non-finite values: the first of the run, and the first, last and count in the latest
+//!   segment;
+//! * the backward scan that dates the residual criteria (`since`): the last value of the
+//!   latest segment above a level, found here by descending block maxima of 64, 4 096,
+//!   262 144 and 16 777 216 values (at most about 2 × 64 steps per level);
+//! * a monitor's running largest block-median magnitude ([`super::scale::Magnitude`]):
+//!   checkpoints every [`MAGNITUDE_MARK_BLOCKS`] blocks let it start from a recent one.
+//!
+//! The store feeds [`History::push`] with every value and an opaque segment id (a value whose
+//! id differs from the previous one opens a new segment of the series, as
+//! `SeriesInput::segment_starts` says); taking the newest values back ([`History::rewind`])
+//! and rebuilding after a rewrite ([`History::rebuild`]) keep it equal to a full scan. The
+//! judge uses a history only when its length and latest segment match the series it is
+//! given, and otherwise scans as before: the judgement is the same either way (tests in
+//! `judge::tests` and `run::store` check it).
+//!
+//! What is kept depends on the series' role in the store: levels, step drop and block maxima
+//! for residuals, magnitude checkpoints for monitors, non-finite counts for every role. A
+//! series judged under another role (a `role` override in `settle.toml`) falls back to the
+//! scan for what its history lacks.
+
+use crate::record::Role;
+
+/// Fan-out of the block maxima: level `l` holds the maximum of each block of `64^(l+1)`
+/// values.
+const FAN_BITS: u32 = 6;
+const LEVELS: usize = 4;
+
+/// Blocks of 5 between two magnitude checkpoints (20 480 values or more).
+pub const MAGNITUDE_MARK_BLOCKS: usize = 4096;
+
+/// The scalar part of a [`History`]: fixed size, copied to take values back.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Tally {
+    /// Values folded in.
+    pub len: usize,
+    /// Index of the first value of the latest segment.
+    pub seg: usize,
+    seg_id: u64,
+    /// First non-finite value of the run, and how many there are.
+    pub nf_first: Option<usize>,
+    pub nf_count: usize,
+    /// First and last non-finite value of the latest segment, and how many.
+    pub seg_nf_first: Option<usize>,
+    pub seg_nf_last: Option<usize>,
+    pub seg_nf_count: usize,
+    /// Residuals: the peak (first index of the largest positive finite value), the first
+    /// positive finite value's index and the last positive finite value.
+    pub peak: f64,
+    pub peak_idx: usize,
+    pub first_pos: Option<usize>,
+    pub last_pos: f64,
+    /// Residuals: the largest ratio `previous / value` between consecutive positive finite
+    /// values after the peak (1 when none is larger), and the index of the later value.
+    pub step_ratio: f64,
+    pub step_idx: usize,
+    prev_pos: Option<f64>,
+    /// Monitors: the block-median process of the latest segment (blocks of 5 finite
+    /// non-zero |value|), its running maximum and completed blocks.
+    mag_buf: [f64; 5],
+    mag_k: u8,
+    pub mag_best: f64,
+    mag_blocks: usize,
+    levels: bool,
+    magnitude: bool,
+}
+
+/// A magnitude checkpoint: after a completed block of the segment starting at `seg`, the
+/// running maximum so far and the index of the next value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MagnitudeMark {
+    pub seg: usize,
+    pub next: usize,
+    pub best: f64,
+}
+
+/// The aggregates of one series (see the module header).
+#[derive(Debug, Clone, PartialEq)]
+pub struct History {
+    tally: Tally,
+    /// Residuals: `maxima[l][b]` is the largest [`key`] of block `b` of `64^(l+1)` values
+    /// (the last block partial).
+    maxima: Vec<Vec<f64>>,
+    /// Monitors: checkpoints of the magnitude process, every [`MAGNITUDE_MARK_BLOCKS`].
+    marks: Vec<MagnitudeMark>,
+}
+
+impl Default for History {
+    fn default() -> Self {
+        History::new(Role::Info)
+    }
+}
+
+/// The value the block maxima hold: non-finite values count as +∞, since they never satisfy
+/// a level.
+#[inline]
+fn key(x: f64) -> f64 {
+    if x.is_finite() { x } else { f64::INFINITY }
+}
+
+impl History {
+    /// An empty history keeping what the judge needs for a series of `role`.
+    pub fn new(role: Role) -> History {
+        let levels = role == Role::Residual;
+        let magnitude = role == Role::Monitor;
+        History {
+            tally: Tally {
+                len: 0,
+                seg: 0,
+                seg_id: 0,
+                nf_first: None,
+                nf_count: 0,
+                seg_nf_first: None,
+                seg_nf_last: None,
+                seg_nf_count: 0,
+                peak: f64::NEG_INFINITY,
+                peak_idx: 0,
+                first_pos: None,
+                last_pos: 0.0,
+                step_ratio: 1.0,
+                step_idx: 0,
+                prev_pos: None,
+                mag_buf: [0.0; 5],
+                mag_k: 0,
+                mag_best: 0.0,
+                mag_blocks: 0,
+                levels,
+                magnitude,
+            },
+            maxima: if levels { vec![Vec::new(); LEVELS] } else { Vec::new() },
+            marks: Vec::new(),
+        }
+    }
+
+    /// The history of `values` as pushed one by one, value `i` in segment `segment_of(i)`.
+    pub fn rebuild(role: Role, values: &[f64], segment_of: impl Fn(usize) -> u64) -> History {
+        let mut h = History::new(role);
+        for (i, &x) in values.iter().enumerate() {
+            h.push(x, segment_of(i));
+        }
+        h
+    }
+
+    pub fn len(&self) -> usize {
+        self.tally.len
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.tally.len == 0
+    }
+
+    pub fn tally(&self) -> &Tally {
+        &self.tally
+    }
+
+    /// Whether the residual parts (levels, step drop, block maxima) are kept.
+    pub fn has_levels(&self) -> bool {
+        self.tally.levels
+    }
+
+    /// Whether the magnitude checkpoints are kept.
+    pub fn has_magnitude(&self) -> bool {
+        self.tally.magnitude
+    }
+
+    /// Fold in the next value; `segment` is the store's id of its segment.
+    #[inline]
+    pub fn push(&mut self, x: f64, segment: u64) {
+        let t = &mut self.tally;
+        let i = t.len;
+        if i == 0 || segment != t.seg_id {
+            t.seg = i;
+            t.seg_id = segment;
+            t.seg_nf_first = None;
+            t.seg_nf_last = None;
+            t.seg_nf_count = 0;
+            t.mag_k = 0;
+            t.mag_best = 0.0;
+            t.mag_blocks = 0;
+        }
+        t.len = i + 1;
+        if !x.is_finite() {
+            t.nf_first.get_or_insert(i);
+            t.nf_count += 1;
+            t.seg_nf_first.get_or_insert(i);
+            t.seg_nf_last = Some(i);
+            t.seg_nf_count += 1;
+        }
+        if t.levels {
+            if x.is_finite() && x > 0.0 {
+                t.first_pos.get_or_insert(i);
+                t.last_pos = x;
+                if x > t.peak {
+                    t.peak = x;
+                    t.peak_idx = i;
+                    t.step_ratio = 1.0;
+                    t.step_idx = 0;
+                } else if let Some(p) = t.prev_pos {
+                    let r = p / x;
+                    if r > t.step_ratio {
+                        t.step_ratio = r;
+                        t.step_idx = i;
+                    }
+                }
+                t.prev_pos = Some(x);
+            } else {
+                t.prev_pos = None;
+            }
+            let k = key(x);
+            for (l, level) in self.maxima.iter_mut().enumerate() {
+                let mask = (1usize << (FAN_BITS * (l as u32 + 1))) - 1;
+                if i & mask == 0 {
+                    level.push(k);
+                } else if let Some(m) = level.last_mut()
+                    && k > *m
+                {
+                    *m = k;
+                }
+            }
+        }
+        if t.magnitude {
+            let a = x.abs();
+            if a.is_finite() && a > 0.0 {
+                t.mag_buf[t.mag_k as usize] = a;
+                t.mag_k += 1;
+                if t.mag_k == 5 {
+                    let mut b = t.mag_buf;
+                    b.sort_by(f64::total_cmp);
+                    t.mag_best = t.mag_best.max(b[2]);
+                    t.mag_k = 0;
+                    t.mag_blocks += 1;
+                    if t.mag_blocks.is_multiple_of(MAGNITUDE_MARK_BLOCKS) {
+                        self.marks.push(MagnitudeMark {
+                            seg: t.seg,
+                            next: i + 1,
+                            best: t.mag_best,
+                        });
+                    }
+                }
+            }
+        }
+    }
+
+    /// Fold in consecutive values of one segment.
+    pub fn extend(&mut self, xs: &[f64], segment: u64) {
+        for &x in xs {
+            self.push(x, segment);
+        }
+    }
+
+    /// What [`History::rewind`] needs to take back every value pushed from now on.
+    pub fn mark(&self) -> Tally {
+        self.tally
+    }
+
+    /// Take back the values pushed since `mark` was taken; `values` are the series' values
+    /// after taking them back (the block maxima of the last partial blocks are recomputed
+    /// from them).
+    pub fn rewind(&mut self, mark: Tally, values: &[f64]) {
+        debug_assert_eq!(mark.len, values.len());
+        self.tally = mark;
+        self.marks.retain(|m| m.next <= mark.len);
+        let n = mark.len;
+        for l in 0..self.maxima.len() {
+            let shift = FAN_BITS * (l as u32 + 1);
+            let blocks = n.div_ceil(1usize << shift);
+            self.maxima[l].truncate(blocks);
+            if blocks == 0 || n.is_multiple_of(1usize << shift) {
+                continue;
+            }
+            // The last block is partial: its maximum over what is left.
+            let m = if l == 0 {
+                values[(blocks - 1) << shift..n].iter().map(|&x| key(x)).fold(f64::MIN, f64::max)
+            } else {
+                let from = (blocks - 1) << FAN_BITS;
+                self.maxima[l - 1][from..].iter().copied().fold(f64::MIN, f64::max)
+            };
+            self.maxima[l][blocks - 1] = m;
+        }
+    }
+
+    /// The last index in `from..len` whose value is not finite or above `level` (`level`
+    /// finite), by descending the block maxima; `None` when every value there is at most
+    /// `level`, or when block maxima are not kept (`Err`).
+    pub fn last_above(&self, values: &[f64], from: usize, level: f64) -> Result<Option<usize>, ()> {
+        if !self.tally.levels || !level.is_finite() || values.len() != self.tally.len {
+            return Err(());
+        }
+        let mut i = values.len();
+        'walk: while i > from {
+            for l in (0..self.maxima.len()).rev() {
+                let size = 1usize << (FAN_BITS * (l as u32 + 1));
+                if i.is_multiple_of(size)
+                    && i - size >= from
+                    && self.maxima[l][i / size - 1] <= level
+                {
+                    i -= size;
+                    continue 'walk;
+                }
+            }
+            if key(values[i - 1]) > level {
+                return Ok(Some(i - 1));
+            }
+            i -= 1;
+        }
+        Ok(None)
+    }
+
+    /// The latest magnitude checkpoint of the latest segment at or before value `index`.
+    pub fn magnitude_mark(&self, index: usize) -> Option<MagnitudeMark> {
+        if !self.tally.magnitude {
+            return None;
+        }
+        let seg = self.tally.seg;
+        let k = self.marks.partition_point(|m| m.seg < seg || (m.seg == seg && m.next <= index));
+        self.marks[..k].last().filter(|m| m.seg == seg).copied()
+    }
+
+    /// Heap bytes held (block maxima and checkpoints).
+    pub fn heap_bytes(&self) -> usize {
+        self.maxima.iter().map(|l| l.capacity() * 8).sum::<usize>()
+            + self.marks.capacity() * std::mem::size_of::<MagnitudeMark>()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::synth::rng::Rng;
+
+    /// The last index in `from..` not finite or above `level`, by a plain backward scan.
+    fn scan_last_above(v: &[f64], from: usize, level: f64) -> Option<usize> {
+        (from..v.len()).rev().find(|&i| !(v[i].is_finite() && v[i] <= level))
+    }
+
+    #[test]
+    fn block_maxima_find_what_a_scan_finds() {
+        let mut rng = Rng::new(7);
+        let n = 300_000;
+        let vals: Vec<f64> = (0..n)
+            .map(|i| {
+                if rng.chance(1e-4) {
+                    f64::NAN
+                } else {
+                    10f64.powf(-4.0 * (i as f64 / n as f64) + 0.3 * rng.normal())
+                }
+            })
+            .collect();
+        let h = History::rebuild(Role::Residual, &vals, |_| 0);
+        for level in [1e-6, 1e-4, 1e-3, 1e-2, 0.1, 1.0, 10.0, 1e9] {
+            for from in [0, 1, 63, 64, 4095, 4097, 100_000, 262_144, 299_990, n] {
+                assert_eq!(
+                    h.last_above(&vals, from, level),
+                    Ok(scan_last_above(&vals, from, level)),
+                    "level {level} from {from}"
+                );
+            }
+        }
+        assert_eq!(h.last_above(&vals, 0, f64::INFINITY), Err(()));
+        assert_eq!(h.last_above(&vals, 0, f64::NAN), Err(()));
+    }
+
+    #[test]
+    fn rewinding_equals_never_having_pushed() {
+        let mut rng = Rng::new(11);
+        let vals: Vec<f64> = (0..70_000)
+            .map(|i| if i % 9_999 == 0 { f64::INFINITY } else { rng.log_range(1e-3, 1e3) })
+            .collect();
+        for role in [Role::Residual, Role::Monitor, Role::Indicator] {
+            for cut in [0, 1, 64, 65, 4096, 4100, 20_480, 20_485, 40_000, 69_999] {
+                let seg = |i: usize| u64::from(i >= 30_000);
+                let mut h = History::rebuild(role, &vals[..cut], seg);
+                let m = h.mark();
+                for (i, &x) in vals.iter().enumerate().skip(cut) {
+                    h.push(x, seg(i));
+                }
+                h.rewind(m, &vals[..cut]);
+                assert_eq!(h, History::rebuild(role, &vals[..cut], seg), "{role:?} {cut}");
+            }
+        }
+    }
+}
