@@ -367,6 +367,88 @@ mod tests {
         assert_eq!(h.last_above(&vals, 0, f64::NAN), Err(()));
     }
 
+    /// The judgement of `input` as given and without the store's aggregates (the judge then
+    /// scans), as Debug text so that NaN fields compare equal.
+    fn both_ways(input: &crate::judge::RunInput<'_>) -> (String, String) {
+        let criteria = crate::judge::Criteria::default();
+        let with = crate::judge::judge(input, &criteria);
+        let mut bare = input.clone();
+        for s in &mut bare.series {
+            assert!(s.history.is_some(), "the store gives every series its history");
+            s.history = None;
+        }
+        (format!("{with:?}"), format!("{:?}", crate::judge::judge(&bare, &criteria)))
+    }
+
+    #[test]
+    fn the_judgement_is_the_same_with_and_without_the_aggregates() {
+        use crate::synth::{self, Options, Scenario};
+        // Every scenario at its drawn length (1 500–4 000 iterations, restarts and NaN
+        // included), whole and as a watcher sees it part-way; then long runs (about 20 000
+        // iterations), whose residuals use the upper levels of the block maxima.
+        for (k, &sc) in Scenario::all().iter().enumerate() {
+            let run = synth::generate(sc, 900 + k as u64);
+            for steps in [run.steps.len() / 2, run.steps.len()] {
+                let st = synth::to_store_prefix(&run, steps);
+                let (with, without) = both_ways(&st.judge_input());
+                assert_eq!(with, without, "{} at {steps} steps", sc.name());
+            }
+        }
+        for (k, sc) in [Scenario::Converging, Scenario::LongPeriodCycle, Scenario::Restart]
+            .into_iter()
+            .enumerate()
+        {
+            let options = Options { iterations: Some(60_000), case: None };
+            let run = synth::generate_with(sc, 77 + k as u64, &options);
+            let st = synth::to_store(&run);
+            let input = st.judge_input();
+            let (with, without) = both_ways(&input);
+            assert_eq!(with, without, "{} (long)", sc.name());
+        }
+    }
+
+    #[test]
+    fn a_magnitude_from_a_checkpoint_equals_the_full_pass() {
+        use crate::judge::SeriesInput;
+        use crate::judge::scale::Magnitude;
+        use crate::judge::series::View;
+        use std::borrow::Cow;
+        // A monitor ramping up with noise, zeros and a NaN (skipped by the block medians),
+        // restarted at value 30 000: checkpoints in both segments.
+        let mut rng = Rng::new(5);
+        let n = 130_000;
+        let vals: Vec<f64> = (0..n)
+            .map(|i| match i {
+                _ if i % 7_001 == 0 => 0.0,
+                77_777 => f64::NAN,
+                _ => (1.0 + i as f64 * 1e-4) * (1.0 + 0.05 * rng.normal()),
+            })
+            .collect();
+        let its: Vec<i64> =
+            (0..n as i64).map(|i| if i < 30_000 { i + 1 } else { i - 9_999 }).collect();
+        let h = History::rebuild(Role::Monitor, &vals, |i| u64::from(i >= 30_000));
+        assert_eq!(h.marks.len(), 5, "1 checkpoint in the first segment, 4 in the second");
+        let input = SeriesInput {
+            name: Cow::Borrowed("drag"),
+            role: Role::Monitor,
+            iterations: Cow::Borrowed(&its),
+            values: Cow::Borrowed(&vals),
+            segment_starts: vec![0, 30_000],
+            history: Some(&h),
+        };
+        let v = View::new(&input).expect("non-empty");
+        assert!(v.history.is_some());
+        let full = Magnitude::new(&v);
+        let last = v.last_it();
+        for from in [last - 100, last - 5_000, last - 40_000, last - 90_000, 20_001] {
+            let tail = Magnitude::from_iteration(&v, from);
+            assert_eq!(tail.max(), full.max());
+            for t in [from, from + 1, from + 333, (from + last) / 2, last - 1, last] {
+                assert_eq!(tail.at(t), full.at(t), "from {from} at {t}");
+            }
+        }
+    }
+
     #[test]
     fn rewinding_equals_never_having_pushed() {
         let mut rng = Rng::new(11);
