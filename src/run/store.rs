@@ -17,6 +17,8 @@ use crate::judge::{RunInput, SeriesInput};
 use crate::record::{Event, LineStats, Output, RecordRef, SeriesId, SeriesInfo, Sink, Skip};
 
 mod append;
+#[cfg(test)]
+mod history_tests;
 mod open;
 mod reread;
 mod series;

@@ -24,7 +24,7 @@ use crate::record::{Event, LineStats, RecordRef};
 /// Where the current file's content begins in the store.
 #[derive(Debug, Clone, Copy, Default)]
 pub(super) struct FileStart {
-    records: usize,
+    pub(super) records: usize,
     /// Absolute event index (counting dropped ones).
     events: u64,
     /// Line counts of earlier files.
