@@ -241,9 +241,13 @@ pub fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
     {
         title.push_str(&format!(" [{}/{n}]", k + 1));
     }
+    let round_off = ch.evidence.iter().any(|e| e == crate::view::evidence::ROUND_OFF_WORDS);
     title.push_str(&format!("{}last {}", g.sep, number::sig(ch.last, 5)));
-    if let Some(dp) = ch.drift_pct {
+    if let Some(dp) = ch.drift_pct.filter(|_| !round_off) {
         title.push_str(&format!("{}drift {} %", g.sep, number::value(dp)));
+    }
+    for e in &ch.evidence {
+        title.push_str(&format!("{}{e}", g.sep));
     }
     if ch.log {
         title.push_str(&format!("{}log10", g.sep));
@@ -401,8 +405,11 @@ fn monitor_legend<'a>(
         entries.push((format!("{} mean", mg.mean), theme.band()));
     }
     if let Some(p) = ch.band_pct.filter(|_| ch.marks.band.is_some()) {
-        entries
-            .push((format!("{} band {}{} %", mg.band, g.pm, number::exact(p / 2.0)), theme.band()));
+        let unit = if ch.band_abs { "" } else { " %" };
+        entries.push((
+            format!("{} band {}{}{unit}", mg.band, g.pm, number::exact(p / 2.0)),
+            theme.band(),
+        ));
     }
     if let (Some(c), Some(_)) = (ch.ci_half, ch.marks.ci) {
         entries.push((format!("{} 95 % CI {}{}", mg.ci, g.pm, number::value(c)), theme.band()));
