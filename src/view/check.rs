@@ -50,13 +50,13 @@ pub fn no_verdict(run: &RunStore, why: &NothingToJudge) -> String {
             "the file is empty, so no parser recognised it".to_string()
         } else if src.records() == 0 {
             format!(
-                "parser `{}` found no record in its {} lines ({} skipped): is it the right parser?",
+                "parser {} found no record in its {} lines ({} skipped): is it the right parser?",
                 src.parser, src.stats.lines, src.stats.skipped
             )
         } else {
-            format!("{} records by parser `{}`", src.records(), src.parser)
+            format!("{} records by parser {}", src.records(), src.parser)
         };
-        let _ = write!(o, "\n  {}: {what}", clean(&src.label));
+        let _ = write!(o, "\n  {}: {}", clean(&src.label), plain(&what));
     }
     o
 }

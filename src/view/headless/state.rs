@@ -209,7 +209,7 @@ pub fn state_line(
     if let Some(age) = last_growth_age {
         parts.push(format!("grew {} ago", fmt_age(age)));
     }
-    parts.push(format!("why: {}", s.detail));
+    parts.push(format!("why: {}", crate::view::words::without_backticks(&s.detail)));
     clean(&parts.join(" | "))
 }
 
