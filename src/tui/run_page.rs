@@ -43,7 +43,8 @@ pub fn render(app: &App, run: usize, frame: &mut Frame, area: Rect) {
         why_lines: why.len() as u16,
         progress: v.progress.len() as u16,
         has_monitor: !app.detail.monitor_names.is_empty(),
-        criteria: v.criteria.len(),
+        // Room for the monitors listed as not judged under the criteria, too.
+        criteria: v.criteria.len() + v.not_judged.len(),
     };
     let lay = geometry::run_layout(area, shape);
     let header = header(app, run, v, area.width as usize);

@@ -71,6 +71,11 @@ pub struct MonitorChart {
     pub band_pct: Option<f64>,
     /// The band criterion is absolute (`band_abs`, in the monitor's unit).
     pub band_abs: bool,
+    /// The reference relative limits are measured against when it is not the mean (a
+    /// near-zero monitor, a `scale` from `settle.toml`), absolute.
+    pub reference: Option<f64>,
+    /// Iterations in the judged window (the judge's count).
+    pub window_iterations: Option<usize>,
     /// Half-width of the confidence interval of the mean, absolute.
     pub ci_half: Option<f64>,
     pub last: f64,
@@ -200,6 +205,10 @@ pub(super) fn monitor_chart(
         marks,
         band_pct,
         band_abs,
+        reference: summary
+            .filter(|m| m.reference != Reference::Mean && m.reference_value.is_finite())
+            .map(|m| m.reference_value.abs()),
+        window_iterations: summary.map(|m| m.window).filter(|&w| w > 0),
         ci_half,
         last: if b > 0 { s.values()[b - 1] } else { f64::NAN },
         drift_pct: summary.map(|m| m.drift_pct),
@@ -313,7 +322,7 @@ fn band_threshold(live: &LiveRun, name: &str) -> Option<f64> {
     }
     let per_series =
         live.criteria.series.iter().find(|(k, _)| crate::glob::matches(k, name)).map(|(_, v)| v);
-    if per_series.is_some_and(|v| v.ignore) {
+    if per_series.is_some_and(|v| v.ignore || v.role.is_some_and(|r| r != Role::Monitor)) {
         return None;
     }
     Some(
