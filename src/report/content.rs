@@ -163,6 +163,10 @@ pub fn monitors<'a>(judgement: &'a Judgement, views: &'a [SeriesView<'a>]) -> Ve
 
 pub fn monitor_svg(m: &MonitorView<'_>, index: usize, standalone: bool) -> String {
     let marks = match m.summary {
+        // Not judged: no window, mean or band to draw, only the history.
+        Some(s) if s.round_off => {
+            MonitorMarks { no_window: Some(evidence::ROUND_OFF_WORDS), ..Default::default() }
+        }
         Some(s) => MonitorMarks {
             window: Some((s.window_first, s.window_last)),
             mean: Some(s.mean),
@@ -171,6 +175,7 @@ pub fn monitor_svg(m: &MonitorView<'_>, index: usize, standalone: bool) -> Strin
             reference: (s.reference != Reference::Mean && s.reference_value.is_finite())
                 .then_some(s.reference_value),
             band_abs: m.band_abs,
+            no_window: None,
             transient_end: s.transient_end,
             extrapolated: s.extrapolated,
         },
@@ -184,10 +189,9 @@ pub fn monitor_caption(m: &MonitorView<'_>) -> String {
     let name = &m.view.input.name;
     match m.summary {
         Some(s) if s.round_off => format!(
-            "{name}: {}, it carries only round-off next to the other monitors. Left, the whole \
-             history; right, the last iterations (iterations {}) zoomed.",
+            "{name}: {}: it carries only round-off next to the other monitors. The whole \
+             history.",
             evidence::ROUND_OFF_WORDS,
-            range(s.window_first, s.window_last),
         ),
         Some(s) => {
             let mut c = format!(

@@ -113,6 +113,12 @@ pub fn monitor_table(ms: &[MonitorView<'_>]) -> Table {
     for m in ms {
         let last = m.view.input.values.last().copied().unwrap_or(f64::NAN);
         let row = match m.summary {
+            // Shown, not judged: its final value and why there is nothing else.
+            Some(s) if s.round_off => {
+                let mut row = vec![t(&s.series), n(num(last))];
+                row.extend([n("—"), n("—"), n(evidence::ROUND_OFF_WORDS), n("—"), n("—"), n("—")]);
+                row
+            }
             Some(s) => {
                 let rel = if s.mean != 0.0 { 100.0 * s.ci_half / s.mean.abs() } else { f64::NAN };
                 let rel = match s.reference {
@@ -133,14 +139,10 @@ pub fn monitor_table(ms: &[MonitorView<'_>]) -> Table {
                 };
                 // Relative numbers say what they are relative to when it is not the mean.
                 let of = evidence::reference_words(s).map(|r| format!(" {r}")).unwrap_or_default();
-                let (drift, band) = if s.round_off {
-                    (evidence::ROUND_OFF_WORDS.to_string(), "—".to_string())
-                } else {
-                    (
-                        format!("{}{of}", with_unit(s.drift_pct, "%")),
-                        format!("{}{of}", with_unit(s.band_pct, "%")),
-                    )
-                };
+                let (drift, band) = (
+                    format!("{}{of}", with_unit(s.drift_pct, "%")),
+                    format!("{}{of}", with_unit(s.band_pct, "%")),
+                );
                 vec![
                     t(&s.series),
                     n(num(s.last)),

@@ -33,6 +33,9 @@ pub struct MonitorMarks {
     /// `scale` from `settle.toml`).
     pub reference: Option<f64>,
     pub band_abs: bool,
+    /// What the empty window panel says when there is no window (default: the judge
+    /// reported none).
+    pub no_window: Option<&'static str>,
     pub transient_end: Option<i64>,
     pub extrapolated: Option<f64>,
 }
@@ -195,7 +198,7 @@ pub fn monitor_plot(line: &Line<'_>, marks: &MonitorMarks, standalone: bool) -> 
                 Frame { left, top: TOP, width: w_zoom, height: PLOT_H, x0, x1, y0: 0.0, y1: 1.0 };
             panel_title(&mut out, &f, "final window");
             border(&mut out, &f);
-            empty_note(&mut out, &f, "the judge reported no window");
+            empty_note(&mut out, &f, marks.no_window.unwrap_or("the judge reported no window"));
         }
     }
     legend.draw(&mut out, TOP + PLOT_H + AXIS_SPACE + 6.0);
