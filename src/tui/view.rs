@@ -322,9 +322,8 @@ fn eta(j: &Judgement, verdict: Verdict) -> Eta {
     for r in &j.residuals {
         match r.eta_iterations {
             Some(e) if e.is_finite() => {
-                if worst.and_then(|w| w.eta_iterations).is_none_or(|w| e > w) {
-                    worst = Some(r);
-                }
+                let longer = worst.and_then(|w| w.eta_iterations).is_none_or(|w| e > w);
+                worst = if longer { Some(r) } else { worst };
             }
             _ if unmet_residual(&r.series) && r.slope_dec_per_kit >= 0.0 => return Eta::NotInReach,
             _ => {}
