@@ -277,3 +277,19 @@ fn the_overview_counts_runs_without_a_verdict_by_their_state() {
     let other = lines.iter().position(|l| l.contains("tarn") && !l.contains("wing")).unwrap_or(99);
     assert!(first < other, "{}", lines.join("\n"));
 }
+
+/// `watch --help` and `demo --help` name the `y` key and the line printed on exit.
+#[test]
+fn help_names_the_why_key_and_the_final_line() {
+    for cmd in ["watch", "demo"] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_settle"))
+            .args([cmd, "--help"])
+            .output()
+            .expect("settle runs");
+        let help = squeeze(&String::from_utf8_lossy(&o.stdout));
+        assert!(o.status.success(), "{help}");
+        assert!(help.contains("y shows the whole why in a box when it does not fit"), "{help}");
+        assert!(help.contains("After q or Ctrl-C"), "{help}");
+        assert!(help.contains("first reason"), "{help}");
+    }
+}
