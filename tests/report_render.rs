@@ -114,7 +114,8 @@ fn html_is_well_formed_self_contained_and_complete() {
     // Findings with evidence.
     let fnd = section(&html, "findings");
     assert!(fnd.contains("stall (deciding)"));
-    assert!(fnd.contains("&lt; 1e-12"), "tiny p-value");
+    // (a number word with a minus is kept on one line by a no-wrap span)
+    assert!(fnd.contains("&lt; <span class=\"nw\">1e-12</span>"), "tiny p-value");
     assert!(
         fnd.contains("232 it") && fnd.contains("0.49\u{a0}%"),
         "period, amplitude in % for a monitor"
