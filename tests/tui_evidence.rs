@@ -108,11 +108,15 @@ fn the_monitor_title_names_the_window_and_the_near_zero_reference() {
     for (w, h) in SIZES {
         let lines = screen(&mut app, w, h);
         let all = lines.join("\n");
-        // The title is cut at the panel's width, but the window comes before the reference
-        // and is whole at 120 columns.
+        // The title drops what does not fit, the reference first; at 120 columns both are
+        // there.
         if w >= 120 {
             assert!(all.contains(&window), "{w}x{h}: {window}\n{all}");
+            assert!(all.contains(&reference), "{w}x{h}: {reference}\n{all}");
         }
+        // Never a reference cut inside its number: whole, or left out.
+        let title = lines.iter().find(|l| l.contains("lift [")).expect("lift title");
+        assert!(!title.contains("relative to") || title.contains(&reference), "{title}");
         // The round-off monitor is named under the criteria (or, with no room, in the
         // findings), never with a verdict of its own.
         let named = all.contains("side not judged (round-off only)")

@@ -242,7 +242,7 @@ pub fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
         title.push_str(&format!(" [{}/{n}]", k + 1));
     }
     // (priority, text): what the judge used comes first, the last value goes first when
-    // the panel is too narrow for all.
+    // the panel is too narrow for all; a part is dropped whole, never cut inside a number.
     let round_off = ch.evidence.iter().any(|e| e == crate::view::evidence::ROUND_OFF_WORDS);
     let mut parts: Vec<(u8, String)> = vec![(3, format!("last {}", number::sig(ch.last, 5)))];
     if let Some(dp) = ch.drift_pct.filter(|_| !round_off) {
@@ -257,7 +257,7 @@ pub fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
         width(&title) + ps.iter().map(|(_, t)| width(g.sep) + width(t)).sum::<usize>() + 1
     };
     while total(&parts) > room {
-        let Some(worst) = parts.iter().map(|(p, _)| *p).max().filter(|&p| p > 1) else { break };
+        let Some(worst) = parts.iter().map(|(p, _)| *p).max() else { break };
         let k = parts.iter().rposition(|(p, _)| *p == worst).unwrap_or(0);
         parts.remove(k);
     }
