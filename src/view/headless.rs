@@ -105,14 +105,16 @@ impl PrintReason {
 }
 
 /// When to print for one run: on the first judgement, when the verdict changes, when any
-/// criterion's met flag changes (or a criterion appears or goes away), and otherwise a
-/// heartbeat every `heartbeat`. Keep one per run.
+/// criterion's met flag changes (or a criterion appears or goes away) or the monitors not
+/// judged change, and otherwise a heartbeat every `heartbeat`. Keep one per run.
 #[derive(Debug, Clone, PartialEq)]
 pub struct HeadlessState {
     heartbeat: Duration,
     last_print: Option<Instant>,
     verdict: Option<Verdict>,
     met: Vec<(String, String, bool)>,
+    /// Monitors not judged (round-off only) at the last call.
+    not_judged: Vec<String>,
 }
 
 impl Default for HeadlessState {
@@ -127,7 +129,13 @@ impl HeadlessState {
     pub const DEFAULT_HEARTBEAT: Duration = Duration::from_secs(60);
 
     pub fn new(heartbeat: Duration) -> HeadlessState {
-        HeadlessState { heartbeat, last_print: None, verdict: None, met: Vec::new() }
+        HeadlessState {
+            heartbeat,
+            last_print: None,
+            verdict: None,
+            met: Vec::new(),
+            not_judged: Vec::new(),
+        }
     }
 
     /// Whether to print a status line for `j` now, and why. Calling it records the print.
@@ -135,10 +143,12 @@ impl HeadlessState {
         let mut met: Vec<(String, String, bool)> =
             j.criteria.iter().map(|c| (c.name.clone(), c.series.clone(), c.met)).collect();
         met.sort();
+        let not_judged: Vec<String> =
+            evidence::round_off_monitors(j).into_iter().map(str::to_string).collect();
         let reason = match (self.verdict, self.last_print) {
             (None, _) | (_, None) => Some(PrintReason::First),
             (Some(v), _) if v != j.verdict => Some(PrintReason::Verdict),
-            _ if met != self.met => Some(PrintReason::Criteria),
+            _ if met != self.met || not_judged != self.not_judged => Some(PrintReason::Criteria),
             (_, Some(t)) if now.saturating_duration_since(t) >= self.heartbeat => {
                 Some(PrintReason::Heartbeat)
             }
@@ -146,6 +156,7 @@ impl HeadlessState {
         };
         self.verdict = Some(j.verdict);
         self.met = met;
+        self.not_judged = not_judged;
         if reason.is_some() {
             self.last_print = Some(now);
         }

@@ -275,7 +275,15 @@ fn change_detection_sequence() {
     assert_eq!(s.should_print(&j, t(100)), None);
     j.criteria.pop(); // a criterion going away is a change
     assert_eq!(s.should_print(&j, t(101)), Some(PrintReason::Criteria));
-    assert_eq!(s.should_print(&j, t(161)), Some(PrintReason::Heartbeat));
+    // A monitor found to carry only round-off (not judged any more) is a change.
+    j.monitors.push(crate::judge::MonitorSummary {
+        series: "Fz".into(),
+        round_off: true,
+        ..Default::default()
+    });
+    assert_eq!(s.should_print(&j, t(102)), Some(PrintReason::Criteria));
+    assert_eq!(s.should_print(&j, t(103)), None);
+    assert_eq!(s.should_print(&j, t(162)), Some(PrintReason::Heartbeat));
 }
 
 /// The judge's new evidence in the lines: the window and the near-zero reference of an
