@@ -66,11 +66,23 @@ enum Command {
     /// is left out is said, with the reason). Several runs open an overview, the runs
     /// needing a decision first. Without a terminal (a pipe, a batch job, TERM=dumb)
     /// settle switches to headless status lines.
+    ///
+    /// Keys in the panels: ? lists them all; y shows the whole why in a box when it does
+    /// not fit under the header (any key closes it); q quits. A run without a verdict shows
+    /// its state instead (waiting, unreadable, no-parser, nothing-to-judge) with the reason.
+    /// After q or Ctrl-C one line stays in the scroll-back: the open run's verdict (or
+    /// state) and its first reason, or the counts of an overview; headless mode ends with
+    /// one `(final)` line per run.
     Watch(WatchArgs),
     /// A live run of our invented demo solver, judged as it grows (the quickest tour).
     ///
     /// A background writer produces a growing log and force-monitor file in a temporary
     /// directory (removed on exit) and settle watches them.
+    ///
+    /// Keys as in `watch`: ? lists them; y shows the whole why in a box when it does not
+    /// fit; q quits. After q or Ctrl-C the demo prints one line with the final verdict and
+    /// its first reason (`demo converging: CONVERGED at it 2 400 — …`), so it stays in the
+    /// scroll-back.
     Demo(DemoArgs),
     /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
     ///
@@ -120,7 +132,8 @@ struct LiveArgs {
     heartbeat: f64,
     /// When headless mode stops by itself: when every run has ended (end-of-run mark,
     /// crash after divergence, or stale; a run without records when it went stale or no
-    /// parser recognises its file: exit code 16), also as soon as one diverges, or never.
+    /// parser recognises its file, or whose records hold nothing to judge when they end:
+    /// exit code 16), also as soon as one diverges, or never.
     #[arg(long, value_enum, default_value_t = settle::watch::ExitWhen::Ended)]
     exit_when: settle::watch::ExitWhen,
     /// Colour: auto honours NO_COLOR (when set and non-empty).

@@ -5,7 +5,6 @@
 pub mod bulk;
 pub mod config;
 pub mod downsample;
-pub mod headless;
 pub mod ingest;
 pub mod pipeline;
 pub mod resolve;

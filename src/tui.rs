@@ -36,7 +36,7 @@ use std::io;
 use std::sync::mpsc::{Receiver, Sender};
 use std::time::Duration;
 
-use crate::judge::{Criteria, Finding, Judgement, Verdict};
+use crate::judge::{Criteria, Finding, Judgement, NothingToJudge, Verdict};
 use crate::run::RunStore;
 use crate::run::ingest::{IngestBatch, SourceActivity};
 
@@ -68,6 +68,10 @@ pub struct LiveRun {
     /// Set by the live loop: the log stopped growing for longer than the stale limit and no
     /// end-of-run mark was seen.
     pub stale: bool,
+    /// Why the latest judgement has nothing to judge (no value, or only `info` and ignored
+    /// series); set by [`LiveRun::set_judgement`]. Then `judgement` is an empty stand-in that
+    /// no view may show as a verdict.
+    pub nothing: Option<NothingToJudge>,
     /// Records in the store when `judgement` was made (`None` before the first judgement);
     /// set by [`LiveRun::set_judgement`]. Actions act only on a judgement that saw every
     /// record in the store.
@@ -85,10 +89,17 @@ impl LiveRun {
         self.store.sources.iter().map(|s| s.records() as u64).sum()
     }
 
-    /// Store a judgement of the data now in the store.
+    /// Store a judgement of the data now in the store, and whether there was anything to
+    /// judge in it ([`crate::judge::nothing_to_judge`], cheap: no statistics).
     pub fn set_judgement(&mut self, judgement: Judgement) {
         self.judged_records = Some(self.records());
+        self.nothing = crate::judge::nothing_to_judge(&self.store.judge_input(), &self.criteria);
         self.judgement = judgement;
+    }
+
+    /// The run has records but nothing the criteria judge: it has no verdict.
+    pub fn nothing_to_judge(&self) -> Option<&NothingToJudge> {
+        self.nothing.as_ref()
     }
 
     /// The latest judgement saw every record now in the store (false before the first).

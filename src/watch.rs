@@ -114,6 +114,10 @@ impl ActionHooks {
         let Some(judged) = data.judged_records else {
             return out;
         };
+        // Nothing to judge: no verdict, so nothing for an action to act on.
+        if data.nothing_to_judge().is_some() {
+            return out;
+        }
         if let Some(r) = self.runners.get_mut(run).and_then(Option::as_mut) {
             let mut obs = Observation::new(data.verdict(), data.judgement.iterations, judged);
             obs.data_final = data_final(data);

@@ -114,7 +114,8 @@ fn html_is_well_formed_self_contained_and_complete() {
     // Findings with evidence.
     let fnd = section(&html, "findings");
     assert!(fnd.contains("stall (deciding)"));
-    assert!(fnd.contains("&lt; 1e-12"), "tiny p-value");
+    // (a number word with a minus is kept on one line by a no-wrap span)
+    assert!(fnd.contains("&lt; <span class=\"nw\">1e-12</span>"), "tiny p-value");
     assert!(
         fnd.contains("232 it") && fnd.contains("0.49\u{a0}%"),
         "period, amplitude in % for a monitor"
@@ -422,4 +423,36 @@ fn crash_text_plurals_and_the_monitor_table_shape() {
     assert_eq!(head.matches("<th>").count(), 8, "{head}");
     assert!(mon.contains("<table class=\"monitors\">"));
     assert!(html.contains("table.monitors td.num { white-space: normal; }"));
+}
+
+/// The judge's evidence in the report's tables: the estimate to target with its range, the
+/// window a monitor was judged over, a near-zero reference, a round-off monitor not judged
+/// (hand-built judgement of the invented tarn case; the rendering is under test).
+#[test]
+fn eta_range_window_reference_and_round_off_in_the_tables() {
+    use settle::judge::Reference;
+    let mut fx = Fixture::new(5000);
+    fx.judgement.verdict = Verdict::Converging;
+    let p = fx.judgement.residuals.iter_mut().find(|r| r.series == "p").expect("p");
+    p.eta_iterations = Some(912.0);
+    p.eta_range = Some((604.0, 1_437.0));
+    let cd = &mut fx.judgement.monitors[0];
+    cd.window = 500;
+    cd.reference = Reference::NearZero;
+    cd.reference_value = 0.018_34;
+    // Cl stands in for a round-off-only monitor.
+    let cl = fx.judgement.monitors.iter_mut().find(|m| m.series == "Cl").expect("Cl");
+    *cl = MonitorSummary { series: "Cl".into(), round_off: true, ..Default::default() };
+    let html = render_html(&fx.input());
+    check_markup(&html).unwrap_or_else(|e| panic!("markup: {e}"));
+    let res = section(&html, "residuals");
+    assert!(res.contains("≈ 910 (600 … 1400)"), "{res}");
+    let mon = section(&html, "monitors");
+    assert!(mon.contains("500\u{a0}it"), "the window's iterations: {mon}");
+    assert!(mon.contains("relative to 0.0183 (mean near zero)"), "{mon}");
+    assert!(mon.contains("tolerance band ± 0.25 % relative to 0.0183 (mean near zero)"), "{mon}");
+    let cz = &mon[mon.find("<td>Cl</td>").expect("a Cl row")..];
+    let cz = &cz[..cz.find("</tr>").expect("row end")];
+    assert!(cz.contains("not judged (round-off only)"), "{cz}");
+    assert!(!cz.contains("n/a"), "{cz}");
 }

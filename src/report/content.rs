@@ -15,7 +15,7 @@ pub use tables::{
     residual_table, sources_table,
 };
 
-use crate::judge::{Judgement, MonitorSummary, RunInput};
+use crate::judge::{Judgement, MonitorSummary, Reference, RunInput};
 use crate::record::Role;
 use crate::report::ReportInput;
 use crate::report::provenance::{criteria_in_effect, format_utc};
@@ -23,6 +23,7 @@ use crate::report::svg::{self, Line, MonitorMarks, Target};
 use crate::report::text::{
     bytes, evidence, exact, iteration, kind_words, plus_minus, range, threshold_text,
 };
+use crate::view::evidence;
 
 /// How a cell is shown: plain, a right-aligned number, a criterion state, a hash, or a
 /// sentence of the judge that may hold `` `code` `` spans (shown as code, without backticks).
@@ -129,28 +130,32 @@ pub fn residual_svg(input: &ReportInput<'_>, views: &[SeriesView<'_>], standalon
 pub struct MonitorView<'a> {
     pub view: &'a SeriesView<'a>,
     pub summary: Option<&'a MonitorSummary>,
-    /// The `band` criterion of this monitor (full width, percent of |mean|), when one applies.
+    /// The `band` criterion of this monitor (full width, percent of the reference), when one
+    /// applies.
     pub band_pct: Option<f64>,
+    /// The band criterion is absolute (`band_abs`, in the monitor's unit).
+    pub band_abs: bool,
 }
 
 /// Monitors in the judge's order, then any other monitor series.
 pub fn monitors<'a>(judgement: &'a Judgement, views: &'a [SeriesView<'a>]) -> Vec<MonitorView<'a>> {
-    let band = |name: &str| {
-        judgement
-            .criteria
-            .iter()
-            .find(|c| c.series == name && c.name == "band")
-            .map(|c| c.threshold)
+    let band =
+        |name: &str| judgement.criteria.iter().find(|c| c.series == name && c.name == "band");
+    let view = |v, summary, name: &str| MonitorView {
+        view: v,
+        summary,
+        band_pct: band(name).map(|c| c.threshold),
+        band_abs: band(name).is_some_and(|c| c.unit.is_empty()),
     };
     let mut out: Vec<MonitorView<'a>> = Vec::new();
     for m in &judgement.monitors {
         if let Some(v) = views.iter().find(|v| v.input.name == m.series) {
-            out.push(MonitorView { view: v, summary: Some(m), band_pct: band(&m.series) });
+            out.push(view(v, Some(m), &m.series));
         }
     }
     for v in views.iter().filter(|v| v.input.role == Role::Monitor) {
         if !out.iter().any(|m| m.view.input.name == v.input.name) {
-            out.push(MonitorView { view: v, summary: None, band_pct: band(&v.input.name) });
+            out.push(view(v, None, &v.input.name));
         }
     }
     out
@@ -158,11 +163,19 @@ pub fn monitors<'a>(judgement: &'a Judgement, views: &'a [SeriesView<'a>]) -> Ve
 
 pub fn monitor_svg(m: &MonitorView<'_>, index: usize, standalone: bool) -> String {
     let marks = match m.summary {
+        // Not judged: no window, mean or band to draw, only the history.
+        Some(s) if s.round_off => {
+            MonitorMarks { no_window: Some(evidence::ROUND_OFF_WORDS), ..Default::default() }
+        }
         Some(s) => MonitorMarks {
             window: Some((s.window_first, s.window_last)),
             mean: Some(s.mean),
             ci_half: Some(s.ci_half),
             band_pct: m.band_pct,
+            reference: (s.reference != Reference::Mean && s.reference_value.is_finite())
+                .then_some(s.reference_value),
+            band_abs: m.band_abs,
+            no_window: None,
             transient_end: s.transient_end,
             extrapolated: s.extrapolated,
         },
@@ -175,15 +188,28 @@ pub fn monitor_svg(m: &MonitorView<'_>, index: usize, standalone: bool) -> Strin
 pub fn monitor_caption(m: &MonitorView<'_>) -> String {
     let name = &m.view.input.name;
     match m.summary {
+        Some(s) if s.round_off => format!(
+            "{name}: {}: it carries only round-off next to the other monitors. The whole \
+             history.",
+            evidence::ROUND_OFF_WORDS,
+        ),
         Some(s) => {
             let mut c = format!(
-                "{name}: left, the whole history; right, the final window (iterations {}) \
+                "{name}: left, the whole history; right, the final window (iterations {}, {}) \
                  zoomed. Mean {} (95 % CI)",
                 range(s.window_first, s.window_last),
+                evidence::window_words(s.window),
                 plus_minus(s.mean, s.ci_half),
             );
-            if let Some(b) = m.band_pct {
-                c.push_str(&format!("; tolerance band ± {} % of the mean", exact(b / 2.0)));
+            let of = evidence::reference_words(s).unwrap_or_else(|| "of the mean".into());
+            match m.band_pct {
+                Some(b) if m.band_abs => {
+                    c.push_str(&format!("; tolerance band ± {} (absolute)", exact(b / 2.0)));
+                }
+                Some(b) => {
+                    c.push_str(&format!("; tolerance band ± {} % {of}", exact(b / 2.0)));
+                }
+                None => {}
             }
             if let Some(e) = s.transient_end {
                 c.push_str(&format!(

@@ -52,6 +52,7 @@ td.unmet { color: #a3122f; font-weight: 700; white-space: nowrap; }
 code { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 0.9em;
   background: #f0f0f0; padding: 0 3px; border-radius: 2px; }
 table.monitors td.num { white-space: normal; }
+.nw { white-space: nowrap; }
 table.monitors td:first-child { word-break: break-word; }
 td.hash { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 0.85em;
   word-break: break-all; }
@@ -241,6 +242,21 @@ pub fn render_html(input: &ReportInput<'_>) -> String {
 }
 
 /// A sentence of the judge, escaped, with its `` `code` `` spans as `<code>`.
+/// A number cell, escaped, with each word holding a minus or an exponent kept on one line
+/// (`1.08e-21` must not wrap after its `-` in a narrow column).
+fn number_text(s: &str) -> String {
+    s.split(' ')
+        .map(|w| {
+            if w.contains('-') && w.chars().any(|c| c.is_ascii_digit()) {
+                format!("<span class=\"nw\">{}</span>", xml(w))
+            } else {
+                xml(w)
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
 fn prose(s: &str) -> String {
     words::code_spans(s)
         .into_iter()
@@ -275,6 +291,9 @@ fn table(h: &mut String, t: &Table, empty: &str) {
             match cell.class.css() {
                 _ if cell.class == content::Class::Prose => {
                     let _ = write!(h, "<td>{}</td>", prose(&cell.text));
+                }
+                Some(class) if cell.class == content::Class::Num => {
+                    let _ = write!(h, "<td class=\"{class}\">{}</td>", number_text(&cell.text));
                 }
                 Some(class) => {
                     let _ = write!(h, "<td class=\"{class}\">{}</td>", xml(&cell.text));

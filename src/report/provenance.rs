@@ -142,7 +142,13 @@ pub fn criteria_in_effect(c: &Criteria) -> Vec<(String, String, bool)> {
         &format!("{} dec", Criteria::DEFAULT_RESIDUAL_DROP),
     );
     row("residual_below", c.residual_below.map(|v| v.to_string()), "none");
-    row("window", c.window.map(|v| format!("{v} it")), &format!("{} it", Criteria::DEFAULT_WINDOW));
+    // Unset, the judge fits the window to the run (the report's monitors table gives the
+    // window each monitor was judged over).
+    row(
+        "window",
+        c.window.map(|v| format!("{v} it")),
+        &format!("fitted to the run, at most {} it", Criteria::DEFAULT_WINDOW),
+    );
     row("drift", c.drift.map(|v| format!("{v} %")), &format!("{} %", Criteria::DEFAULT_DRIFT_PCT));
     row("band", c.band.map(|v| format!("{v} %")), &format!("{} %", Criteria::DEFAULT_BAND_PCT));
     row("ci", c.ci.map(|v| format!("{v} %")), "not checked");

@@ -452,8 +452,8 @@ impl App {
         let mut order: Vec<usize> = (0..self.slots.len()).collect();
         order.sort_by(|&a, &b| {
             let (sa, sb) = (&self.slots[a], &self.slots[b]);
-            (attention_rank(sa.view.verdict), sa.acknowledged(), &sa.view.name).cmp(&(
-                attention_rank(sb.view.verdict),
+            (sa.view.attention(), sa.acknowledged(), &sa.view.name).cmp(&(
+                sb.view.attention(),
                 sb.acknowledged(),
                 &sb.view.name,
             ))

@@ -34,8 +34,15 @@ struct Columns {
     grew: usize,
 }
 
+#[cfg(test)]
 fn columns(total: usize, longest_name: usize) -> Columns {
-    let verdict = 11;
+    columns_for(total, longest_name, 0)
+}
+
+/// [`columns`] with the verdict column wide enough for a state word of `state_w` cells
+/// (`nothing-to-judge`), so that no row cuts its state.
+fn columns_for(total: usize, longest_name: usize, state_w: usize) -> Columns {
+    let verdict = 11.max(state_w + 1);
     let iteration = 9;
     let grew = 5;
     let mut name = longest_name.clamp(6, (total / 4).max(28));
@@ -111,10 +118,11 @@ pub fn render(app: &App, frame: &mut Frame, area: Rect) {
     let total = area.width as usize;
     let names: Vec<&str> = app.slots.iter().map(|s| s.view.name.as_str()).collect();
     let longest = names.iter().map(|n| width(n)).max().unwrap_or(6);
-    let c = columns(total, longest);
+    let state_w = app.slots.iter().map(|s| width(s.view.state_word())).max().unwrap_or(0);
+    let c = columns_for(total, longest, state_w);
     let (shown_names, prefix) = display_names(&names, c.name, g.ascii);
     // Without the shared prefix the names may need less room: give it to the other columns.
-    let c = columns(total, shown_names.iter().map(|n| width(n)).max().unwrap_or(6));
+    let c = columns_for(total, shown_names.iter().map(|n| width(n)).max().unwrap_or(6), state_w);
     frame.render_widget(
         Paragraph::new(title(app, prefix.as_deref(), total)),
         clamp(Rect::new(area.x, area.y, area.width, 1), area),
@@ -188,16 +196,28 @@ fn title<'a>(app: &'a App, prefix: Option<&str>, cells: usize) -> Line<'a> {
     let mut by_rank: Vec<Verdict> = Verdict::ALL.to_vec();
     by_rank.sort_by_key(|v| attention_rank(*v));
     for v in by_rank {
-        let n = app.slots.iter().filter(|s| s.view.records > 0 && s.view.verdict == v).count();
+        let n =
+            app.slots.iter().filter(|s| s.view.no_verdict.is_none() && s.view.verdict == v).count();
         if n > 0 {
             spans.push(Span::raw(g.sep));
             spans.push(span(format!("{n} {}", v.as_str()), theme.verdict_text(v)));
         }
     }
-    let waiting = app.slots.iter().filter(|s| s.view.records == 0).count();
-    if waiting > 0 {
+    // Runs without a verdict, by their state word, in the order first seen.
+    let mut states: Vec<(&str, bool, usize)> = Vec::new();
+    for s in &app.slots {
+        if let Some(nv) = &s.view.no_verdict {
+            match states.iter_mut().find(|(w, _, _)| *w == nv.word) {
+                Some(e) => e.2 += 1,
+                None => states.push((nv.word, nv.alarm, 1)),
+            }
+        }
+    }
+    states.sort_by_key(|(_, alarm, _)| !alarm);
+    for (word, alarm, n) in states {
         spans.push(Span::raw(g.sep));
-        spans.push(span(format!("{waiting} waiting"), theme.dim()));
+        let style = if alarm { theme.verdict_text(Verdict::Stale) } else { theme.dim() };
+        spans.push(span(format!("{n} {word}"), style));
     }
     let reading = app.slots.iter().filter(|s| !s.view.progress.is_empty()).count();
     if reading > 0 {
@@ -226,7 +246,11 @@ fn row<'a>(app: &'a App, v: &'a RunView, name: &str, acked: bool, c: &Columns) -
     let g = &theme.glyphs;
     let ack = if acked { if g.ascii { "a" } else { "✔" } } else { " " };
     let it = v.iteration.map_or_else(|| "-".into(), format::iteration);
-    let state_style = if v.records == 0 { theme.dim() } else { theme.verdict_text(v.verdict) };
+    let state_style = match &v.no_verdict {
+        Some(n) if n.alarm => theme.verdict_text(Verdict::Stale),
+        Some(_) => theme.dim(),
+        None => theme.verdict_text(v.verdict),
+    };
     let mut s = vec![
         Span::raw(ack),
         Span::raw(" "),

@@ -30,6 +30,7 @@ use super::render::{key_bar, panel};
 use super::text::{fit, pad, pad_left, width, wrap};
 use super::theme::Theme;
 use super::view::{Eta, Level, RunView};
+use crate::judge::Verdict;
 
 pub fn render(app: &App, run: usize, frame: &mut Frame, area: Rect) {
     let Some(slot) = app.slots.get(run) else {
@@ -42,7 +43,8 @@ pub fn render(app: &App, run: usize, frame: &mut Frame, area: Rect) {
         why_lines: why.len() as u16,
         progress: v.progress.len() as u16,
         has_monitor: !app.detail.monitor_names.is_empty(),
-        criteria: v.criteria.len(),
+        // Room for the monitors listed as not judged under the criteria, too.
+        criteria: v.criteria.len() + v.not_judged.len(),
     };
     let lay = geometry::run_layout(area, shape);
     let header = header(app, run, v, area.width as usize);
@@ -140,8 +142,10 @@ fn header<'a>(app: &'a App, run: usize, v: &'a RunView, cells: usize) -> Line<'a
     let theme = &app.theme;
     let g = &theme.glyphs;
     let slot = &app.slots[run];
-    let badge = if v.records == 0 {
-        Span::styled(" WAITING ", theme.selected())
+    let badge = if let Some(n) = &v.no_verdict {
+        // No verdict: the state in its place, loud when the user must act.
+        let style = if n.alarm { theme.verdict_badge(Verdict::Stale) } else { theme.selected() };
+        Span::styled(format!(" {} ", n.word.to_uppercase()), style)
     } else {
         Span::styled(
             format!(" {} ", v.verdict.as_str().to_uppercase()),
@@ -164,7 +168,7 @@ fn header<'a>(app: &'a App, run: usize, v: &'a RunView, cells: usize) -> Line<'a
     if let Some(it) = v.iteration {
         parts.push(fact(3, format!("it {}", format::iteration(it))));
     }
-    if let Some(e) = eta_text(v) {
+    if let Some(e) = eta_text(v, g.ascii) {
         parts.push(fact(1, e));
     }
     if v.ended {
@@ -198,12 +202,19 @@ fn header<'a>(app: &'a App, run: usize, v: &'a RunView, cells: usize) -> Line<'a
     Line::from(s)
 }
 
-fn eta_text(v: &RunView) -> Option<String> {
+fn eta_text(v: &RunView, ascii: bool) -> Option<String> {
     Some(match v.eta {
         Eta::Met => "target met".into(),
         Eta::NotInReach => "target not in reach".into(),
-        Eta::Iterations(n) => {
+        Eta::Iterations(n, range) => {
             let mut t = format!("ETA {} it", format::iteration(n.round() as i64));
+            if let Some((lo, hi)) = range {
+                // The range of the estimate, rounded as `check` and the headless lines do.
+                let dash = if ascii { "-" } else { "–" };
+                if let Some(text) = crate::view::evidence::eta_range_text((lo, hi), dash) {
+                    t.push_str(&format!(" ({text})"));
+                }
+            }
             if let Some(r) = v.rate_per_min.filter(|r| *r > 0.0) {
                 let secs = n / r * 60.0;
                 if secs.is_finite() && secs < 1e9 {
@@ -253,7 +264,8 @@ fn criteria_panel(theme: &Theme, v: &RunView, frame: &mut Frame, r: Rect) {
     let inner = clamp(block.inner(r), r);
     frame.render_widget(block, r);
     if v.criteria.is_empty() {
-        frame.render_widget(Paragraph::new(Span::styled(" none judged yet", theme.dim())), inner);
+        let text = if v.no_verdict.is_some() { " no verdict" } else { " none judged yet" };
+        frame.render_widget(Paragraph::new(Span::styled(text, theme.dim())), inner);
         return;
     }
     let w = inner.width as usize;
@@ -293,6 +305,15 @@ fn criteria_panel(theme: &Theme, v: &RunView, frame: &mut Frame, r: Rect) {
         };
         let style = if failing > 0 { theme.met(false) } else { theme.dim() };
         lines.push(Line::from(Span::styled(text, style)));
+    }
+    // Monitors shown but not judged, below the criteria while there is room (the findings
+    // list says it too).
+    for name in &v.not_judged {
+        if lines.len() >= rows {
+            break;
+        }
+        let text = format!(" {} {name} {}", g.sep.trim(), crate::view::evidence::ROUND_OFF_WORDS);
+        lines.push(Line::from(Span::styled(fit(&text, w), theme.dim())));
     }
     frame.render_widget(Paragraph::new(lines), inner);
 }

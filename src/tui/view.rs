@@ -40,8 +40,9 @@ pub use spark::{SPARK_CELLS, sparkline};
 pub enum Eta {
     /// Every criterion holds.
     Met,
-    /// Estimated iterations still needed (slowest residual).
-    Iterations(f64),
+    /// Estimated iterations still needed (slowest residual), with the range of the estimate
+    /// when the judge gave one (fewest, most).
+    Iterations(f64, Option<(f64, f64)>),
     /// A residual above its target is not falling.
     NotInReach,
     /// Not enough information yet.
@@ -107,6 +108,18 @@ pub struct SeriesRef {
     pub role: Role,
 }
 
+/// A run that has no verdict to show: its state word (the headless watcher's, see
+/// [`crate::view::headless::RunState`]) and the reason, shown in place of a verdict.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NoVerdict {
+    /// `waiting`, `reading`, `unreadable`, `no-parser`, `stale` or `nothing-to-judge`.
+    pub word: &'static str,
+    pub reason: String,
+    /// Something is wrong and needs the user (unreadable, no parser, nothing to judge),
+    /// rather than data still to come.
+    pub alarm: bool,
+}
+
 /// Everything the screens show about one run, except the charts of the open run.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RunView {
@@ -139,14 +152,59 @@ pub struct RunView {
     pub all_met: bool,
     /// Residuals first, then monitors, indicators and info series.
     pub series: Vec<SeriesRef>,
+    /// Monitors shown but not judged because they carry only round-off (sanitised names).
+    pub not_judged: Vec<String>,
+    /// Set when the run has no verdict (no records yet, or nothing to judge): then
+    /// `verdict` is meaningless and no screen shows it.
+    pub no_verdict: Option<NoVerdict>,
 }
 
 impl RunView {
-    /// The word the overview shows for this run and counts in its title: `waiting` before any
-    /// record, else the verdict.
+    /// The word the screens show for this run and the overview counts in its title: the
+    /// state of a run without a verdict (`waiting`, `unreadable`, `nothing-to-judge`, ...),
+    /// else the verdict.
     pub fn state_word(&self) -> &'static str {
-        if self.records == 0 { "waiting" } else { self.verdict.as_str() }
+        match &self.no_verdict {
+            Some(n) => n.word,
+            None => self.verdict.as_str(),
+        }
     }
+
+    /// Attention order of the overview (see [`super::app::attention_rank`]): a run without a
+    /// verdict that needs the user ranks with `stale`, one still waiting for data with
+    /// `converging`.
+    pub fn attention(&self) -> u8 {
+        match &self.no_verdict {
+            Some(n) if n.alarm => super::app::attention_rank(Verdict::Stale),
+            Some(_) => super::app::attention_rank(Verdict::Converging),
+            None => super::app::attention_rank(self.verdict),
+        }
+    }
+}
+
+/// The state of a run without a verdict, as the headless watcher words it: without records
+/// the follower's and parser's reason (`waiting for … to appear`, `cannot read …`), with
+/// records but nothing the criteria judge the judge's reason
+/// ([`crate::view::evidence::no_verdict_reason`]).
+fn no_verdict(live: &LiveRun, ascii: bool) -> Option<NoVerdict> {
+    use crate::view::headless::{self, RunState};
+    let records: usize = live.store.sources.iter().map(SourceStore::records).sum();
+    let report = if records == 0 {
+        // The panels decide `stale` themselves; here only what the sources say.
+        let quiet = std::time::Duration::ZERO;
+        headless::run_state(&live.store, &live.activity, quiet, std::time::Duration::MAX)?
+    } else {
+        headless::nothing_state(live.nothing_to_judge()?)
+    };
+    let alarm = matches!(
+        report.state,
+        RunState::Unreadable | RunState::NoParser { .. } | RunState::NothingToJudge
+    );
+    Some(NoVerdict {
+        word: report.state.as_str(),
+        reason: sanitized(&words::without_backticks(&report.detail), ascii),
+        alarm,
+    })
 }
 
 /// Inputs of [`build_run_view`] beyond the run itself.
@@ -180,6 +238,11 @@ pub fn build_run_view(live: &LiveRun, inp: &ViewInputs<'_>) -> RunView {
         live.store.sources.iter().map(|s| s.segments.len().saturating_sub(1)).max().unwrap_or(0);
     let (leading, spark) = spark::leading_residual(live, &series, ascii);
     let worst = worst_criterion(&j.criteria, ascii);
+    let no_verdict = no_verdict(live, ascii);
+    let why = match &no_verdict {
+        Some(n) => vec![n.reason.clone()],
+        None => why(live, inp),
+    };
     RunView {
         name: sanitized(&live.store.name, ascii),
         judged: j.verdict,
@@ -191,8 +254,8 @@ pub fn build_run_view(live: &LiveRun, inp: &ViewInputs<'_>) -> RunView {
         ended: live.store.ended(),
         rate_per_min: inp.rate_per_min,
         last_growth,
-        eta: eta(j, verdict),
-        why: why(live, inp),
+        eta: if no_verdict.is_some() { Eta::Unknown } else { eta(j, verdict) },
+        why,
         criteria: criteria_rows(&j.criteria, g),
         items: items::items(live, inp),
         progress,
@@ -201,6 +264,11 @@ pub fn build_run_view(live: &LiveRun, inp: &ViewInputs<'_>) -> RunView {
         all_met: !j.criteria.is_empty() && worst.is_none(),
         worst,
         series,
+        not_judged: crate::view::evidence::round_off_monitors(j)
+            .into_iter()
+            .map(|n| sanitized(n, ascii))
+            .collect(),
+        no_verdict,
     }
 }
 
@@ -250,17 +318,23 @@ fn eta(j: &Judgement, verdict: Verdict) -> Eta {
             .iter()
             .any(|c| c.series == name && !c.met && (c.unit == "dec" || c.name == "below"))
     };
-    let mut worst: Option<f64> = None;
+    let mut worst: Option<&crate::judge::ResidualSummary> = None;
     for r in &j.residuals {
         match r.eta_iterations {
-            Some(e) if e.is_finite() => worst = Some(worst.map_or(e, |w: f64| w.max(e))),
+            Some(e) if e.is_finite() => {
+                let longer = worst.and_then(|w| w.eta_iterations).is_none_or(|w| e > w);
+                worst = if longer { Some(r) } else { worst };
+            }
             _ if unmet_residual(&r.series) && r.slope_dec_per_kit >= 0.0 => return Eta::NotInReach,
             _ => {}
         }
     }
     match (worst, verdict) {
         (_, Verdict::Stalled | Verdict::Diverging) => Eta::NotInReach,
-        (Some(e), _) => Eta::Iterations(e),
+        (Some(r), _) => Eta::Iterations(
+            r.eta_iterations.unwrap_or(f64::NAN),
+            r.eta_range.filter(|(lo, hi)| lo.is_finite() && hi.is_finite() && lo <= hi),
+        ),
         (None, _) => Eta::Unknown,
     }
 }

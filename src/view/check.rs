@@ -7,7 +7,15 @@ use serde_json::{Value, json};
 
 use crate::judge::{Comparison, CriterionResult, Judgement, NothingToJudge, Verdict};
 use crate::run::RunStore;
+use crate::view::evidence::{self, no_verdict_reason};
 use crate::view::parse::{clean, jnum, num};
+use crate::view::words::without_backticks;
+
+/// Log text made safe for one terminal line, with the judge's inline code shown without its
+/// backticks.
+fn plain(s: &str) -> String {
+    clean(&without_backticks(s))
+}
 
 fn criterion_value(c: &CriterionResult) -> String {
     // Rounded so that it never reads as meeting a threshold it misses (or the reverse).
@@ -36,19 +44,19 @@ fn criterion_threshold(c: &CriterionResult) -> String {
 /// Why a run read by `check` or `report` has no verdict, source by source (an error
 /// message, not a verdict: a run with nothing to judge is never `converging`).
 pub fn no_verdict(run: &RunStore, why: &NothingToJudge) -> String {
-    let mut o = format!("{}: no verdict: {why}", run.name);
+    let mut o = format!("{}: no verdict: {}", run.name, no_verdict_reason(why));
     for src in &run.sources {
         let what = if src.parser == "-" || src.stats.lines == 0 {
             "the file is empty, so no parser recognised it".to_string()
         } else if src.records() == 0 {
             format!(
-                "parser `{}` found no record in its {} lines ({} skipped): is it the right parser?",
+                "parser {} found no record in its {} lines ({} skipped): is it the right parser?",
                 src.parser, src.stats.lines, src.stats.skipped
             )
         } else {
-            format!("{} records by parser `{}`", src.records(), src.parser)
+            format!("{} records by parser {}", src.records(), src.parser)
         };
-        let _ = write!(o, "\n  {}: {what}", clean(&src.label));
+        let _ = write!(o, "\n  {}: {}", clean(&src.label), plain(&what));
     }
     o
 }
@@ -70,7 +78,7 @@ pub fn text(run: &RunStore, j: &Judgement) -> String {
     );
     for &i in &j.causes {
         if let Some(f) = j.findings.get(i) {
-            let _ = writeln!(o, "  why: {}", clean(&f.detail));
+            let _ = writeln!(o, "  why: {}", plain(&f.detail));
         }
     }
     if !j.criteria.is_empty() {
@@ -82,15 +90,17 @@ pub fn text(run: &RunStore, j: &Judgement) -> String {
                 (true, Some(it)) => format!("since it {it}"),
                 _ => String::new(),
             };
-            let _ = writeln!(
-                o,
-                "  {mark:<9} {:<w$}  {:<5} {:>12}  {:<14} {held}{}",
+            let basis =
+                evidence::criterion_basis(j, c).map(|b| format!(" [{b}]")).unwrap_or_default();
+            let line = format!(
+                "  {mark:<9} {:<w$}  {:<5} {:>12}  {:<14} {held}{}{basis}",
                 c.series,
                 c.name,
                 criterion_value(c),
                 criterion_threshold(c),
                 if c.default { " (default)" } else { "" }
             );
+            let _ = writeln!(o, "{}", line.trim_end());
         }
     }
     let shown: Vec<_> = j
@@ -109,27 +119,31 @@ pub fn text(run: &RunStore, j: &Judgement) -> String {
                 f.kind.as_str(),
                 f.first,
                 f.last,
-                clean(&f.detail)
+                plain(&f.detail)
             );
         }
     }
     let etas: Vec<String> = j
         .residuals
         .iter()
-        .filter_map(|r| r.eta_iterations.map(|e| format!("{} ~{:.0} it", r.series, e)))
+        .filter_map(|r| evidence::eta_words(r, "–").map(|e| format!("{} {e}", r.series)))
         .collect();
     if j.verdict == Verdict::Converging && !etas.is_empty() {
         let _ = writeln!(o, "\nestimated iterations to target: {}", etas.join(", "));
+    }
+    let round_off = evidence::round_off_monitors(j);
+    if !round_off.is_empty() {
+        let _ = writeln!(o, "\n{} {}", round_off.join(", "), evidence::ROUND_OFF_WORDS);
     }
     let mut notes: Vec<String> = j
         .findings
         .iter()
         .filter(|f| f.supports.is_none())
-        .map(|f| format!("  {}: {}", f.kind.as_str(), clean(&f.detail)))
+        .map(|f| format!("  {}: {}", f.kind.as_str(), plain(&f.detail)))
         .collect();
     // What reading the files said (a partial last line left out, junk skipped).
     for src in &run.sources {
-        notes.extend(src.notes.iter().map(|n| format!("  {}: {}", src.label, clean(n))));
+        notes.extend(src.notes.iter().map(|n| format!("  {}: {}", clean(&src.label), plain(n))));
     }
     if !notes.is_empty() {
         let _ = writeln!(o, "\nnotes");

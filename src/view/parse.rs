@@ -146,7 +146,7 @@ pub fn source_text(src: &SourceStore) -> String {
         }
     }
     for n in src.notes.iter().rev().take(5) {
-        let _ = writeln!(o, "  note: {}", clean(n));
+        let _ = writeln!(o, "  note: {}", clean(&crate::view::words::without_backticks(n)));
     }
     o
 }

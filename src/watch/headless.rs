@@ -5,7 +5,7 @@
 //! first judgement, when its verdict or a criterion changes, and a heartbeat); a run that
 //! cannot be judged gets *state* lines with their reason (waiting for its file, unreadable,
 //! no parser, a large first read in progress, stale without records; see
-//! [`crate::run::headless::RunState`]), on change and as a heartbeat. A verdict is never
+//! [`crate::view::headless::RunState`]), on change and as a heartbeat. A verdict is never
 //! printed for a run without records. Runs are judged only when they have new data, at most
 //! once per refresh interval, stretched so that judging all *growing* runs (new data, or
 //! new data within the last minute) costs about 5 % of a core (each run's cost is the
@@ -26,12 +26,13 @@ use std::time::{Duration, Instant, SystemTime};
 
 use super::{ActionHooks, ExitWhen, data_final};
 use crate::judge::{self, Finding, FindingKind, Judgement, Verdict};
-use crate::run::headless::{self, HeadlessEvent, HeadlessState, RunState, StateReport};
 use crate::run::ingest;
 use crate::tui::{self, LiveRun, Msg};
+use crate::view::headless::{self, HeadlessEvent, HeadlessState, RunState, StateReport};
 
 /// Exit code when a run never yielded a record (its file missing or unreadable, or no
-/// parser definition claims it) until it went stale, or its source was given up.
+/// parser definition claims it) until it went stale, or its source was given up, or its
+/// records held nothing to judge.
 pub const NO_DATA_EXIT: i32 = 16;
 /// Longest wait for running actions after a signal (the whole wind-down must fit in the
 /// exit deadline).
@@ -239,13 +240,9 @@ fn step(
         let t = &mut track[i];
         let grown = age(run, wall);
         if let Some(st) = state_of(run, grown, started, opts.stale_limit) {
-            if let Some(event) = t.state_print.due(&st, now, opts.heartbeat) {
-                emit(out, &state_text(opts, &run.store.name, &st, grown, wall, event))?;
-            }
-            t.done = st.state.is_final();
+            print_state(out, opts, run, t, &st, grown, (now, wall))?;
             continue;
         }
-        t.state_print.clear();
         let due = t.last_judged.is_none_or(|j| now.duration_since(j) >= gap);
         let mut judged = false;
         if t.dirty && due {
@@ -256,6 +253,14 @@ fn step(
         }
         let was_stale = run.stale;
         run.stale = !run.store.ended() && grown.is_some_and(|a| a > opts.stale_limit);
+        // Records, but nothing the criteria judge: a state line with the judge's reason,
+        // never the empty judgement's verdict.
+        if let Some(why) = run.nothing_to_judge() {
+            let st = headless::nothing_state(why);
+            print_state(out, opts, run, t, &st, grown, (now, wall))?;
+            continue;
+        }
+        t.state_print.clear();
         // Actions see judgements (and stale changes), not every batch: a batch between
         // two judgements carries records no judgement has seen.
         if judged || run.stale != was_stale {
@@ -282,6 +287,29 @@ fn step(
     for (i, f) in hooks.poll() {
         print_finding(out, opts, &runs[i].store.name, &f, wall)?;
     }
+    Ok(())
+}
+
+/// Print a run's state line when due (new state or reason, heartbeat), and whether the run
+/// is done: a final state, or (nothing to judge) data that cannot grow any more.
+fn print_state(
+    out: &mut dyn Write,
+    opts: &HeadlessOptions,
+    run: &LiveRun,
+    t: &mut Track,
+    st: &StateReport,
+    grown: Option<Duration>,
+    (now, wall): (Instant, SystemTime),
+) -> io::Result<()> {
+    if let Some(event) = t.state_print.due(st, now, opts.heartbeat) {
+        emit(out, &state_text(opts, &run.store.name, st, grown, wall, event))?;
+    }
+    // The verdict lines start afresh once the run has a verdict again.
+    t.verdict_print = HeadlessState::new(opts.heartbeat);
+    t.done = st.state.is_final()
+        || (st.state == RunState::NothingToJudge
+            && opts.exit_when != ExitWhen::Never
+            && data_final(run));
     Ok(())
 }
 
@@ -319,6 +347,12 @@ fn finish(
         if (t.dirty || run.judged_records.is_none()) && affordable {
             budget = budget.saturating_sub(t.cost());
             run.set_judgement(judge::judge(&run.store.judge_input(), &run.criteria));
+        }
+        if let Some(why) = run.nothing_to_judge() {
+            let st = headless::nothing_state(why);
+            emit(out, &state_text(opts, &run.store.name, &st, grown, wall, HeadlessEvent::End))?;
+            codes.push(Some(NO_DATA_EXIT));
+            continue;
         }
         let j = shown(run);
         let line = if opts.json {

@@ -3,14 +3,14 @@
 //! Numbers follow [`crate::view::number`]: a value with a confidence interval to the
 //! precision the interval supports, three significant digits otherwise, thresholds as set.
 
-use crate::judge::{Judgement, Verdict};
+use crate::judge::{Judgement, Reference, ResidualSummary, Verdict};
 use crate::record::Severity;
 use crate::report::ReportInput;
 use crate::report::text::{
     NBSP, criterion_words, iteration, kind_words, num, p_value, plus_minus, range, threshold_text,
     with_unit,
 };
-use crate::view::{number, words};
+use crate::view::{evidence, number, words};
 
 use super::{Cell, Class, MonitorView, SeriesView, Table, amplitude_unit, count_text, n, t};
 
@@ -50,13 +50,17 @@ pub fn criteria_table(j: &Judgement) -> Table {
 /// The iterations-to-target estimate as a reader should take it: none for a met target, "not
 /// in reach" when the verdict says the residuals are not heading there (as the live panels
 /// say), else the estimate to three significant digits.
-fn eta_text(j: &Judgement, series: &str, eta: Option<f64>) -> String {
+fn eta_text(j: &Judgement, r: &ResidualSummary) -> String {
+    let (series, eta) = (r.series.as_str(), r.eta_iterations);
     let unmet = j.criteria.iter().any(|c| c.series == series && !c.met && c.unit == "dec");
     let unmet =
         unmet || j.criteria.iter().any(|c| c.series == series && !c.met && c.name == "below");
     match (eta, j.verdict) {
         (_, Verdict::Diverging | Verdict::Stalled) if unmet => "not in reach".into(),
-        (Some(e), _) if e.is_finite() && unmet => format!("≈ {}", number::value(e.round())),
+        (Some(e), _) if e.is_finite() && unmet => match evidence::eta_range(r, " … ") {
+            Some(range) => format!("≈ {} ({range})", evidence::eta_number(e)),
+            None => format!("≈ {}", evidence::eta_number(e)),
+        },
         _ => "—".into(),
     }
 }
@@ -83,7 +87,7 @@ pub fn residual_table(j: &Judgement) -> Table {
             n(num(r.peak)),
             n(with_unit(r.drop_dec, "dec")),
             n(format!("{slope} ({lo} … {hi})")),
-            n(eta_text(j, &r.series, r.eta_iterations)),
+            n(eta_text(j, r)),
         ]);
     }
     tab
@@ -109,23 +113,43 @@ pub fn monitor_table(ms: &[MonitorView<'_>]) -> Table {
     for m in ms {
         let last = m.view.input.values.last().copied().unwrap_or(f64::NAN);
         let row = match m.summary {
+            // Shown, not judged: its final value and why there is nothing else.
+            Some(s) if s.round_off => {
+                let mut row = vec![t(&s.series), n(num(last))];
+                row.extend([n("—"), n("—"), n(evidence::ROUND_OFF_WORDS), n("—"), n("—"), n("—")]);
+                row
+            }
             Some(s) => {
                 let rel = if s.mean != 0.0 { 100.0 * s.ci_half / s.mean.abs() } else { f64::NAN };
+                let rel = match s.reference {
+                    Reference::Mean => rel,
+                    _ if s.reference_value != 0.0 => 100.0 * s.ci_half / s.reference_value.abs(),
+                    _ => f64::NAN,
+                };
+                let used = iteration(i64::try_from(s.window).unwrap_or(i64::MAX));
                 let window = match s.transient_end {
                     Some(e) => format!(
-                        "it{NBSP}{} (start-up to it{NBSP}{})",
+                        "it{NBSP}{}, {used}{NBSP}it (start-up to it{NBSP}{})",
                         range(s.window_first, s.window_last),
                         iteration(e)
                     ),
-                    None => format!("it{NBSP}{}", range(s.window_first, s.window_last)),
+                    None => {
+                        format!("it{NBSP}{}, {used}{NBSP}it", range(s.window_first, s.window_last))
+                    }
                 };
+                // Relative numbers say what they are relative to when it is not the mean.
+                let of = evidence::reference_words(s).map(|r| format!(" {r}")).unwrap_or_default();
+                let (drift, band) = (
+                    format!("{}{of}", with_unit(s.drift_pct, "%")),
+                    format!("{}{of}", with_unit(s.band_pct, "%")),
+                );
                 vec![
                     t(&s.series),
                     n(num(s.last)),
                     n(format!("{} ({})", plus_minus(s.mean, s.ci_half), with_unit(rel, "%"))),
                     n(window),
-                    n(with_unit(s.drift_pct, "%")),
-                    n(with_unit(s.band_pct, "%")),
+                    n(drift),
+                    n(band),
                     n(s.iterative_error.map_or("—".into(), num)),
                     n(s.extrapolated.map_or("—".into(), |x| match s.iterative_error {
                         Some(e) => number::with_uncertainty(x, e).value,

@@ -25,8 +25,17 @@ pub struct MonitorMarks {
     pub window: Option<(i64, i64)>,
     pub mean: Option<f64>,
     pub ci_half: Option<f64>,
-    /// Full width of the tolerance band (the `band` criterion), percent of |mean|.
+    /// Full width of the tolerance band (the `band` criterion), percent of the reference:
+    /// |mean|, or `reference` when the judge measured against another; absolute (in the
+    /// monitor's unit) when `band_abs`.
     pub band_pct: Option<f64>,
+    /// The reference of relative limits when it is not |mean| (a near-zero monitor, a
+    /// `scale` from `settle.toml`).
+    pub reference: Option<f64>,
+    pub band_abs: bool,
+    /// What the empty window panel says when there is no window (default: the judge
+    /// reported none).
+    pub no_window: Option<&'static str>,
     pub transient_end: Option<i64>,
     pub extrapolated: Option<f64>,
 }
@@ -58,7 +67,11 @@ fn drawn(marks: &MonitorMarks) -> Drawn {
     };
     let band = match (mean, marks.band_pct.filter(|b| b.is_finite() && *b > 0.0)) {
         (Some(m), Some(b)) => {
-            let h = m.abs() * b / 200.0;
+            let h = if marks.band_abs {
+                b / 2.0
+            } else {
+                marks.reference.unwrap_or(m).abs() * b / 200.0
+            };
             Some((m - h, m + h))
         }
         _ => None,
@@ -185,7 +198,7 @@ pub fn monitor_plot(line: &Line<'_>, marks: &MonitorMarks, standalone: bool) -> 
                 Frame { left, top: TOP, width: w_zoom, height: PLOT_H, x0, x1, y0: 0.0, y1: 1.0 };
             panel_title(&mut out, &f, "final window");
             border(&mut out, &f);
-            empty_note(&mut out, &f, "the judge reported no window");
+            empty_note(&mut out, &f, marks.no_window.unwrap_or("the judge reported no window"));
         }
     }
     legend.draw(&mut out, TOP + PLOT_H + AXIS_SPACE + 6.0);
@@ -353,7 +366,11 @@ fn legend(line: &Line<'_>, marks: &MonitorMarks, d: &Drawn, on_scale: bool) -> L
     if let (Some(_), Some(b)) = (d.band, marks.band_pct) {
         legend.items.push((
             Key::Line { colour: BAND_EDGE, dash: BAND_DASH, width: 1.3 },
-            format!("tolerance band ± {} % (band criterion)", number::exact(b / 2.0)),
+            if marks.band_abs {
+                format!("tolerance band ± {} (band criterion)", number::exact(b / 2.0))
+            } else {
+                format!("tolerance band ± {} % (band criterion)", number::exact(b / 2.0))
+            },
         ));
     }
     if d.ci.is_some() {

@@ -241,12 +241,28 @@ pub fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
     {
         title.push_str(&format!(" [{}/{n}]", k + 1));
     }
-    title.push_str(&format!("{}last {}", g.sep, number::sig(ch.last, 5)));
-    if let Some(dp) = ch.drift_pct {
-        title.push_str(&format!("{}drift {} %", g.sep, number::value(dp)));
+    // (priority, text): what the judge used comes first, the last value goes first when
+    // the panel is too narrow for all; a part is dropped whole, never cut inside a number.
+    let round_off = ch.evidence.iter().any(|e| e == crate::view::evidence::ROUND_OFF_WORDS);
+    let mut parts: Vec<(u8, String)> = vec![(3, format!("last {}", number::sig(ch.last, 5)))];
+    if let Some(dp) = ch.drift_pct.filter(|_| !round_off) {
+        parts.push((2, format!("drift {} %", number::value(dp))));
     }
+    parts.extend(ch.evidence.iter().map(|e| (1, e.clone())));
     if ch.log {
-        title.push_str(&format!("{}log10", g.sep));
+        parts.push((0, "log10".into()));
+    }
+    let room = (r.width as usize).saturating_sub(4);
+    let total = |ps: &[(u8, String)]| {
+        width(&title) + ps.iter().map(|(_, t)| width(g.sep) + width(t)).sum::<usize>() + 1
+    };
+    while total(&parts) > room {
+        let Some(worst) = parts.iter().map(|(p, _)| *p).max() else { break };
+        let k = parts.iter().rposition(|(p, _)| *p == worst).unwrap_or(0);
+        parts.remove(k);
+    }
+    for (_, text) in &parts {
+        title.push_str(&format!("{}{text}", g.sep));
     }
     title.push(' ');
     let block = panel(theme, title);
@@ -277,8 +293,15 @@ pub fn monitor_panel(app: &App, frame: &mut Frame, r: Rect) {
         let area = Rect::new(strip.x + 1, strip.y, strip.width - 1, strip.height);
         let range = range_text(z.iterations, g.ascii);
         let word = if z.judged { "window" } else { "last" };
-        let full = format!("{word} {range}");
-        let label = if width(&full) < strip.width as usize { full } else { range };
+        let full = match ch.window_iterations.filter(|_| z.judged) {
+            Some(n) => format!("{word} {range} ({n} it)"),
+            None => format!("{word} {range}"),
+        };
+        let short = format!("{word} {range}");
+        let label = [full, short, range]
+            .into_iter()
+            .find(|l| width(l) < strip.width as usize)
+            .unwrap_or_default();
         let zoom = Plot { points: &z.points, non_finite: &[], x: z.x, y: z.y, clip: None };
         plot_with_labels(theme, &zoom, ch, &mg, frame, area);
         let label_r = Rect::new(strip.x + 1, inner.bottom() - 1, strip.width - 1, 1);
@@ -401,8 +424,17 @@ fn monitor_legend<'a>(
         entries.push((format!("{} mean", mg.mean), theme.band()));
     }
     if let Some(p) = ch.band_pct.filter(|_| ch.marks.band.is_some()) {
-        entries
-            .push((format!("{} band {}{} %", mg.band, g.pm, number::exact(p / 2.0)), theme.band()));
+        // Relative to the mean unless the judge measured against another reference (then
+        // named when there is room; the chart's title says it in full).
+        let unit = match (ch.band_abs, ch.reference) {
+            (true, _) => String::new(),
+            (false, Some(r)) if cells >= 70 => format!(" % of {}", number::value(r)),
+            (false, _) => " %".into(),
+        };
+        entries.push((
+            format!("{} band {}{}{unit}", mg.band, g.pm, number::exact(p / 2.0)),
+            theme.band(),
+        ));
     }
     if let (Some(c), Some(_)) = (ch.ci_half, ch.marks.ci) {
         entries.push((format!("{} 95 % CI {}{}", mg.ci, g.pm, number::value(c)), theme.band()));

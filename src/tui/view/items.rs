@@ -9,6 +9,7 @@ use super::{Item, Level, ViewInputs, finding_text};
 use crate::tui::LiveRun;
 use crate::tui::format;
 use crate::tui::sanitize::sanitized;
+use crate::view::words::without_backticks;
 
 /// How many findings and events the list keeps.
 pub const MAX_ITEMS: usize = 300;
@@ -41,7 +42,7 @@ pub fn items(live: &LiveRun, inp: &ViewInputs<'_>) -> Vec<Item> {
             pinned.push(Item {
                 iteration: None,
                 tag: "note".into(),
-                text: sanitized(&format!("{}: {n}", src.label), ascii),
+                text: sanitized(&format!("{}: {}", src.label, without_backticks(n)), ascii),
                 level: Level::Warning,
             });
         }

@@ -5,10 +5,11 @@
 //! drawn only where they apply: a band only for a series that has a band criterion, mean and
 //! interval only for monitors. A series that is never negative gets no negative axis.
 
-use crate::judge::{Criteria, MonitorSummary};
+use crate::judge::{Criteria, MonitorSummary, Reference};
 use crate::record::Role;
 use crate::run::downsample::min_max;
 use crate::run::store::Series;
+use crate::view::evidence;
 
 use super::{Ctx, XMap, value_range};
 use crate::tui::LiveRun;
@@ -65,14 +66,26 @@ pub struct MonitorChart {
     /// Start-up values outside `y` were drawn at its edge, up to this x and iteration.
     pub clipped_until: Option<(f64, i64)>,
     pub marks: Marks,
-    /// Full width of the tolerance band, percent of the mean, when a band applies.
+    /// Full width of the tolerance band, percent of the reference (the mean, or the
+    /// reference of a near-zero monitor), when a band applies; absolute when `band_abs`.
     pub band_pct: Option<f64>,
+    /// The band criterion is absolute (`band_abs`, in the monitor's unit).
+    pub band_abs: bool,
+    /// The reference relative limits are measured against when it is not the mean (a
+    /// near-zero monitor, a `scale` from `settle.toml`), absolute.
+    pub reference: Option<f64>,
+    /// Iterations in the judged window (the judge's count).
+    pub window_iterations: Option<usize>,
     /// Half-width of the confidence interval of the mean, absolute.
     pub ci_half: Option<f64>,
     pub last: f64,
     pub drift_pct: Option<f64>,
     pub note: Option<String>,
     pub zoom: Option<Zoom>,
+    /// What the judge says of this monitor beyond its numbers, worded by
+    /// [`crate::view::evidence`]: not judged (round-off only), the window used, the
+    /// reference of a near-zero monitor. Shown in the panel's title.
+    pub evidence: Vec<String>,
 }
 
 pub(super) fn monitor_chart(
@@ -110,8 +123,22 @@ pub(super) fn monitor_chart(
     let is_monitor = r.role == Role::Monitor;
     let mean = if is_monitor { window_mean(summary, &s.values()[win_start..end]) } else { None };
     let band_pct = if is_monitor { band_threshold(live, &r.name) } else { None };
+    let band_abs = live
+        .judgement
+        .criteria
+        .iter()
+        .any(|c| c.series == r.name && c.name == "band" && c.unit.is_empty());
+    // Relative limits are relative to the judge's reference: the mean, or for a monitor
+    // whose mean is near zero the reference it was measured against.
+    let reference = summary
+        .filter(|m| m.reference != Reference::Mean && m.reference_value.is_finite())
+        .map(|m| m.reference_value.abs())
+        .or(mean.map(f64::abs));
+    let band_half = band_pct
+        .and_then(|p| if band_abs { Some(p / 2.0) } else { reference.map(|r| r * p / 200.0) });
     let ci_half = summary.map(|m| m.ci_half).filter(|c| c.is_finite() && *c > 0.0);
-    let marks = scaled_marks(mean, band_pct, ci_half, log);
+    let marks = scaled_marks(mean, band_half, ci_half, log);
+    let evidence = summary.map(monitor_evidence).unwrap_or_default();
 
     // The whole history; its y-range from the part after the start-up transient.
     let settle_from = summary.and_then(|m| m.transient_end);
@@ -177,12 +204,32 @@ pub(super) fn monitor_chart(
         clipped_until,
         marks,
         band_pct,
+        band_abs,
+        reference: summary
+            .filter(|m| m.reference != Reference::Mean && m.reference_value.is_finite())
+            .map(|m| m.reference_value.abs()),
+        window_iterations: summary.map(|m| m.window).filter(|&w| w > 0),
         ci_half,
         last: if b > 0 { s.values()[b - 1] } else { f64::NAN },
         drift_pct: summary.map(|m| m.drift_pct),
         note,
         zoom,
+        evidence,
     }
+}
+
+/// The judge's evidence on one monitor, in the shared wording: round-off only (not judged),
+/// else the window its criteria were computed over and a reference other than the mean.
+fn monitor_evidence(m: &MonitorSummary) -> Vec<String> {
+    if m.round_off {
+        return vec![evidence::ROUND_OFF_WORDS.to_string()];
+    }
+    let mut out = Vec::new();
+    if m.window > 0 {
+        out.push(evidence::window_words(m.window));
+    }
+    out.extend(evidence::reference_words(m));
+    out
 }
 
 /// The window strip: values `range` of `s`, scaled to themselves and the marks.
@@ -238,17 +285,13 @@ fn window_mean(summary: Option<&MonitorSummary>, tail: &[f64]) -> Option<f64> {
     })
 }
 
-/// Mean, band and interval in chart units (log10 when `log`; marks at or below zero are left
-/// out on a log chart).
-fn scaled_marks(mean: Option<f64>, band_pct: Option<f64>, ci: Option<f64>, log: bool) -> Marks {
+/// Mean, band (`band_half`: half its width, absolute) and interval in chart units (log10
+/// when `log`; marks at or below zero are left out on a log chart).
+fn scaled_marks(mean: Option<f64>, band_half: Option<f64>, ci: Option<f64>, log: bool) -> Marks {
     let ty = |v: f64| if log { (v > 0.0).then(|| v.log10()) } else { Some(v) };
     let pair = |m: f64, h: f64| Some((ty(m - h)?, ty(m + h)?));
     let Some(m) = mean else { return Marks::default() };
-    Marks {
-        mean: ty(m),
-        band: band_pct.and_then(|p| pair(m, m.abs() * p / 200.0)),
-        ci: ci.and_then(|c| pair(m, c)),
-    }
+    Marks { mean: ty(m), band: band_half.and_then(|h| pair(m, h)), ci: ci.and_then(|c| pair(m, c)) }
 }
 
 /// Bounds around `[lo, hi]` with 5 % room, never below zero for a series that never is (a
@@ -279,7 +322,7 @@ fn band_threshold(live: &LiveRun, name: &str) -> Option<f64> {
     }
     let per_series =
         live.criteria.series.iter().find(|(k, _)| crate::glob::matches(k, name)).map(|(_, v)| v);
-    if per_series.is_some_and(|v| v.ignore) {
+    if per_series.is_some_and(|v| v.ignore || v.role.is_some_and(|r| r != Role::Monitor)) {
         return None;
     }
     Some(
@@ -322,6 +365,7 @@ mod tests {
             series: "m".into(),
             comparison: Comparison::AtMost,
             threshold: 0.5,
+            unit: "%".into(),
             ..Default::default()
         });
         live

@@ -11,7 +11,7 @@
 //! Text line, fields separated by ` | ` (absent facts are left out):
 //!
 //! ```text
-//! 2026-12-01T10:04:11Z duct-bend-07 converging | it 1450 | grew 4 s ago | 2/4 criteria met | open: p drop 2.1 dec (need >= 3), Cd drift 0.35 % (need <= 0.1) | eta ~900 it
+//! 2026-12-01T10:04:11Z duct-bend-07 converging | it 1450 | grew 4 s ago | 2/4 criteria met | open: p drop 2.1 dec (need >= 3), Cd drift 0.35 % (need <= 0.1; window 312 it) | eta ~900 it (600-1400)
 //! 2026-12-01T10:09:40Z duct-bend-07 stalled since it 3140 | it 4870 | grew 9 s ago | 3/4 criteria met | open: p drop 2.1 dec (need >= 3) | why: <detail of the deciding finding>
 //! 2026-12-01T10:09:41Z duct-bend-07 action | ran scancel 123456: exit 0 after 0.1 s
 //! ```
@@ -30,19 +30,27 @@
 //! | `criteria` | list of `{name, series, value, threshold, comparison, unit, met}`; `value` is `null` when not computable yet, `comparison` is `at_least` or `at_most` |
 //! | `causes` | list of `{kind, series, detail}` of the findings that decided the verdict |
 //! | `eta_iterations` | estimated iterations until the slowest residual reaches its target (converging only), or `null` |
+//! | `criteria[].window` | monitor criteria: the window (iterations) the value was computed over, else `null` |
 //! | `status`, `detail` | `action` lines only: the audit statistic (`exit_code`, `dry_run`, `timeout_s`, `refused`, ...) and its sentence |
 //! | `read_iteration` | last iteration read from the log (ahead of `iteration` while the judge is throttled), or `null` |
-//! | `state`, `detail`, `percent_read` | state lines only (no `verdict`): `waiting`, `reading`, `unreadable`, `no-parser` or `stale`, the reason, and the share of a large read done (see [`RunState`]) |
+//! | `eta_range` | `[fewest, most]` iterations of that estimate (from the 95 % interval of the rate), or `null` |
+//! | `not_judged` | monitors shown but not judged because they carry only round-off (list of names) |
+//! | `state`, `detail`, `percent_read` | state lines only (no `verdict`): `waiting`, `reading`, `unreadable`, `no-parser`, `nothing-to-judge` or `stale`, the reason, and the share of a large read done (see [`RunState`]) |
 
 mod state;
 
-pub use state::{RunState, STOPPED_NOTE, StateReport, json_state_line, run_state, state_line};
+pub use state::{
+    RunState, STOPPED_NOTE, StateReport, json_state_line, nothing_state, run_state, state_line,
+};
 
 use std::time::{Duration, Instant, SystemTime, UNIX_EPOCH};
 
 use serde::Serialize;
 
-use crate::judge::{Comparison, CriterionResult, Finding, FindingKind, Judgement, Verdict};
+use crate::judge::{
+    Comparison, CriterionResult, Finding, FindingKind, Judgement, ResidualSummary, Verdict,
+};
+use crate::view::{evidence, words};
 
 /// Why a JSON line was written.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -97,14 +105,16 @@ impl PrintReason {
 }
 
 /// When to print for one run: on the first judgement, when the verdict changes, when any
-/// criterion's met flag changes (or a criterion appears or goes away), and otherwise a
-/// heartbeat every `heartbeat`. Keep one per run.
+/// criterion's met flag changes (or a criterion appears or goes away) or the monitors not
+/// judged change, and otherwise a heartbeat every `heartbeat`. Keep one per run.
 #[derive(Debug, Clone, PartialEq)]
 pub struct HeadlessState {
     heartbeat: Duration,
     last_print: Option<Instant>,
     verdict: Option<Verdict>,
     met: Vec<(String, String, bool)>,
+    /// Monitors not judged (round-off only) at the last call.
+    not_judged: Vec<String>,
 }
 
 impl Default for HeadlessState {
@@ -119,7 +129,13 @@ impl HeadlessState {
     pub const DEFAULT_HEARTBEAT: Duration = Duration::from_secs(60);
 
     pub fn new(heartbeat: Duration) -> HeadlessState {
-        HeadlessState { heartbeat, last_print: None, verdict: None, met: Vec::new() }
+        HeadlessState {
+            heartbeat,
+            last_print: None,
+            verdict: None,
+            met: Vec::new(),
+            not_judged: Vec::new(),
+        }
     }
 
     /// Whether to print a status line for `j` now, and why. Calling it records the print.
@@ -127,10 +143,12 @@ impl HeadlessState {
         let mut met: Vec<(String, String, bool)> =
             j.criteria.iter().map(|c| (c.name.clone(), c.series.clone(), c.met)).collect();
         met.sort();
+        let not_judged: Vec<String> =
+            evidence::round_off_monitors(j).into_iter().map(str::to_string).collect();
         let reason = match (self.verdict, self.last_print) {
             (None, _) | (_, None) => Some(PrintReason::First),
             (Some(v), _) if v != j.verdict => Some(PrintReason::Verdict),
-            _ if met != self.met => Some(PrintReason::Criteria),
+            _ if met != self.met || not_judged != self.not_judged => Some(PrintReason::Criteria),
             (_, Some(t)) if now.saturating_duration_since(t) >= self.heartbeat => {
                 Some(PrintReason::Heartbeat)
             }
@@ -138,6 +156,7 @@ impl HeadlessState {
         };
         self.verdict = Some(j.verdict);
         self.met = met;
+        self.not_judged = not_judged;
         if reason.is_some() {
             self.last_print = Some(now);
         }
@@ -191,19 +210,24 @@ pub fn status_line_read(
         } else {
             parts.push(format!("{met}/{total} criteria met"));
             let open: Vec<&CriterionResult> = j.criteria.iter().filter(|c| !c.met).collect();
-            let mut shown: Vec<String> = open.iter().take(3).map(|c| criterion_text(c)).collect();
+            let mut shown: Vec<String> =
+                open.iter().take(3).map(|c| criterion_text(j, c)).collect();
             if open.len() > 3 {
                 shown.push(format!("+{} more", open.len() - 3));
             }
             parts.push(format!("open: {}", shown.join(", ")));
         }
     }
-    if let Some(eta) = eta(j) {
-        parts.push(format!("eta ~{} it", round_eta(eta)));
+    if let Some(eta) = eta_residual(j).and_then(|r| evidence::eta_words(r, "-")) {
+        parts.push(format!("eta {eta}"));
+    }
+    let round_off = evidence::round_off_monitors(j);
+    if !round_off.is_empty() {
+        parts.push(format!("{} {}", round_off.join(", "), evidence::ROUND_OFF_WORDS));
     }
     if !matches!(j.verdict, Verdict::Converging | Verdict::Converged) {
         if let Some(f) = j.causes.iter().find_map(|&i| j.findings.get(i)) {
-            parts.push(format!("why: {}", shorten(&f.detail, 200)));
+            parts.push(format!("why: {}", shorten(&words::without_backticks(&f.detail), 200)));
         }
     }
     clean(&parts.join(" | "))
@@ -223,6 +247,8 @@ struct JsonCriterion<'a> {
     comparison: Comparison,
     unit: &'a str,
     met: bool,
+    /// Monitor criteria: the window the value was computed over, in iterations.
+    window: Option<usize>,
 }
 
 #[derive(Serialize)]
@@ -245,6 +271,8 @@ struct JsonStatus<'a> {
     causes: Vec<JsonCause<'a>>,
     eta_iterations: Option<f64>,
     read_iteration: Option<i64>,
+    eta_range: Option<[f64; 2]>,
+    not_judged: Vec<&'a str>,
 }
 
 #[derive(Serialize)]
@@ -297,6 +325,7 @@ pub fn json_line_read(
                 comparison: c.comparison,
                 unit: &c.unit,
                 met: c.met,
+                window: c.window,
             })
             .collect(),
         causes: j
@@ -309,8 +338,10 @@ pub fn json_line_read(
                 detail: &f.detail,
             })
             .collect(),
-        eta_iterations: eta(j).map(f64::round),
+        eta_iterations: eta_residual(j).and_then(|r| r.eta_iterations).map(f64::round),
         read_iteration,
+        eta_range: eta_residual(j).and_then(|r| r.eta_range).map(|(a, b)| [a.round(), b.round()]),
+        not_judged: evidence::round_off_monitors(j),
     };
     to_json(&line)
 }
@@ -332,36 +363,26 @@ fn to_json<T: Serialize>(v: &T) -> String {
     serde_json::to_string(v).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"))
 }
 
-/// Iterations until the slowest residual reaches its target, while converging.
-fn eta(j: &Judgement) -> Option<f64> {
+/// The residual the run waits for (the slowest to reach its target), while converging.
+fn eta_residual(j: &Judgement) -> Option<&ResidualSummary> {
     if j.verdict != Verdict::Converging {
         return None;
     }
-    j.residuals
-        .iter()
-        .filter_map(|r| r.eta_iterations)
-        .filter(|e| e.is_finite() && *e >= 0.0)
-        .reduce(f64::max)
+    evidence::slowest_residual(j)
 }
 
-/// Round an estimate to what it is worth: exact below 100, two significant digits above.
-fn round_eta(e: f64) -> String {
-    if e < 100.0 {
-        return format!("{}", e.round());
-    }
-    let mag = 10f64.powi(e.log10().floor() as i32 - 1);
-    format!("{}", (e / mag).round() * mag)
-}
-
-/// `p drop 2.1 dec (need >= 3)`.
-fn criterion_text(c: &CriterionResult) -> String {
+/// `p drop 2.1 dec (need >= 3)`; a monitor criterion also says its window and, when it is
+/// not the mean, its reference: `Fy drift 2.1 % (need <= 0.1; window 312 it, relative to
+/// 0.0183 (mean near zero))`.
+fn criterion_text(j: &Judgement, c: &CriterionResult) -> String {
     let unit = if c.unit.is_empty() { String::new() } else { format!(" {}", c.unit) };
     let cmp = match c.comparison {
         Comparison::AtLeast => ">=",
         Comparison::AtMost => "<=",
     };
+    let basis = evidence::criterion_basis(j, c).map(|b| format!("; {b}")).unwrap_or_default();
     format!(
-        "{} {} {}{unit} (need {cmp} {})",
+        "{} {} {}{unit} (need {cmp} {}{basis})",
         c.series,
         c.name,
         fmt_num(c.value),

@@ -8,6 +8,7 @@
 //! | --- | --- |
 //! | `no-parser` | lines were read but no parser definition claims them (after 64 KiB the source stops: final) |
 //! | `unreadable` | the file (or its directory) exists but cannot be read; retried |
+//! | `nothing-to-judge` | records were read, but no value, or every series is `info` or ignored (the judge's reason, [`crate::view::evidence::no_verdict_reason`]) |
 //! | `stale` | none of the above got better, or no record came, for the stale limit; final |
 //! | `waiting` | the file does not exist yet, or it holds no record yet |
 //! | `reading` | a large existing log is being read (percent done); its verdict comes when it is read |
@@ -22,8 +23,10 @@ use serde::Serialize;
 
 use super::{HeadlessEvent, clean, fmt_age, rfc3339, to_json};
 use crate::follow::note;
+use crate::judge::NothingToJudge;
 use crate::run::ingest::SourceActivity;
 use crate::run::store::RunStore;
+use crate::view::evidence::no_verdict_reason;
 
 /// First words of the note the live ingest loop gives when it stops reading a source (a file
 /// no parser definition recognises within its first 64 KiB).
@@ -42,6 +45,8 @@ pub enum RunState {
     NoParser { stopped: bool },
     /// No record within the stale limit.
     Stale,
+    /// Records, but no value or only `info` and ignored series: the criteria judge nothing.
+    NothingToJudge,
 }
 
 impl RunState {
@@ -53,6 +58,7 @@ impl RunState {
             RunState::Unreadable => "unreadable",
             RunState::NoParser { .. } => "no-parser",
             RunState::Stale => "stale",
+            RunState::NothingToJudge => "nothing-to-judge",
         }
     }
 
@@ -66,9 +72,10 @@ impl RunState {
             RunState::NoParser { stopped: true } => 0,
             RunState::NoParser { stopped: false } => 1,
             RunState::Unreadable => 2,
-            RunState::Stale => 3,
-            RunState::Waiting => 4,
-            RunState::Reading { .. } => 5,
+            RunState::NothingToJudge => 3,
+            RunState::Stale => 4,
+            RunState::Waiting => 5,
+            RunState::Reading { .. } => 6,
         }
     }
 }
@@ -140,6 +147,12 @@ pub fn run_state(
     Some(report)
 }
 
+/// The state of a run with records that the judge found nothing to judge in (no value, or
+/// only `info` and ignored series), with the judge's reason worded by [`no_verdict_reason`].
+pub fn nothing_state(why: &NothingToJudge) -> StateReport {
+    StateReport { state: RunState::NothingToJudge, detail: no_verdict_reason(why) }
+}
+
 /// One source without records: what its latest state note, its lines and its parser say.
 fn source_state(src: &crate::run::store::SourceStore, act: &SourceActivity) -> (RunState, String) {
     let last_state_note = src.notes.iter().rev().find(|n| {
@@ -190,12 +203,13 @@ pub fn state_line(
     let mut parts = vec![format!("{} {} {}", rfc3339(now), run, s.state.as_str())];
     match s.state {
         RunState::Reading { percent } => parts.push(format!("{percent} % read")),
+        RunState::NothingToJudge => parts.push("no verdict".into()),
         _ => parts.push("no records".into()),
     }
     if let Some(age) = last_growth_age {
         parts.push(format!("grew {} ago", fmt_age(age)));
     }
-    parts.push(format!("why: {}", s.detail));
+    parts.push(format!("why: {}", crate::view::words::without_backticks(&s.detail)));
     clean(&parts.join(" | "))
 }
 

@@ -25,9 +25,9 @@ fn numbers() {
     assert_eq!(fmt_num(-2.5e7), "-2.50e7");
     assert_eq!(fmt_num(f64::NAN), "n/a");
     assert_eq!(fmt_num(0.0), "0");
-    assert_eq!(round_eta(42.4), "42");
-    assert_eq!(round_eta(912.0), "910");
-    assert_eq!(round_eta(12_345.0), "12000");
+    assert_eq!(crate::view::evidence::eta_number(42.4), "42");
+    assert_eq!(crate::view::evidence::eta_number(912.0), "910");
+    assert_eq!(crate::view::evidence::eta_number(12_345.0), "12000");
 }
 
 #[test]
@@ -183,6 +183,8 @@ fn json_line_parses_back_with_stable_keys() {
         "causes",
         "eta_iterations",
         "read_iteration",
+        "eta_range",
+        "not_judged",
     ];
     let mut sorted = keys.clone();
     sorted.sort();
@@ -273,5 +275,87 @@ fn change_detection_sequence() {
     assert_eq!(s.should_print(&j, t(100)), None);
     j.criteria.pop(); // a criterion going away is a change
     assert_eq!(s.should_print(&j, t(101)), Some(PrintReason::Criteria));
-    assert_eq!(s.should_print(&j, t(161)), Some(PrintReason::Heartbeat));
+    // A monitor found to carry only round-off (not judged any more) is a change.
+    j.monitors.push(crate::judge::MonitorSummary {
+        series: "Fz".into(),
+        round_off: true,
+        ..Default::default()
+    });
+    assert_eq!(s.should_print(&j, t(102)), Some(PrintReason::Criteria));
+    assert_eq!(s.should_print(&j, t(103)), None);
+    assert_eq!(s.should_print(&j, t(162)), Some(PrintReason::Heartbeat));
+}
+
+/// The judge's new evidence in the lines: the window and the near-zero reference of an
+/// open monitor criterion, a round-off monitor named as not judged, the ETA with its range,
+/// and a why without the judge's backticks (demo numbers of the invented tarn case).
+#[test]
+fn evidence_in_the_lines() {
+    use crate::judge::{MonitorSummary, Reference};
+    let mut j = stalled();
+    j.criteria[3] = CriterionResult {
+        name: "band".into(),
+        series: "Fy".into(),
+        comparison: Comparison::AtMost,
+        threshold: 0.5,
+        value: 2.4,
+        unit: "%".into(),
+        window: Some(312),
+        ..Default::default()
+    };
+    j.monitors = vec![
+        MonitorSummary {
+            series: "Fy".into(),
+            window: 312,
+            reference: Reference::NearZero,
+            reference_value: 0.018_34,
+            ..Default::default()
+        },
+        MonitorSummary { series: "Fz".into(), round_off: true, ..Default::default() },
+    ];
+    j.residuals[0].eta_range = Some((604.0, 1_437.0));
+    j.findings[1].detail = "the log ends in an error (`stack_trace`: tarn::sst)".into();
+    let line = status_line("duct-bend-07", &j, None, at());
+    assert!(
+        line.contains(
+            "Fy band 2.4 % (need <= 0.5; window 312 it, relative to 0.0183 (mean near zero))"
+        ),
+        "{line}"
+    );
+    assert!(line.contains(" | Fz not judged (round-off only) | "), "{line}");
+    assert!(line.ends_with("| why: the log ends in an error (stack_trace: tarn::sst)"), "{line}");
+    assert!(!line.contains('`'), "{line}");
+    let mut c = j.clone();
+    c.verdict = Verdict::Converging;
+    let line = status_line("duct-bend-07", &c, None, at());
+    assert!(line.contains(" | eta ~910 it (600-1400) | "), "{line}");
+    let v: serde_json::Value =
+        serde_json::from_str(&json_line("r", &c, None, at(), HeadlessEvent::Change)).expect("JSON");
+    assert_eq!(v["eta_range"], serde_json::json!([604.0, 1437.0]));
+    assert_eq!(v["not_judged"], serde_json::json!(["Fz"]));
+    assert_eq!(v["criteria"][3]["window"], 312);
+    assert_eq!(v["criteria"][0]["window"], serde_json::Value::Null);
+}
+
+/// A run with records but nothing to judge gets a state line with the judge's reason in
+/// the shared wording (no backticks), never a verdict.
+#[test]
+fn nothing_to_judge_is_a_state_not_a_verdict() {
+    use crate::judge::NothingToJudge;
+    let st = nothing_state(&NothingToJudge::NothingJudged { series: 3 });
+    assert_eq!(st.state, RunState::NothingToJudge);
+    assert!(!st.state.is_final());
+    let line = state_line("duct-bend-07", &st, None, at());
+    assert_eq!(
+        line,
+        "2026-12-01T10:04:11Z duct-bend-07 nothing-to-judge | no verdict | why: nothing to \
+         judge: the 3 series read are all info or ignored (set a role or remove ignore)"
+    );
+    let v: serde_json::Value =
+        serde_json::from_str(&json_state_line("r", &st, None, at(), HeadlessEvent::End))
+            .expect("JSON");
+    assert_eq!(v["state"], "nothing-to-judge");
+    assert!(v.get("verdict").is_none(), "{v}");
+    let st = nothing_state(&NothingToJudge::NoData);
+    assert_eq!(st.detail, "no data: no values were read");
 }
