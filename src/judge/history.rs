@@ -68,6 +68,8 @@ pub struct Tally {
     mag_k: u8,
     pub mag_best: f64,
     mag_blocks: usize,
+    /// Residuals: the largest [`key`] of the block of 64 being filled.
+    block_max: f64,
     levels: bool,
     magnitude: bool,
 }
@@ -85,8 +87,8 @@ pub struct MagnitudeMark {
 #[derive(Debug, Clone, PartialEq)]
 pub struct History {
     tally: Tally,
-    /// Residuals: `maxima[l][b]` is the largest [`key`] of block `b` of `64^(l+1)` values
-    /// (the last block partial).
+    /// Residuals: `maxima[l][b]` is the largest [`key`] of block `b` of `64^(l+1)` values,
+    /// completed blocks only (the descent never needs a partial one).
     maxima: Vec<Vec<f64>>,
     /// Monitors: checkpoints of the magnitude process, every [`MAGNITUDE_MARK_BLOCKS`].
     marks: Vec<MagnitudeMark>,
@@ -131,6 +133,7 @@ impl History {
                 mag_k: 0,
                 mag_best: 0.0,
                 mag_blocks: 0,
+                block_max: f64::NEG_INFINITY,
                 levels,
                 magnitude,
             },
@@ -173,27 +176,18 @@ impl History {
     /// Fold in the next value; `segment` is the store's id of its segment.
     #[inline]
     pub fn push(&mut self, x: f64, segment: u64) {
-        let t = &mut self.tally;
-        let i = t.len;
-        if i == 0 || segment != t.seg_id {
-            t.seg = i;
-            t.seg_id = segment;
-            t.seg_nf_first = None;
-            t.seg_nf_last = None;
-            t.seg_nf_count = 0;
-            t.mag_k = 0;
-            t.mag_best = 0.0;
-            t.mag_blocks = 0;
+        // The common path stays small enough to inline into the store's push; the rare
+        // steps (a new segment, a non-finite value, a completed block) are calls.
+        let i = self.tally.len;
+        if i == 0 || segment != self.tally.seg_id {
+            self.new_segment(segment);
         }
-        t.len = i + 1;
+        self.tally.len = i + 1;
         if !x.is_finite() {
-            t.nf_first.get_or_insert(i);
-            t.nf_count += 1;
-            t.seg_nf_first.get_or_insert(i);
-            t.seg_nf_last = Some(i);
-            t.seg_nf_count += 1;
+            self.non_finite(i);
         }
-        if t.levels {
+        if self.tally.levels {
+            let t = &mut self.tally;
             if x.is_finite() && x > 0.0 {
                 t.first_pos.get_or_insert(i);
                 t.last_pos = x;
@@ -214,37 +208,78 @@ impl History {
                 t.prev_pos = None;
             }
             let k = key(x);
-            for (l, level) in self.maxima.iter_mut().enumerate() {
-                let mask = (1usize << (FAN_BITS * (l as u32 + 1))) - 1;
-                if i & mask == 0 {
-                    level.push(k);
-                } else if let Some(m) = level.last_mut()
-                    && k > *m
-                {
-                    *m = k;
-                }
+            if k > t.block_max {
+                t.block_max = k;
+            }
+            if (i + 1) & ((1 << FAN_BITS) - 1) == 0 {
+                self.block_done();
             }
         }
-        if t.magnitude {
+        if self.tally.magnitude {
             let a = x.abs();
             if a.is_finite() && a > 0.0 {
+                let t = &mut self.tally;
                 t.mag_buf[t.mag_k as usize] = a;
                 t.mag_k += 1;
                 if t.mag_k == 5 {
-                    let mut b = t.mag_buf;
-                    b.sort_by(f64::total_cmp);
-                    t.mag_best = t.mag_best.max(b[2]);
-                    t.mag_k = 0;
-                    t.mag_blocks += 1;
-                    if t.mag_blocks.is_multiple_of(MAGNITUDE_MARK_BLOCKS) {
-                        self.marks.push(MagnitudeMark {
-                            seg: t.seg,
-                            next: i + 1,
-                            best: t.mag_best,
-                        });
-                    }
+                    self.magnitude_block(i);
                 }
             }
+        }
+    }
+
+    #[cold]
+    fn new_segment(&mut self, segment: u64) {
+        let t = &mut self.tally;
+        t.seg = t.len;
+        t.seg_id = segment;
+        t.seg_nf_first = None;
+        t.seg_nf_last = None;
+        t.seg_nf_count = 0;
+        t.mag_k = 0;
+        t.mag_best = 0.0;
+        t.mag_blocks = 0;
+    }
+
+    #[cold]
+    fn non_finite(&mut self, i: usize) {
+        let t = &mut self.tally;
+        t.nf_first.get_or_insert(i);
+        t.nf_count += 1;
+        t.seg_nf_first.get_or_insert(i);
+        t.seg_nf_last = Some(i);
+        t.seg_nf_count += 1;
+    }
+
+    /// A block of 64 is complete; so, every 64 of those, is one of the next level.
+    #[inline(never)]
+    fn block_done(&mut self) {
+        let m = std::mem::replace(&mut self.tally.block_max, f64::NEG_INFINITY);
+        self.maxima[0].push(m);
+        for l in 1..self.maxima.len() {
+            let below = self.maxima[l - 1].len();
+            if below & ((1 << FAN_BITS) - 1) != 0 {
+                break;
+            }
+            let m = self.maxima[l - 1][below - (1 << FAN_BITS)..]
+                .iter()
+                .copied()
+                .fold(f64::NEG_INFINITY, f64::max);
+            self.maxima[l].push(m);
+        }
+    }
+
+    /// A block of 5 magnitudes is complete (value `i` its last).
+    #[inline(never)]
+    fn magnitude_block(&mut self, i: usize) {
+        let t = &mut self.tally;
+        let mut b = t.mag_buf;
+        b.sort_by(f64::total_cmp);
+        t.mag_best = t.mag_best.max(b[2]);
+        t.mag_k = 0;
+        t.mag_blocks += 1;
+        if t.mag_blocks.is_multiple_of(MAGNITUDE_MARK_BLOCKS) {
+            self.marks.push(MagnitudeMark { seg: t.seg, next: i + 1, best: t.mag_best });
         }
     }
 
@@ -260,29 +295,14 @@ impl History {
         self.tally
     }
 
-    /// Take back the values pushed since `mark` was taken; `values` are the series' values
-    /// after taking them back (the block maxima of the last partial blocks are recomputed
-    /// from them).
+    /// Take back the values pushed since `mark` was taken (`values`: the series' values
+    /// after taking them back).
     pub fn rewind(&mut self, mark: Tally, values: &[f64]) {
         debug_assert_eq!(mark.len, values.len());
         self.tally = mark;
         self.marks.retain(|m| m.next <= mark.len);
-        let n = mark.len;
-        for l in 0..self.maxima.len() {
-            let shift = FAN_BITS * (l as u32 + 1);
-            let blocks = n.div_ceil(1usize << shift);
-            self.maxima[l].truncate(blocks);
-            if blocks == 0 || n.is_multiple_of(1usize << shift) {
-                continue;
-            }
-            // The last block is partial: its maximum over what is left.
-            let m = if l == 0 {
-                values[(blocks - 1) << shift..n].iter().map(|&x| key(x)).fold(f64::MIN, f64::max)
-            } else {
-                let from = (blocks - 1) << FAN_BITS;
-                self.maxima[l - 1][from..].iter().copied().fold(f64::MIN, f64::max)
-            };
-            self.maxima[l][blocks - 1] = m;
+        for (l, level) in self.maxima.iter_mut().enumerate() {
+            level.truncate(mark.len >> (FAN_BITS * (l as u32 + 1)));
         }
     }
 
