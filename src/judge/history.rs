@@ -174,7 +174,7 @@ impl History {
     }
 
     /// Fold in the next value; `segment` is the store's id of its segment.
-    #[inline]
+    #[inline(always)]
     pub fn push(&mut self, x: f64, segment: u64) {
         // The common path stays small enough to inline into the store's push; the rare
         // steps (a new segment, a non-finite value, a completed block) are calls.
@@ -273,8 +273,16 @@ impl History {
     #[inline(never)]
     fn magnitude_block(&mut self, i: usize) {
         let t = &mut self.tally;
+        // Insertion sort of 5 finite positive values (where `>` orders as `total_cmp` does,
+        // the order `block_medians` sorts by).
         let mut b = t.mag_buf;
-        b.sort_by(f64::total_cmp);
+        for k in 1..5 {
+            let mut j = k;
+            while j > 0 && b[j - 1] > b[j] {
+                b.swap(j - 1, j);
+                j -= 1;
+            }
+        }
         t.mag_best = t.mag_best.max(b[2]);
         t.mag_k = 0;
         t.mag_blocks += 1;
