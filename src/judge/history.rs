@@ -26,6 +26,7 @@
 //! series judged under another role (a `role` override in `settle.toml`) falls back to the
 //! scan for what its history lacks.
 
+use super::series::View;
 use crate::record::Role;
 
 /// Fan-out of the block maxima: level `l` holds the maximum of each block of `64^(l+1)`
@@ -44,6 +45,10 @@ pub struct Tally {
     /// Index of the first value of the latest segment.
     pub seg: usize,
     seg_id: u64,
+    /// How many values at the end equal (`==`) the last one (0 when it is NaN), and the
+    /// last value's bits.
+    pub tail_equal: usize,
+    last_bits: u64,
     /// First non-finite value of the run, and how many there are.
     pub nf_first: Option<usize>,
     pub nf_count: usize,
@@ -117,6 +122,8 @@ impl History {
                 len: 0,
                 seg: 0,
                 seg_id: 0,
+                tail_equal: 0,
+                last_bits: 0,
                 nf_first: None,
                 nf_count: 0,
                 seg_nf_first: None,
@@ -183,6 +190,13 @@ impl History {
             self.new_segment(segment);
         }
         self.tally.len = i + 1;
+        let t = &mut self.tally;
+        if i > 0 && x == f64::from_bits(t.last_bits) {
+            t.tail_equal += 1;
+        } else {
+            t.tail_equal = usize::from(!x.is_nan());
+        }
+        t.last_bits = x.to_bits();
         if !x.is_finite() {
             self.non_finite(i);
         }
@@ -341,6 +355,19 @@ impl History {
         Ok(None)
     }
 
+    /// How many values at the end of `v` from index `from` on equal (`==`) the last one: from
+    /// the history when `v` has one, else counted back.
+    pub fn trailing_equal(v: &View<'_>, from: usize) -> usize {
+        let n = v.len();
+        match v.history {
+            Some(h) => h.tally.tail_equal.min(n.saturating_sub(from)),
+            None => {
+                let x = v.vals[n - 1];
+                v.vals[from.min(n)..].iter().rev().take_while(|&&y| y == x).count()
+            }
+        }
+    }
+
     /// The latest magnitude checkpoint of the latest segment at or before value `index`.
     pub fn magnitude_mark(&self, index: usize) -> Option<MagnitudeMark> {
         if !self.tally.magnitude {
@@ -474,6 +501,41 @@ mod tests {
             for t in [from, from + 1, from + 333, (from + last) / 2, last - 1, last] {
                 assert_eq!(tail.at(t), full.at(t), "from {from} at {t}");
             }
+        }
+    }
+
+    #[test]
+    fn trailing_repeats_equal_a_count_back() {
+        use crate::judge::SeriesInput;
+        use crate::judge::series::View;
+        use std::borrow::Cow;
+        let nan = f64::NAN;
+        let cases: [&[f64]; 7] = [
+            &[1.0, 2.0, 2.0, 2.0],
+            &[2.0, 2.0, 2.0],
+            &[1.0, nan, nan],
+            &[nan, 3.0],
+            &[1.0, 0.0, -0.0, 0.0],
+            &[5.0, f64::INFINITY, f64::INFINITY],
+            &[7.0],
+        ];
+        for vals in cases {
+            let its: Vec<i64> = (1..=vals.len() as i64).collect();
+            let h = History::rebuild(Role::Indicator, vals, |_| 0);
+            let mut input = SeriesInput {
+                iterations: Cow::Borrowed(&its),
+                values: Cow::Borrowed(vals),
+                segment_starts: vec![0],
+                history: Some(&h),
+                ..Default::default()
+            };
+            let with = View::new(&input).map(|v| History::trailing_equal(&v, 0));
+            let from_one = View::new(&input).map(|v| History::trailing_equal(&v, 1));
+            input.history = None;
+            let without = View::new(&input).map(|v| History::trailing_equal(&v, 0));
+            let from_one_without = View::new(&input).map(|v| History::trailing_equal(&v, 1));
+            assert_eq!(with, without, "{vals:?}");
+            assert_eq!(from_one, from_one_without, "{vals:?}");
         }
     }
 

@@ -521,11 +521,10 @@ fn frozen(name: &str, v: &View<'_>, sink: &mut Sink) {
     if !x.is_finite() {
         return;
     }
-    let mut k = n - 1;
-    while k > 0 && v.vals[k - 1] == x {
-        k -= 1;
-    }
-    let repeats = n - k;
+    // Counted by the store as values arrive when given (a frozen residual would otherwise
+    // be counted back over its whole frozen stretch at every call).
+    let repeats = super::history::History::trailing_equal(v, 0);
+    let k = n - repeats;
     if repeats < FROZEN_MIN_REPEATS {
         return;
     }
