@@ -68,7 +68,7 @@
 //! magnitude of a monitor, the last value above a level that dates the residual criteria)
 //! comes from the store's running aggregates ([`history`]), so a judgement costs what its
 //! windows cost: `cargo bench --bench judge_cost` measured one call on a synthetic run at
-//! 10 M records at 0.97× the call at 100 k (before the aggregates: 54×). Without them
+//! 10 M records at 0.87× the call at 100 k (before the aggregates: 54×). Without them
 //! (`SeriesInput::history` `None`: prefixes, tests) the judge scans the run, with the same
 //! result.
 
