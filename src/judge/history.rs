@@ -300,7 +300,7 @@ impl History {
         t.mag_best = t.mag_best.max(b[2]);
         t.mag_k = 0;
         t.mag_blocks += 1;
-        if t.mag_blocks.is_multiple_of(MAGNITUDE_MARK_BLOCKS) {
+        if t.mag_blocks % MAGNITUDE_MARK_BLOCKS == 0 {
             self.marks.push(MagnitudeMark { seg: t.seg, next: i + 1, best: t.mag_best });
         }
     }
@@ -330,29 +330,26 @@ impl History {
 
     /// The last index in `from..len` whose value is not finite or above `level` (`level`
     /// finite), by descending the block maxima; `None` when every value there is at most
-    /// `level`, or when block maxima are not kept (`Err`).
-    pub fn last_above(&self, values: &[f64], from: usize, level: f64) -> Result<Option<usize>, ()> {
+    /// `level`; the outer `None` when block maxima are not kept or `level` is not finite.
+    pub fn last_above(&self, values: &[f64], from: usize, level: f64) -> Option<Option<usize>> {
         if !self.tally.levels || !level.is_finite() || values.len() != self.tally.len {
-            return Err(());
+            return None;
         }
         let mut i = values.len();
         'walk: while i > from {
             for l in (0..self.maxima.len()).rev() {
                 let size = 1usize << (FAN_BITS * (l as u32 + 1));
-                if i.is_multiple_of(size)
-                    && i - size >= from
-                    && self.maxima[l][i / size - 1] <= level
-                {
+                if i % size == 0 && i - size >= from && self.maxima[l][i / size - 1] <= level {
                     i -= size;
                     continue 'walk;
                 }
             }
             if key(values[i - 1]) > level {
-                return Ok(Some(i - 1));
+                return Some(Some(i - 1));
             }
             i -= 1;
         }
-        Ok(None)
+        Some(None)
     }
 
     /// How many values at the end of `v` from index `from` on equal (`==`) the last one: from
@@ -413,13 +410,13 @@ mod tests {
             for from in [0, 1, 63, 64, 4095, 4097, 100_000, 262_144, 299_990, n] {
                 assert_eq!(
                     h.last_above(&vals, from, level),
-                    Ok(scan_last_above(&vals, from, level)),
+                    Some(scan_last_above(&vals, from, level)),
                     "level {level} from {from}"
                 );
             }
         }
-        assert_eq!(h.last_above(&vals, 0, f64::INFINITY), Err(()));
-        assert_eq!(h.last_above(&vals, 0, f64::NAN), Err(()));
+        assert_eq!(h.last_above(&vals, 0, f64::INFINITY), None);
+        assert_eq!(h.last_above(&vals, 0, f64::NAN), None);
     }
 
     /// The judgement of `input` as given and without the store's aggregates (the judge then
