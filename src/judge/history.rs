@@ -8,8 +8,11 @@
 //! * non-finite values: the first of the run, and the first, last and count in the latest
 //!   segment;
 //! * the backward scan that dates the residual criteria (`since`): the last value of the
-//!   latest segment above a level, found here by descending block maxima of 64, 4 096,
-//!   262 144 and 16 777 216 values (at most about 2 × 64 steps per level);
+//!   latest segment above a level, found here by descending the maxima of completed blocks
+//!   of 64, 4 096, 262 144 and 16 777 216 values: at most about 2 × 64 steps per level, plus
+//!   one per 16 777 216 values at the top;
+//! * how many values at the end repeat the last one (a frozen residual, an indicator pinned
+//!   at its maximum, or simply a sweep count that never changes);
 //! * a monitor's running largest block-median magnitude ([`super::scale::Magnitude`]):
 //!   checkpoints every [`MAGNITUDE_MARK_BLOCKS`] blocks let it start from a recent one.
 //!
@@ -18,11 +21,13 @@
 //! `SeriesInput::segment_starts` says); taking the newest values back ([`History::rewind`])
 //! and rebuilding after a rewrite ([`History::rebuild`]) keep it equal to a full scan. The
 //! judge uses a history only when its length and latest segment match the series it is
-//! given, and otherwise scans as before: the judgement is the same either way (tests in
-//! `judge::tests` and `run::store` check it).
+//! given, and otherwise scans as before: the judgement is the same either way (the tests
+//! below check it on every synthetic scenario, `run::store::history_tests` checks the store
+//! keeps each history equal to a rebuild from its values).
 //!
 //! What is kept depends on the series' role in the store: levels, step drop and block maxima
-//! for residuals, magnitude checkpoints for monitors, non-finite counts for every role. A
+//! for residuals, magnitude checkpoints for monitors, non-finite values and trailing repeats
+//! for every role. A
 //! series judged under another role (a `role` override in `settle.toml`) falls back to the
 //! scan for what its history lacks.
 
