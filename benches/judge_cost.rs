@@ -10,16 +10,15 @@
 //! The run is the same at every length: six residuals fall four and a half decades in the
 //! first 4 000 iterations and then sit at a noisy floor (AR(1) noise), three force monitors
 //! settle within the first few thousand iterations, sweep counts vary between 1 and 3, a
-//! continuity error stays tiny. So every length is judged `converged`, with its residual
-//! criteria met since about iteration 2 700: the windowed tests see the same kind of data at
-//! every length, and only the whole-run work grows with the run. From 100 k records on, the
-//! last 50 000 records are the same values at every length (the noise of the tail is drawn
-//! from its own seed), so the windowed tests, whose cost depends on what the windows hold
-//! (a Monte Carlo p-value is drawn only for a borderline periodogram peak), do the same
-//! work at 100 k and at 10 M. The figures printed are
-//! the median of the calls, for the judge fed the store's running aggregates ("summary") and,
-//! in the same run, for the same input without them (the judge then scans the history
-//! itself, as it did before the aggregates existed).
+//! continuity error stays tiny, and every length is judged `converged`. From 100 k records
+//! on, the last 50 000 records hold the same values at every length (the tail's noise is
+//! drawn from its own seed), so the windowed tests, whose cost depends on what the windows
+//! hold (a Monte Carlo p-value is drawn only for a borderline periodogram peak), do the same
+//! work at 100 k and at 10 M, and only whole-run work can grow with the run.
+//!
+//! Printed: the median of the calls for the judge fed the store's running aggregates
+//! ("summary", what `watch` and `check` do) and, in the same run, for the same input without
+//! them ("scan": the judge then scans the run); the two judgements must be equal.
 
 use std::time::{Duration, Instant};
 

@@ -46,7 +46,10 @@ fn main() {
     let dir = tempfile::tempdir().expect("tempdir");
     let mut paths: Vec<PathBuf> = Vec::new();
     for i in 0..runs {
-        let p = dir.path().join(format!("run{i:03}.log"));
+        // One directory per run, so that each is named by its directory.
+        let d = dir.path().join(format!("run{i:03}"));
+        std::fs::create_dir(&d).expect("run directory");
+        let p = d.join("tarn.log");
         let mut text = synth::render_banner(&run);
         for s in 0..steps {
             text.push_str(&synth::render_step(&run, s));
@@ -77,7 +80,11 @@ fn main() {
     let mut child = Command::new(&bin)
         .args(["watch", "--headless", "--json", "--heartbeat", "0.25", "--refresh", "1"])
         .args(["--poll", "1", "--exit-when", "never", "--stale", "1h", "--parser", "tarn"])
-        .args(&paths)
+        .args(paths.iter().enumerate().flat_map(|(i, p)| {
+            // `+` between runs: files given together would be one run of many sources.
+            let sep = (i > 0).then(|| std::ffi::OsStr::new(settle::run::resolve::RUN_SEPARATOR));
+            sep.into_iter().chain(std::iter::once(p.as_os_str()))
+        }))
         .stdin(Stdio::null())
         .stdout(Stdio::piped())
         .spawn()
@@ -111,14 +118,14 @@ fn main() {
     let _ = child.wait();
     let _ = reader.join();
 
+    // Runs are named by their directory (`run007/tarn.log` or `run007`).
     let grew: BTreeSet<String> = paths[..growing]
         .iter()
-        .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+        .filter_map(|p| p.parent()?.file_name().map(|n| n.to_string_lossy().into_owned()))
         .collect();
     let mut judged: BTreeMap<String, BTreeSet<i64>> = BTreeMap::new();
     for (at, run, it) in seen.lock().expect("lines").iter() {
-        let name = run.rsplit('/').next().unwrap_or(run);
-        if *at >= window_start && grew.contains(name) {
+        if *at >= window_start && run.split('/').any(|c| grew.contains(c)) {
             judged.entry(run.clone()).or_default().insert(*it);
         }
     }

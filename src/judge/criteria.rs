@@ -12,7 +12,8 @@
 //! series with an entry of its own is judged unless that entry says `ignore`.
 //!
 //! `since` (first iteration from which a criterion has held continuously to the end) is exact
-//! for the residual criteria (a backward scan over the latest segment) and, for windowed
+//! for the residual criteria (the last value of the latest segment above the level: a
+//! descent of the store's block maxima, or a backward scan without them) and, for windowed
 //! monitor criteria, evaluated at checkpoints every tenth of a window back from the end (at
 //! most [`MAX_CHECKPOINTS`]), so its cost is bounded by a few windows; it is then the oldest
 //! checkpoint of the unbroken run of held checkpoints, accurate to a tenth of a window.

@@ -14,6 +14,7 @@
 //! ([`growing_cycle`]) are divergence.
 
 use super::criteria::Resolved;
+use super::history::History;
 use super::limits::*;
 use super::oscillation;
 use super::scale::{self, Magnitude};
@@ -211,15 +212,16 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
     // the reference range after the start-up, or, in a young segment, the median of the
     // values before the pinned stretch (at least PINNED_MIN_VALUES of them).
     if indicator {
-        let x_last = v.vals.last().copied().unwrap_or(f64::NAN);
-        let pinned_now = v.vals[v.seg..].iter().rev().take_while(|&&y| y == x_last).count();
+        // Counted by the store as values arrive (a sweep count that never changes would
+        // otherwise be counted back over the whole segment at every call).
+        let pinned_now = History::trailing_equal(v, v.seg);
         let before = n - pinned_now;
         let usual = reference.or_else(|| {
             let lo = before.saturating_sub(4 * window).max(v.seg);
             (before >= lo + PINNED_MIN_VALUES).then(|| median_abs(&v.vals[lo..before])).flatten()
         });
         if let (Some(r), Some(&x)) = (usual, v.vals.last()) {
-            let pinned = v.vals[v.seg..].iter().rev().take_while(|&&y| y == x).count();
+            let pinned = pinned_now;
             // The segment's maximum last: only a pinned value far above the usual level
             // needs the pass over the segment.
             let seg_max = || {

@@ -8,8 +8,11 @@
 //! * non-finite values: the first of the run, and the first, last and count in the latest
 //!   segment;
 //! * the backward scan that dates the residual criteria (`since`): the last value of the
-//!   latest segment above a level, found here by descending block maxima of 64, 4 096,
-//!   262 144 and 16 777 216 values (at most about 2 × 64 steps per level);
+//!   latest segment above a level, found here by descending the maxima of completed blocks
+//!   of 64, 4 096, 262 144 and 16 777 216 values: at most about 2 × 64 steps per level, plus
+//!   one per 16 777 216 values at the top;
+//! * how many values at the end repeat the last one (a frozen residual, an indicator pinned
+//!   at its maximum, or simply a sweep count that never changes);
 //! * a monitor's running largest block-median magnitude ([`super::scale::Magnitude`]):
 //!   checkpoints every [`MAGNITUDE_MARK_BLOCKS`] blocks let it start from a recent one.
 //!
@@ -18,14 +21,17 @@
 //! `SeriesInput::segment_starts` says); taking the newest values back ([`History::rewind`])
 //! and rebuilding after a rewrite ([`History::rebuild`]) keep it equal to a full scan. The
 //! judge uses a history only when its length and latest segment match the series it is
-//! given, and otherwise scans as before: the judgement is the same either way (tests in
-//! `judge::tests` and `run::store` check it).
+//! given, and otherwise scans as before: the judgement is the same either way (the tests
+//! below check it on every synthetic scenario, `run::store::history_tests` checks the store
+//! keeps each history equal to a rebuild from its values).
 //!
 //! What is kept depends on the series' role in the store: levels, step drop and block maxima
-//! for residuals, magnitude checkpoints for monitors, non-finite counts for every role. A
+//! for residuals, magnitude checkpoints for monitors, non-finite values and trailing repeats
+//! for every role. A
 //! series judged under another role (a `role` override in `settle.toml`) falls back to the
 //! scan for what its history lacks.
 
+use super::series::View;
 use crate::record::Role;
 
 /// Fan-out of the block maxima: level `l` holds the maximum of each block of `64^(l+1)`
@@ -44,6 +50,10 @@ pub struct Tally {
     /// Index of the first value of the latest segment.
     pub seg: usize,
     seg_id: u64,
+    /// How many values at the end equal (`==`) the last one (0 when it is NaN), and the
+    /// last value's bits.
+    pub tail_equal: usize,
+    last_bits: u64,
     /// First non-finite value of the run, and how many there are.
     pub nf_first: Option<usize>,
     pub nf_count: usize,
@@ -68,6 +78,8 @@ pub struct Tally {
     mag_k: u8,
     pub mag_best: f64,
     mag_blocks: usize,
+    /// Residuals: the largest [`key`] of the block of 64 being filled.
+    block_max: f64,
     levels: bool,
     magnitude: bool,
 }
@@ -85,8 +97,8 @@ pub struct MagnitudeMark {
 #[derive(Debug, Clone, PartialEq)]
 pub struct History {
     tally: Tally,
-    /// Residuals: `maxima[l][b]` is the largest [`key`] of block `b` of `64^(l+1)` values
-    /// (the last block partial).
+    /// Residuals: `maxima[l][b]` is the largest [`key`] of block `b` of `64^(l+1)` values,
+    /// completed blocks only (the descent never needs a partial one).
     maxima: Vec<Vec<f64>>,
     /// Monitors: checkpoints of the magnitude process, every [`MAGNITUDE_MARK_BLOCKS`].
     marks: Vec<MagnitudeMark>,
@@ -115,6 +127,8 @@ impl History {
                 len: 0,
                 seg: 0,
                 seg_id: 0,
+                tail_equal: 0,
+                last_bits: 0,
                 nf_first: None,
                 nf_count: 0,
                 seg_nf_first: None,
@@ -131,6 +145,7 @@ impl History {
                 mag_k: 0,
                 mag_best: 0.0,
                 mag_blocks: 0,
+                block_max: f64::NEG_INFINITY,
                 levels,
                 magnitude,
             },
@@ -171,29 +186,27 @@ impl History {
     }
 
     /// Fold in the next value; `segment` is the store's id of its segment.
-    #[inline]
+    #[inline(always)]
     pub fn push(&mut self, x: f64, segment: u64) {
+        // The common path stays small enough to inline into the store's push; the rare
+        // steps (a new segment, a non-finite value, a completed block) are calls.
+        let i = self.tally.len;
+        if i == 0 || segment != self.tally.seg_id {
+            self.new_segment(segment);
+        }
+        self.tally.len = i + 1;
         let t = &mut self.tally;
-        let i = t.len;
-        if i == 0 || segment != t.seg_id {
-            t.seg = i;
-            t.seg_id = segment;
-            t.seg_nf_first = None;
-            t.seg_nf_last = None;
-            t.seg_nf_count = 0;
-            t.mag_k = 0;
-            t.mag_best = 0.0;
-            t.mag_blocks = 0;
+        if i > 0 && x == f64::from_bits(t.last_bits) {
+            t.tail_equal += 1;
+        } else {
+            t.tail_equal = usize::from(!x.is_nan());
         }
-        t.len = i + 1;
+        t.last_bits = x.to_bits();
         if !x.is_finite() {
-            t.nf_first.get_or_insert(i);
-            t.nf_count += 1;
-            t.seg_nf_first.get_or_insert(i);
-            t.seg_nf_last = Some(i);
-            t.seg_nf_count += 1;
+            self.non_finite(i);
         }
-        if t.levels {
+        if self.tally.levels {
+            let t = &mut self.tally;
             if x.is_finite() && x > 0.0 {
                 t.first_pos.get_or_insert(i);
                 t.last_pos = x;
@@ -214,37 +227,86 @@ impl History {
                 t.prev_pos = None;
             }
             let k = key(x);
-            for (l, level) in self.maxima.iter_mut().enumerate() {
-                let mask = (1usize << (FAN_BITS * (l as u32 + 1))) - 1;
-                if i & mask == 0 {
-                    level.push(k);
-                } else if let Some(m) = level.last_mut()
-                    && k > *m
-                {
-                    *m = k;
-                }
+            if k > t.block_max {
+                t.block_max = k;
+            }
+            if (i + 1) & ((1 << FAN_BITS) - 1) == 0 {
+                self.block_done();
             }
         }
-        if t.magnitude {
+        if self.tally.magnitude {
             let a = x.abs();
             if a.is_finite() && a > 0.0 {
+                let t = &mut self.tally;
                 t.mag_buf[t.mag_k as usize] = a;
                 t.mag_k += 1;
                 if t.mag_k == 5 {
-                    let mut b = t.mag_buf;
-                    b.sort_by(f64::total_cmp);
-                    t.mag_best = t.mag_best.max(b[2]);
-                    t.mag_k = 0;
-                    t.mag_blocks += 1;
-                    if t.mag_blocks.is_multiple_of(MAGNITUDE_MARK_BLOCKS) {
-                        self.marks.push(MagnitudeMark {
-                            seg: t.seg,
-                            next: i + 1,
-                            best: t.mag_best,
-                        });
-                    }
+                    self.magnitude_block(i);
                 }
             }
+        }
+    }
+
+    #[cold]
+    fn new_segment(&mut self, segment: u64) {
+        let t = &mut self.tally;
+        t.seg = t.len;
+        t.seg_id = segment;
+        t.seg_nf_first = None;
+        t.seg_nf_last = None;
+        t.seg_nf_count = 0;
+        t.mag_k = 0;
+        t.mag_best = 0.0;
+        t.mag_blocks = 0;
+    }
+
+    #[cold]
+    fn non_finite(&mut self, i: usize) {
+        let t = &mut self.tally;
+        t.nf_first.get_or_insert(i);
+        t.nf_count += 1;
+        t.seg_nf_first.get_or_insert(i);
+        t.seg_nf_last = Some(i);
+        t.seg_nf_count += 1;
+    }
+
+    /// A block of 64 is complete; so, every 64 of those, is one of the next level.
+    #[inline(never)]
+    fn block_done(&mut self) {
+        let m = std::mem::replace(&mut self.tally.block_max, f64::NEG_INFINITY);
+        self.maxima[0].push(m);
+        for l in 1..self.maxima.len() {
+            let below = self.maxima[l - 1].len();
+            if below & ((1 << FAN_BITS) - 1) != 0 {
+                break;
+            }
+            let m = self.maxima[l - 1][below - (1 << FAN_BITS)..]
+                .iter()
+                .copied()
+                .fold(f64::NEG_INFINITY, f64::max);
+            self.maxima[l].push(m);
+        }
+    }
+
+    /// A block of 5 magnitudes is complete (value `i` its last).
+    #[inline(never)]
+    fn magnitude_block(&mut self, i: usize) {
+        let t = &mut self.tally;
+        // Insertion sort of 5 finite positive values (where `>` orders as `total_cmp` does,
+        // the order `block_medians` sorts by).
+        let mut b = t.mag_buf;
+        for k in 1..5 {
+            let mut j = k;
+            while j > 0 && b[j - 1] > b[j] {
+                b.swap(j - 1, j);
+                j -= 1;
+            }
+        }
+        t.mag_best = t.mag_best.max(b[2]);
+        t.mag_k = 0;
+        t.mag_blocks += 1;
+        if t.mag_blocks % MAGNITUDE_MARK_BLOCKS == 0 {
+            self.marks.push(MagnitudeMark { seg: t.seg, next: i + 1, best: t.mag_best });
         }
     }
 
@@ -260,57 +322,52 @@ impl History {
         self.tally
     }
 
-    /// Take back the values pushed since `mark` was taken; `values` are the series' values
-    /// after taking them back (the block maxima of the last partial blocks are recomputed
-    /// from them).
+    /// Take back the values pushed since `mark` was taken (`values`: the series' values
+    /// after taking them back).
     pub fn rewind(&mut self, mark: Tally, values: &[f64]) {
         debug_assert_eq!(mark.len, values.len());
         self.tally = mark;
         self.marks.retain(|m| m.next <= mark.len);
-        let n = mark.len;
-        for l in 0..self.maxima.len() {
-            let shift = FAN_BITS * (l as u32 + 1);
-            let blocks = n.div_ceil(1usize << shift);
-            self.maxima[l].truncate(blocks);
-            if blocks == 0 || n.is_multiple_of(1usize << shift) {
-                continue;
-            }
-            // The last block is partial: its maximum over what is left.
-            let m = if l == 0 {
-                values[(blocks - 1) << shift..n].iter().map(|&x| key(x)).fold(f64::MIN, f64::max)
-            } else {
-                let from = (blocks - 1) << FAN_BITS;
-                self.maxima[l - 1][from..].iter().copied().fold(f64::MIN, f64::max)
-            };
-            self.maxima[l][blocks - 1] = m;
+        for (l, level) in self.maxima.iter_mut().enumerate() {
+            level.truncate(mark.len >> (FAN_BITS * (l as u32 + 1)));
         }
     }
 
     /// The last index in `from..len` whose value is not finite or above `level` (`level`
     /// finite), by descending the block maxima; `None` when every value there is at most
-    /// `level`, or when block maxima are not kept (`Err`).
-    pub fn last_above(&self, values: &[f64], from: usize, level: f64) -> Result<Option<usize>, ()> {
+    /// `level`; the outer `None` when block maxima are not kept or `level` is not finite.
+    pub fn last_above(&self, values: &[f64], from: usize, level: f64) -> Option<Option<usize>> {
         if !self.tally.levels || !level.is_finite() || values.len() != self.tally.len {
-            return Err(());
+            return None;
         }
         let mut i = values.len();
         'walk: while i > from {
             for l in (0..self.maxima.len()).rev() {
                 let size = 1usize << (FAN_BITS * (l as u32 + 1));
-                if i.is_multiple_of(size)
-                    && i - size >= from
-                    && self.maxima[l][i / size - 1] <= level
-                {
+                if i % size == 0 && i - size >= from && self.maxima[l][i / size - 1] <= level {
                     i -= size;
                     continue 'walk;
                 }
             }
             if key(values[i - 1]) > level {
-                return Ok(Some(i - 1));
+                return Some(Some(i - 1));
             }
             i -= 1;
         }
-        Ok(None)
+        Some(None)
+    }
+
+    /// How many values at the end of `v` from index `from` on equal (`==`) the last one: from
+    /// the history when `v` has one, else counted back.
+    pub fn trailing_equal(v: &View<'_>, from: usize) -> usize {
+        let n = v.len();
+        match v.history {
+            Some(h) => h.tally.tail_equal.min(n.saturating_sub(from)),
+            None => {
+                let x = v.vals[n - 1];
+                v.vals[from.min(n)..].iter().rev().take_while(|&&y| y == x).count()
+            }
+        }
     }
 
     /// The latest magnitude checkpoint of the latest segment at or before value `index`.
@@ -358,13 +415,13 @@ mod tests {
             for from in [0, 1, 63, 64, 4095, 4097, 100_000, 262_144, 299_990, n] {
                 assert_eq!(
                     h.last_above(&vals, from, level),
-                    Ok(scan_last_above(&vals, from, level)),
+                    Some(scan_last_above(&vals, from, level)),
                     "level {level} from {from}"
                 );
             }
         }
-        assert_eq!(h.last_above(&vals, 0, f64::INFINITY), Err(()));
-        assert_eq!(h.last_above(&vals, 0, f64::NAN), Err(()));
+        assert_eq!(h.last_above(&vals, 0, f64::INFINITY), None);
+        assert_eq!(h.last_above(&vals, 0, f64::NAN), None);
     }
 
     /// The judgement of `input` as given and without the store's aggregates (the judge then
@@ -446,6 +503,41 @@ mod tests {
             for t in [from, from + 1, from + 333, (from + last) / 2, last - 1, last] {
                 assert_eq!(tail.at(t), full.at(t), "from {from} at {t}");
             }
+        }
+    }
+
+    #[test]
+    fn trailing_repeats_equal_a_count_back() {
+        use crate::judge::SeriesInput;
+        use crate::judge::series::View;
+        use std::borrow::Cow;
+        let nan = f64::NAN;
+        let cases: [&[f64]; 7] = [
+            &[1.0, 2.0, 2.0, 2.0],
+            &[2.0, 2.0, 2.0],
+            &[1.0, nan, nan],
+            &[nan, 3.0],
+            &[1.0, 0.0, -0.0, 0.0],
+            &[5.0, f64::INFINITY, f64::INFINITY],
+            &[7.0],
+        ];
+        for vals in cases {
+            let its: Vec<i64> = (1..=vals.len() as i64).collect();
+            let h = History::rebuild(Role::Indicator, vals, |_| 0);
+            let mut input = SeriesInput {
+                iterations: Cow::Borrowed(&its),
+                values: Cow::Borrowed(vals),
+                segment_starts: vec![0],
+                history: Some(&h),
+                ..Default::default()
+            };
+            let with = View::new(&input).map(|v| History::trailing_equal(&v, 0));
+            let from_one = View::new(&input).map(|v| History::trailing_equal(&v, 1));
+            input.history = None;
+            let without = View::new(&input).map(|v| History::trailing_equal(&v, 0));
+            let from_one_without = View::new(&input).map(|v| History::trailing_equal(&v, 1));
+            assert_eq!(with, without, "{vals:?}");
+            assert_eq!(from_one, from_one_without, "{vals:?}");
         }
     }
 

@@ -214,10 +214,10 @@ fn scan_since(v: &View<'_>, ok: impl Fn(f64) -> bool) -> Option<i64> {
 /// [`scan_since`] for `x <= level`: with the store's block maxima ([`super::history`]) a
 /// descent of O(64 · levels) steps instead of a scan back over every value that holds.
 fn since_at_most(v: &View<'_>, level: f64) -> Option<i64> {
-    match v.history.map(|h| h.last_above(v.vals, v.seg, level)) {
-        Some(Ok(None)) => Some(v.its[v.seg]),
-        Some(Ok(Some(j))) => v.its.get(j + 1).copied(),
-        Some(Err(())) | None => scan_since(v, |x| x <= level),
+    match v.history.and_then(|h| h.last_above(v.vals, v.seg, level)) {
+        Some(None) => Some(v.its[v.seg]),
+        Some(Some(j)) => v.its.get(j + 1).copied(),
+        None => scan_since(v, |x| x <= level),
     }
 }
 
@@ -521,11 +521,10 @@ fn frozen(name: &str, v: &View<'_>, sink: &mut Sink) {
     if !x.is_finite() {
         return;
     }
-    let mut k = n - 1;
-    while k > 0 && v.vals[k - 1] == x {
-        k -= 1;
-    }
-    let repeats = n - k;
+    // Counted by the store as values arrive when given (a frozen residual would otherwise
+    // be counted back over its whole frozen stretch at every call).
+    let repeats = super::history::History::trailing_equal(v, 0);
+    let k = n - repeats;
     if repeats < FROZEN_MIN_REPEATS {
         return;
     }

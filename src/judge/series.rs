@@ -1,5 +1,6 @@
-//! A series as the analyses see it: the latest segment, trailing windows by iteration, and
-//! the cheap whole-run scans (peak, non-finite values).
+//! A series as the analyses see it: the latest segment, trailing windows by iteration, the
+//! store's running aggregates when given ([`super::history`]), and the whole-run scans used
+//! without them (non-finite values).
 //!
 //! Windows are found by binary search on the iteration numbers of the latest segment and are
 //! capped at [`MAX_WINDOW_POINTS`] values, so every windowed test costs O(window), not

@@ -11,9 +11,8 @@ use crate::synth::rng::Rng;
 /// Every series' history equals the one rebuilt from its values and segments.
 fn assert_matches_a_scan(src: &SourceStore, what: &str) {
     for s in src.series() {
-        let rebuilt = History::rebuild(s.role, s.values(), |i| {
-            segment_of(&src.segments, s.record_of(i)).1
-        });
+        let rebuilt =
+            History::rebuild(s.role, s.values(), |i| segment_of(&src.segments, s.record_of(i)).1);
         assert_eq!(s.history(), &rebuilt, "{}: {what}", s.name);
         // The latest segment agrees with the one the judge locates.
         let starts = src.series_segment_starts(s);
@@ -24,8 +23,12 @@ fn assert_matches_a_scan(src: &SourceStore, what: &str) {
 }
 
 fn announce(src: &mut impl Sink) {
-    let names =
-        [("p", Role::Residual), ("k", Role::Residual), ("drag", Role::Monitor), ("sw", Role::Indicator)];
+    let names = [
+        ("p", Role::Residual),
+        ("k", Role::Residual),
+        ("drag", Role::Monitor),
+        ("sw", Role::Indicator),
+    ];
     for (id, (name, role)) in names.into_iter().enumerate() {
         src.series(SeriesInfo { id: id as u32, name: name.into(), role });
     }
