@@ -298,6 +298,31 @@ fn corroborate_growth(sink: &mut Sink) {
     }
 }
 
+/// A monitor departing exponentially from its level ([`health::departure_growth`]) decides
+/// only while the residuals do not fall: when at least half of them fall significantly, the
+/// iteration is contracting and the monitor is moving to the state it converges to (the
+/// exit from a pseudo-plateau), which an instability does not allow; one residual sliding in
+/// red noise does not count against it. The finding then stays, as a note.
+fn departure_while_falling(sink: &mut Sink) {
+    let residuals = sink.residuals.len();
+    let falling = sink
+        .findings
+        .iter()
+        .filter(|f| f.kind == FindingKind::Trend && f.supports == Some(Verdict::Converging))
+        .count();
+    if residuals == 0 || 2 * falling < residuals {
+        return;
+    }
+    for f in &mut sink.findings {
+        if f.kind == FindingKind::BlowUp && f.statistic == health::DEPARTURE_STATISTIC {
+            f.supports = None;
+            f.detail.push_str(&format!(
+                "; {falling} of {residuals} residuals fall meanwhile: the solution moving to a new state (noted, not deciding)"
+            ));
+        }
+    }
+}
+
 /// A monitor failing its criteria, for the run-level rules.
 struct Failing {
     name: String,
@@ -314,6 +339,7 @@ struct Failing {
 /// the data.
 fn finish(sink: &mut Sink, first: i64, last: i64) {
     corroborate_growth(sink);
+    departure_while_falling(sink);
     let diverging = sink.findings.iter().any(|f| f.supports == Some(Verdict::Diverging));
     if diverging {
         for r in &mut sink.residuals {
