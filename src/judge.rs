@@ -50,7 +50,11 @@
 //!   exponential growth of ≥ 1 decade (2 in the start-up), 3 decades beyond the first values
 //!   while still shooting up, or (indicators) pinned at a maximum ≥ 5× the usual level.
 //!   Non-finite values after the start-up, or as the last value, are divergence. A growing
-//!   oscillation decides when two series grow with the same period.
+//!   oscillation decides when two series grow with the same period. A monitor whose
+//!   departure from its earlier level grows exponentially by a decade, not slowing down, to
+//!   a tenth of its reference is diverging while fewer than half the residuals fall
+//!   ([`health::departure_growth`]).
+//! * **Converging** names one cause: the residual that limits the estimate to target.
 //! * **Estimates to target** are dropped while anything argues for divergence.
 //! * **False convergence.** Residual criteria met while a monitor fails; the solver's own
 //!   end or `converged` mark while a monitor fails; a residual repeating one value 20 times
@@ -258,7 +262,10 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     }
     finish(&mut sink, first_it.unwrap_or(last), last);
 
-    let (verdict, since, causes) = verdict::decide(&sink.findings, &sink.criteria);
+    let (verdict, since, mut causes) = verdict::decide(&sink.findings, &sink.criteria);
+    if verdict == Verdict::Converging {
+        causes = limiting_residual(&mut sink, causes);
+    }
     Ok(Judgement {
         verdict,
         since: since.map(|s| s.min(last)),
@@ -269,6 +276,39 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         monitors: sink.monitors,
         iterations: last,
     })
+}
+
+/// The cause of a `converging` verdict said concisely: of the falling residuals, the one
+/// that limits the estimate (the longest estimate of iterations to target; without
+/// estimates, the slowest fall), with a count of the others. The run converges only when
+/// its slowest residual gets there, so that is the one line worth reading; every trend
+/// stays among the findings (`check --json`, report).
+fn limiting_residual(sink: &mut Sink, causes: Vec<usize>) -> Vec<usize> {
+    if causes.len() < 2 {
+        return causes;
+    }
+    let eta = |i: usize| {
+        let series = sink.findings[i].series.as_deref();
+        sink.residuals
+            .iter()
+            .find(|r| Some(r.series.as_str()) == series)
+            .and_then(|r| r.eta_iterations)
+    };
+    let key = |i: usize| (eta(i).unwrap_or(f64::NEG_INFINITY), sink.findings[i].value);
+    let Some(&slowest) = causes.iter().max_by(|&&a, &&b| {
+        let (ea, sa) = key(a);
+        let (eb, sb) = key(b);
+        ea.total_cmp(&eb).then(sa.total_cmp(&sb)).then(b.cmp(&a))
+    }) else {
+        return causes;
+    };
+    let others = causes.len() - 1;
+    let f = &mut sink.findings[slowest];
+    f.detail.push_str(&format!(
+        "; the slowest: {others} other residual{} falling faster",
+        if others == 1 { "" } else { "s" }
+    ));
+    vec![slowest]
 }
 
 /// A growing oscillation decides (`diverging`) when at least two series grow with the same

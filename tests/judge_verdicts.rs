@@ -1249,3 +1249,29 @@ fn the_same_log_read_at_once_or_line_by_line_gets_the_same_judgement() {
         assert_eq!(a.verdict, scenario.expected(), "{scenario}\n{}", explain(&a));
     }
 }
+
+#[test]
+fn a_converging_verdict_names_the_slowest_residual_and_counts_the_others() {
+    // Three residuals falling at 4, 2 and 1 decades per 1000 it, far from their 3-decade
+    // drop: the run converges only when the slowest gets there, so it alone is the cause;
+    // every trend stays among the findings.
+    let mut rng = Rng(512);
+    let n = 600;
+    let run = Run::new()
+        .add("Ux", Role::Residual, residual(&mut rng, n, 0.02, converging(4.0, -9.0)))
+        .add("p", Role::Residual, residual(&mut rng, n, 0.02, converging(1.0, -9.0)))
+        .add("k", Role::Residual, residual(&mut rng, n, 0.02, converging(2.0, -9.0)));
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converging, "{}", explain(&j));
+    assert_eq!(j.causes.len(), 1, "{}", explain(&j));
+    let cause = &j.findings[j.causes[0]];
+    assert_eq!(cause.series.as_deref(), Some("p"), "{}", explain(&j));
+    assert!(cause.detail.contains("2 other residuals falling faster"), "{}", cause.detail);
+    // The slowest by its estimate of iterations to target, which the cause states.
+    let eta = |s: &str| j.residuals.iter().find(|r| r.series == s).and_then(|r| r.eta_iterations);
+    let slowest = eta("p").expect("p has an estimate");
+    assert!(eta("Ux").is_some_and(|e| e < slowest) && eta("k").is_some_and(|e| e < slowest));
+    assert!(cause.detail.contains("iterations to reach"), "{}", cause.detail);
+    let trends = j.findings.iter().filter(|f| f.kind == FindingKind::Trend).count();
+    assert_eq!(trends, 3, "{}", explain(&j));
+}
