@@ -312,7 +312,8 @@ fn limiting_residual(sink: &mut Sink, causes: Vec<usize>) -> Vec<usize> {
 }
 
 /// A growing oscillation decides (`diverging`) when at least two series grow with the same
-/// period ([`limits::GROWTH_SAME_PERIOD`]); alone it stays a note.
+/// period ([`limits::GROWTH_SAME_PERIOD`]), or alone once it has grown a hundredfold
+/// (`health::growing_cycle`); otherwise it stays a note.
 fn corroborate_growth(sink: &mut Sink) {
     let growing: Vec<(usize, f64, Option<String>)> = sink
         .findings
@@ -327,7 +328,13 @@ fn corroborate_growth(sink: &mut Sink) {
             .filter(|(j, q, t)| j != i && t != s && (q - p).abs() <= limits::GROWTH_SAME_PERIOD * p)
             .count();
         let f = &mut sink.findings[*i];
-        if others > 0 {
+        if f.supports == Some(Verdict::Diverging) {
+            f.detail.push_str(if others > 0 {
+                "; grown a hundredfold, and other series grow with the same period: heading for divergence"
+            } else {
+                "; grown a hundredfold: heading for divergence"
+            });
+        } else if others > 0 {
             f.supports = Some(Verdict::Diverging);
             f.detail.push_str(&format!(
                 "; {others} other series grow with the same period: heading for divergence"

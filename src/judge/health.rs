@@ -238,7 +238,10 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
 /// ±[`OSC_MIN_RESIDUAL_DEC`] for residuals, a peak-to-peak amplitude of half the band limit
 /// for monitors (a growing cycle has not finished growing). The finding is pushed without a
 /// verdict: the judge makes it decide only when another series grows with the same period
-/// (an instability shows in the whole solution; a noisy stretch of one residual does not).
+/// (an instability shows in the whole solution; a noisy stretch of one residual does not),
+/// unless its amplitude has grown by [`BLOWUP_DEC`] decades over the window: a hundredfold
+/// growth of one component is a blow-up of it, which no noise in a steady cycle's amplitude
+/// reaches (the fourfold [`oscillation::GROWTH_MIN_RATIO`] is the bar for noise).
 pub fn growing_cycle(
     name: &str,
     v: &View<'_>,
@@ -288,6 +291,10 @@ pub fn growing_cycle(
         f.threshold = Some(1.0);
         f.p_value = Some(p.osc.p_value);
         f.period = Some(p.period);
+        // Grown by orders of magnitude (the BLOWUP_DEC reading of a blow-up), the cycle is
+        // no noisy stretch: it decides alone.
+        let alone = g.envelope.ratio >= 10f64.powf(BLOWUP_DEC);
+        f.supports = alone.then_some(Verdict::Diverging);
         f.detail = format!(
             "{name} oscillates with a period of {} iterations and its amplitude grows ×{} per cycle (×{} over the last {} iterations, now {amp_text})",
             num(p.period),
@@ -347,8 +354,7 @@ pub fn departure_growth(
         // Block medians of log10 departure, clamped at the noise.
         let mut its = Vec::new();
         let mut logs = Vec::new();
-        for (c_its, c_vals) in
-            win.its.chunks(DEPARTURE_BLOCK).zip(win.vals.chunks(DEPARTURE_BLOCK))
+        for (c_its, c_vals) in win.its.chunks(DEPARTURE_BLOCK).zip(win.vals.chunks(DEPARTURE_BLOCK))
         {
             if c_vals.len() < DEPARTURE_BLOCK {
                 continue;
@@ -380,8 +386,7 @@ pub fn departure_growth(
         let (kind, r) = scale::reference(base, mag.at(its[0]), rc.scale);
         let material = r > 0.0 && now >= DEPARTURE_MATERIAL * r;
         if t.rising() && rise >= EXP_GROWTH_DEC && keeps && material {
-            let mut f =
-                finding(FindingKind::BlowUp, name, t.first, t.last, DEPARTURE_STATISTIC);
+            let mut f = finding(FindingKind::BlowUp, name, t.first, t.last, DEPARTURE_STATISTIC);
             f.value = rise;
             f.threshold = Some(EXP_GROWTH_DEC);
             f.p_value = stats::t_two_sided_p(t.slope_dec_per_kit / t.se_dec_per_kit, t.dof);
