@@ -80,8 +80,7 @@ fn grown_line_by_line_or_read_at_once_the_judgement_is_the_same() {
             grown_log.apply(out);
             // The monitor file keeps pace with the log: its rows up to the log's last step.
             let upto = grown_log.last_iteration().unwrap_or(i64::MIN);
-            while csv_fed < csv.len() && csv_iteration(&csv[csv_fed]).is_none_or(|it| it <= upto)
-            {
+            while csv_fed < csv.len() && csv_iteration(&csv[csv_fed]).is_none_or(|it| it <= upto) {
                 let mut out = Vec::new();
                 cp.feed(csv[csv_fed].as_bytes(), &mut out);
                 grown_csv.apply(out);
