@@ -346,7 +346,8 @@ fn corroborate_growth(sink: &mut Sink) {
 }
 
 /// A monitor departing exponentially from its level ([`health::departure_growth`]) decides
-/// only while the residuals do not fall: when at least half of them fall significantly, the
+/// only while the residuals do not fall: when at least half of them still fall
+/// significantly towards their targets (a `converging` trend, criteria unmet), the
 /// iteration is contracting and the monitor is moving to the state it converges to (the
 /// exit from a pseudo-plateau), which an instability does not allow; one residual sliding in
 /// red noise does not count against it. The finding then stays, as a note.
