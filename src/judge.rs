@@ -50,7 +50,11 @@
 //!   exponential growth of ≥ 1 decade (2 in the start-up), 3 decades beyond the first values
 //!   while still shooting up, or (indicators) pinned at a maximum ≥ 5× the usual level.
 //!   Non-finite values after the start-up, or as the last value, are divergence. A growing
-//!   oscillation decides when two series grow with the same period.
+//!   oscillation decides when two series grow with the same period. A monitor whose
+//!   departure from its earlier level grows exponentially by a decade, not slowing down, to
+//!   a tenth of its reference is diverging while fewer than half the residuals fall
+//!   ([`health::departure_growth`]).
+//! * **Converging** names one cause: the residual that limits the estimate to target.
 //! * **Estimates to target** are dropped while anything argues for divergence.
 //! * **False convergence.** Residual criteria met while a monitor fails; the solver's own
 //!   end or `converged` mark while a monitor fails; a residual repeating one value 20 times
@@ -265,7 +269,10 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     }
     finish(&mut sink, first_it.unwrap_or(last), last);
 
-    let (verdict, since, causes) = verdict::decide(&sink.findings, &sink.criteria);
+    let (verdict, since, mut causes) = verdict::decide(&sink.findings, &sink.criteria);
+    if verdict == Verdict::Converging {
+        causes = limiting_residual(&mut sink, causes);
+    }
     Ok(Judgement {
         verdict,
         since: since.map(|s| s.min(last)),
@@ -278,8 +285,42 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     })
 }
 
+/// The cause of a `converging` verdict said concisely: of the falling residuals, the one
+/// that limits the estimate (the longest estimate of iterations to target; without
+/// estimates, the slowest fall), with a count of the others. The run converges only when
+/// its slowest residual gets there, so that is the one line worth reading; every trend
+/// stays among the findings (`check --json`, report).
+fn limiting_residual(sink: &mut Sink, causes: Vec<usize>) -> Vec<usize> {
+    if causes.len() < 2 {
+        return causes;
+    }
+    let eta = |i: usize| {
+        let series = sink.findings[i].series.as_deref();
+        sink.residuals
+            .iter()
+            .find(|r| Some(r.series.as_str()) == series)
+            .and_then(|r| r.eta_iterations)
+    };
+    let key = |i: usize| (eta(i).unwrap_or(f64::NEG_INFINITY), sink.findings[i].value);
+    let Some(&slowest) = causes.iter().max_by(|&&a, &&b| {
+        let (ea, sa) = key(a);
+        let (eb, sb) = key(b);
+        ea.total_cmp(&eb).then(sa.total_cmp(&sb)).then(b.cmp(&a))
+    }) else {
+        return causes;
+    };
+    let others = causes.len() - 1;
+    let f = &mut sink.findings[slowest];
+    f.detail.push_str(&format!(
+        "; the slowest: {others} other residual{} falling faster",
+        if others == 1 { "" } else { "s" }
+    ));
+    vec![slowest]
+}
+
 /// A growing oscillation decides (`diverging`) when at least two series grow with the same
-/// period ([`limits::GROWTH_SAME_PERIOD`]); alone it stays a note.
+/// period ([`limits::GROWTH_SAME_PERIOD`]), or alone once it has grown a hundredfold
+/// (`health::growing_cycle`); otherwise it stays a note.
 fn corroborate_growth(sink: &mut Sink) {
     let growing: Vec<(usize, f64, Option<String>)> = sink
         .findings
@@ -294,13 +335,45 @@ fn corroborate_growth(sink: &mut Sink) {
             .filter(|(j, q, t)| j != i && t != s && (q - p).abs() <= limits::GROWTH_SAME_PERIOD * p)
             .count();
         let f = &mut sink.findings[*i];
-        if others > 0 {
+        if f.supports == Some(Verdict::Diverging) {
+            f.detail.push_str(if others > 0 {
+                "; grown a hundredfold, and other series grow with the same period: heading for divergence"
+            } else {
+                "; grown a hundredfold: heading for divergence"
+            });
+        } else if others > 0 {
             f.supports = Some(Verdict::Diverging);
             f.detail.push_str(&format!(
                 "; {others} other series grow with the same period: heading for divergence"
             ));
         } else {
             f.detail.push_str("; no other series grows with it (noted, not deciding)");
+        }
+    }
+}
+
+/// A monitor departing exponentially from its level ([`health::departure_growth`]) decides
+/// only while the residuals do not fall: when at least half of them still fall
+/// significantly towards their targets (a `converging` trend, criteria unmet), the
+/// iteration is contracting and the monitor is moving to the state it converges to (the
+/// exit from a pseudo-plateau), which an instability does not allow; one residual sliding in
+/// red noise does not count against it. The finding then stays, as a note.
+fn departure_while_falling(sink: &mut Sink) {
+    let residuals = sink.residuals.len();
+    let falling = sink
+        .findings
+        .iter()
+        .filter(|f| f.kind == FindingKind::Trend && f.supports == Some(Verdict::Converging))
+        .count();
+    if residuals == 0 || 2 * falling < residuals {
+        return;
+    }
+    for f in &mut sink.findings {
+        if f.kind == FindingKind::BlowUp && f.statistic == health::DEPARTURE_STATISTIC {
+            f.supports = None;
+            f.detail.push_str(&format!(
+                "; {falling} of {residuals} residuals fall meanwhile: the solution moving to a new state (noted, not deciding)"
+            ));
         }
     }
 }
@@ -321,6 +394,7 @@ struct Failing {
 /// the data.
 fn finish(sink: &mut Sink, first: i64, last: i64) {
     corroborate_growth(sink);
+    departure_while_falling(sink);
     let diverging = sink.findings.iter().any(|f| f.supports == Some(Verdict::Diverging));
     if diverging {
         for r in &mut sink.residuals {

@@ -1250,3 +1250,124 @@ fn the_same_log_read_at_once_or_line_by_line_gets_the_same_judgement() {
         assert_eq!(a.verdict, scenario.expected(), "{scenario}\n{}", explain(&a));
     }
 }
+
+#[test]
+fn a_converging_verdict_names_the_slowest_residual_and_counts_the_others() {
+    // Three residuals falling at 4, 2 and 1 decades per 1000 it, far from their 3-decade
+    // drop: the run converges only when the slowest gets there, so it alone is the cause;
+    // every trend stays among the findings.
+    let mut rng = Rng(512);
+    let n = 600;
+    let run = Run::new()
+        .add("Ux", Role::Residual, residual(&mut rng, n, 0.02, converging(4.0, -9.0)))
+        .add("p", Role::Residual, residual(&mut rng, n, 0.02, converging(1.0, -9.0)))
+        .add("k", Role::Residual, residual(&mut rng, n, 0.02, converging(2.0, -9.0)));
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Converging, "{}", explain(&j));
+    assert_eq!(j.causes.len(), 1, "{}", explain(&j));
+    let cause = &j.findings[j.causes[0]];
+    assert_eq!(cause.series.as_deref(), Some("p"), "{}", explain(&j));
+    assert!(cause.detail.contains("2 other residuals falling faster"), "{}", cause.detail);
+    // The slowest by its estimate of iterations to target, which the cause states.
+    let eta = |s: &str| j.residuals.iter().find(|r| r.series == s).and_then(|r| r.eta_iterations);
+    let slowest = eta("p").expect("p has an estimate");
+    assert!(eta("Ux").is_some_and(|e| e < slowest) && eta("k").is_some_and(|e| e < slowest));
+    assert!(cause.detail.contains("iterations to reach"), "{}", cause.detail);
+    let trends = j.findings.iter().filter(|f| f.kind == FindingKind::Trend).count();
+    assert_eq!(trends, 3, "{}", explain(&j));
+}
+
+/// A monitor `1 + 10⁻³·e^{(i − 800)/τ}` from iteration 800 (an instability growing out of a
+/// steady state to ×11 at the end), with relative AR(1) noise of 10⁻⁴; its logarithm rises
+/// by about one decade, almost all of it in the last few hundred iterations.
+fn unstable_monitor(rng: &mut Rng, n: usize) -> Vec<f64> {
+    let tau = (n as f64 - 800.0) / (1e4f64).ln();
+    monitor(rng, n, 1e-4, |i| 1.0 + if i > 800.0 { 1e-3 * ((i - 800.0) / tau).exp() } else { 0.0 })
+}
+
+#[test]
+fn a_monitor_departing_exponentially_while_residuals_wander_is_diverging() {
+    // The residuals fell two decades and wander there (no drop of 3, no trend): only the
+    // monitor shows the instability, by the growth of its departure from its level.
+    let mut rng = Rng(733);
+    let n = 2000;
+    let wander = |i: f64| -2.0 * (1.0 - (-i / 150.0).exp());
+    let mut run = Run::new();
+    for name in ["Ux", "p", "k"] {
+        run = run.add(name, Role::Residual, residual(&mut rng, n, 0.05, wander));
+    }
+    let run = run.add("drag", Role::Monitor, unstable_monitor(&mut rng, n));
+    let j = run.judge();
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    let f = &j.findings[j.causes[0]];
+    assert_eq!((f.kind, f.statistic.as_str()), (FindingKind::BlowUp, "departure_growth_dec"));
+    // A decade at least above the noise, dated after the growth began.
+    assert!(f.value >= 1.0 && f.first > 800, "{}", explain(&j));
+}
+
+#[test]
+fn a_departing_monitor_while_the_residuals_fall_is_a_note_and_an_approach_is_nothing() {
+    // The same monitor while every residual still falls towards its target at 1 dec/kit:
+    // the iteration contracts, the departure is noted, not deciding.
+    let mut rng = Rng(734);
+    let n = 2000;
+    let mut run = Run::new();
+    for name in ["Ux", "p", "k"] {
+        run = run.add(name, Role::Residual, residual(&mut rng, n, 0.05, converging(1.0, -9.0)));
+    }
+    let j = run.add("drag", Role::Monitor, unstable_monitor(&mut rng, n)).judge();
+    let dep: Vec<_> = j.findings.iter().filter(|f| f.statistic == "departure_growth_dec").collect();
+    assert_eq!(dep.len(), 1, "{}", explain(&j));
+    assert_eq!(dep[0].supports, None, "{}", explain(&j));
+    assert!(dep[0].detail.contains("residuals fall meanwhile"), "{}", dep[0].detail);
+    // A monitor moving to a new level (+30 % with a decay time of 200 iterations from
+    // iteration 800) while the residuals wander: its departure rises ever more slowly.
+    let mut rng = Rng(735);
+    let wander = |i: f64| -2.0 * (1.0 - (-i / 150.0).exp());
+    let mut run = Run::new();
+    for name in ["Ux", "p", "k"] {
+        run = run.add(name, Role::Residual, residual(&mut rng, n, 0.05, wander));
+    }
+    let approach = monitor(&mut rng, n, 1e-4, |i| {
+        1.0 + if i > 800.0 { 0.3 * (1.0 - (-(i - 800.0) / 200.0).exp()) } else { 0.0 }
+    });
+    let j = run.add("drag", Role::Monitor, approach).judge();
+    assert!(j.findings.iter().all(|f| f.statistic != "departure_growth_dec"), "{}", explain(&j));
+    assert_ne!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+}
+
+/// Falling residuals and one monitor `1 + a·e^{(i−100)/τ}·sin(2πi/3)` from iteration 100 with
+/// `a = a0`, growing ×`per_cycle` every cycle, over `n` iterations.
+fn one_growing_cycle(seed: u64, n: usize, a0: f64, per_cycle: f64) -> Judgement {
+    let mut rng = Rng(seed);
+    let mut run = Run::new();
+    for name in ["Ux", "p"] {
+        run = run.add(name, Role::Residual, residual(&mut rng, n, 0.02, converging(4.0, -9.0)));
+    }
+    let rate = per_cycle.ln() / 3.0;
+    let cycle = monitor(&mut rng, n, 1e-6, |i| {
+        let a = if i > 100.0 { a0 * (rate * (i - 100.0)).exp() } else { 0.0 };
+        1.0 + a * (2.0 * std::f64::consts::PI * i / 3.0).sin()
+    });
+    run.add("lift", Role::Monitor, cycle).judge()
+}
+
+#[test]
+fn a_cycle_grown_a_hundredfold_decides_alone_a_smaller_growth_of_one_series_is_a_note() {
+    // ×1.4 per cycle from 10⁻⁸ (±0.7 % at the end): out of the 10⁻⁶ noise about ×200 over
+    // the last 50 iterations, material, one series only.
+    let j = one_growing_cycle(901, 220, 1e-8, 1.4);
+    assert_eq!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+    let f = &j.findings[j.causes[0]];
+    assert_eq!(f.kind, FindingKind::GrowingOscillation, "{}", explain(&j));
+    assert!((f.value - 1.4).abs() < 0.1, "growth per cycle {}", f.value);
+    assert!(f.detail.contains("grown a hundredfold"), "{}", f.detail);
+    // ×1.08 per cycle from 10⁻⁴ (±0.4 % at the end): some twentyfold over the windows it
+    // is looked for in; alone it is a note.
+    let j = one_growing_cycle(902, 240, 1e-4, 1.08);
+    let growing: Vec<_> =
+        j.findings.iter().filter(|f| f.kind == FindingKind::GrowingOscillation).collect();
+    assert!(!growing.is_empty(), "{}", explain(&j));
+    assert!(growing.iter().all(|f| f.supports.is_none()), "{}", explain(&j));
+    assert_ne!(j.verdict, Verdict::Diverging, "{}", explain(&j));
+}

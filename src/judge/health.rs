@@ -259,7 +259,10 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
 /// ±[`OSC_MIN_RESIDUAL_DEC`] for residuals, a peak-to-peak amplitude of half the band limit
 /// for monitors (a growing cycle has not finished growing). The finding is pushed without a
 /// verdict: the judge makes it decide only when another series grows with the same period
-/// (an instability shows in the whole solution; a noisy stretch of one residual does not).
+/// (an instability shows in the whole solution; a noisy stretch of one residual does not),
+/// unless its amplitude has grown by [`BLOWUP_DEC`] decades over the window: a hundredfold
+/// growth of one component is a blow-up of it, which no noise in a steady cycle's amplitude
+/// reaches (the fourfold [`oscillation::GROWTH_MIN_RATIO`] is the bar for noise).
 pub fn growing_cycle(
     name: &str,
     v: &View<'_>,
@@ -309,6 +312,10 @@ pub fn growing_cycle(
         f.threshold = Some(1.0);
         f.p_value = Some(p.osc.p_value);
         f.period = Some(p.period);
+        // Grown by orders of magnitude (the BLOWUP_DEC reading of a blow-up), the cycle is
+        // no noisy stretch: it decides alone.
+        let alone = g.envelope.ratio >= 10f64.powf(BLOWUP_DEC);
+        f.supports = alone.then_some(Verdict::Diverging);
         f.detail = format!(
             "{name} oscillates with a period of {} iterations and its amplitude grows ×{} per cycle (×{} over the last {} iterations, now {amp_text})",
             num(p.period),
@@ -318,6 +325,104 @@ pub fn growing_cycle(
         );
         sink.findings.push(f);
         return true;
+    }
+    false
+}
+
+/// The statistic of a [`departure_growth`] finding (the judge recognises it by this).
+pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
+
+/// An instability growing out of a steady state: a monitor's departure `|x − b|` from the
+/// level `b` it held at the start of the look-back grows exponentially, keeps its rate, and
+/// is already material. A small disturbance of a steady solution that the iteration
+/// amplifies grows like `e^{σt}` (the linear-stability picture), so its logarithm rises at
+/// a steady or growing rate; every healthy change of a monitor after its start-up is an
+/// approach to a level (`f + a·e^{−t/τ}`, or a drift), whose departure from an earlier level
+/// rises ever more slowly, and noise does not rise at all. [`blowup`] looks at `log|x|`,
+/// which stays flat until the disturbance reaches the monitor's own size: a monitor of level
+/// 1 growing to 10 moves `log|x|` by one decade only at the very end, while its departure has
+/// grown by four. The look-back is one, two and four evidence windows after the start-up
+/// (a slow instability needs more than one window to rise a decade above the noise). The
+/// departure is clamped below at the noise about `b` (median |x − b| over the first fifth)
+/// and its block medians of [`DEPARTURE_BLOCK`] values are looked at since they last stood
+/// within half a decade of that noise. It decides when their rise there is significant, at
+/// least [`EXP_GROWTH_DEC`] decade and not slowing down ([`EXP_GROWTH_KEEP`], thirds: an
+/// approach to a new level, `a·(1 − e^{−t/τ})`, and any polynomial drift rise ever more
+/// slowly in the logarithm, an exponential does not), and the last departure is at least
+/// [`DEPARTURE_MATERIAL`] of the monitor's reference ([`scale::reference`]). The judge keeps
+/// it from deciding while most residuals fall (`departure_while_falling` in the judge).
+/// Returns true when a finding was pushed.
+pub fn departure_growth(
+    name: &str,
+    v: &View<'_>,
+    rc: &Resolved,
+    mag: &Magnitude,
+    sink: &mut Sink,
+) -> bool {
+    let last_it = v.last_it();
+    let startup_end = series::startup_end(v.seg_first_it());
+    let w = rc.evidence();
+    for k in [1usize, 2, 4] {
+        let win = v.window_map(last_it, k * w, |x| x).from_iteration(startup_end);
+        if win.len() < 10 * DEPARTURE_BLOCK || (win.span() as f64) < 0.9 * (k * w) as f64 {
+            break;
+        }
+        let fifth = win.len() / 5;
+        let Some(base) = stats::median(&win.vals[..fifth]) else { continue };
+        let dev: Vec<f64> = win.vals[..fifth].iter().map(|x| (x - base).abs()).collect();
+        let noise = stats::median(&dev).unwrap_or(0.0);
+        let floor = if noise > 0.0 { noise } else { f64::MIN_POSITIVE };
+        // Block medians of log10 departure, clamped at the noise.
+        let mut its = Vec::new();
+        let mut logs = Vec::new();
+        for (c_its, c_vals) in win.its.chunks(DEPARTURE_BLOCK).zip(win.vals.chunks(DEPARTURE_BLOCK))
+        {
+            if c_vals.len() < DEPARTURE_BLOCK {
+                continue;
+            }
+            let d: Vec<f64> =
+                c_vals.iter().map(|x| ((x - base).abs().max(floor)).log10()).collect();
+            if let Some(m) = stats::median(&d) {
+                its.push(c_its[c_its.len() - 1]);
+                logs.push(m);
+            }
+        }
+        // The rise since the departure last stood near the noise (within half a decade):
+        // growth is judged only where it is measured, not where the clamp hides it.
+        let near_noise = floor.log10() + 0.5;
+        let start = logs.iter().rposition(|&l| l <= near_noise).map_or(0, |i| i + 1);
+        if logs.len() - start < 9 {
+            continue;
+        }
+        let (its, logs) = (&its[start..], &logs[start..]);
+        let Some(t) = trend::fit(its, logs) else { continue };
+        let span = its[its.len() - 1].saturating_sub(its[0]);
+        let rise = t.slope_dec_per_kit * span as f64 / 1000.0;
+        let third = logs.len() / 3;
+        let m = |r: std::ops::Range<usize>| stats::median(&logs[r]).unwrap_or(f64::NAN);
+        let (m1, m2, m3) = (m(0..third), m(third..2 * third), m(2 * third..logs.len()));
+        let keeps = m2 > m1 && m3 > m2 && (m3 - m2) >= EXP_GROWTH_KEEP * (m2 - m1);
+        let now = 10f64.powf(logs[logs.len() - 1]);
+        // The reference the drift and band limits use, at the start of the look-back.
+        let (kind, r) = scale::reference(base, mag.at(its[0]), rc.scale);
+        let material = r > 0.0 && now >= DEPARTURE_MATERIAL * r;
+        if t.rising() && rise >= EXP_GROWTH_DEC && keeps && material {
+            let mut f = finding(FindingKind::BlowUp, name, t.first, t.last, DEPARTURE_STATISTIC);
+            f.value = rise;
+            f.threshold = Some(EXP_GROWTH_DEC);
+            f.p_value = stats::t_two_sided_p(t.slope_dec_per_kit / t.se_dec_per_kit, t.dof);
+            f.supports = Some(Verdict::Diverging);
+            f.detail = format!(
+                "{name} departs from its level {} exponentially: the departure grew {} decades above its noise over the last {} iterations, not slowing down, and is now {} {}",
+                num(base),
+                dec(rise),
+                span,
+                pct(super::stationarity::relative_pct(now, r)),
+                scale::describe(kind, r),
+            );
+            sink.findings.push(f);
+            return true;
+        }
     }
     false
 }

@@ -93,6 +93,15 @@ pub const BLOWUP_DEC: f64 = 2.0;
 /// in decades, significantly positive and not slowing down (ours).
 pub const EXP_GROWTH_DEC: f64 = 1.0;
 
+/// Values per block median of a monitor's departure from its level ([`super::health::departure_growth`]):
+/// ten values, so that noise and zero crossings do not count (ours).
+pub const DEPARTURE_BLOCK: usize = 10;
+
+/// A monitor's exponentially growing departure from its level decides once it is at least
+/// this share of the monitor's reference: a tenth, twenty times the default band limit, a
+/// change no healthy monitor makes after its start-up and far beyond any noise (ours).
+pub const DEPARTURE_MATERIAL: f64 = 0.1;
+
 /// The same during the start-up, where a quantity may move from its initial guess by a
 /// modest factor: two decades (ours).
 pub const STARTUP_EXP_GROWTH_DEC: f64 = 2.0;

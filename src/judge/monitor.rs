@@ -272,7 +272,9 @@ pub fn analyse(
         });
         return MonitorFacts { drift_pct: f64::NAN, ..Default::default() };
     }
-    health::blowup(name, v, rc.evidence(), false, sink);
+    if !health::blowup(name, v, rc.evidence(), false, sink) {
+        health::departure_growth(name, v, rc, mag, sink);
+    }
     let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP);
 
     let per = periodic(v, rc);

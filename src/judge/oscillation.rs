@@ -81,14 +81,16 @@ impl Periodic {
         self.share > DOMINANT_SHARE
     }
 
-    /// The amplitude shrinks: it halves within `horizon` iterations with significance, or
-    /// within half of it at all (the burden of proof lies with "it lasts"), over the window
-    /// or over the longer look-back.
+    /// The amplitude shrinks: as measured, it halves within `horizon` iterations (the window
+    /// the criteria look at), over the window or over the longer look-back. The burden of
+    /// proof lies with "it lasts": a cycle whose measured decay would halve it before the
+    /// criteria window has passed is settling, significant or not; on few cycles the decay
+    /// is rarely significant, and calling such a ring-down `oscillating` sends the user after
+    /// a cycle that is dying out.
     pub fn ring_down(&self, horizon: f64) -> bool {
         let decays = |e: &Envelope| {
             let half_life = std::f64::consts::LN_2 / -e.slope_per_iteration;
-            half_life > 0.0
-                && (half_life <= 0.5 * horizon || (e.ci.1 < 0.0 && half_life <= horizon))
+            half_life > 0.0 && half_life <= horizon
         };
         self.envelope.as_ref().is_some_and(decays)
             || self.envelope_long.as_ref().is_some_and(decays)
