@@ -402,9 +402,27 @@ pub fn finding_text(f: &Finding, ascii: bool) -> String {
 }
 
 /// A criterion's value with its unit (`6.92 dec`, `0.029 %`, `n/a`).
+/// A criterion's value to three significant digits, unless rounding would make it read as
+/// the other side of its threshold (an unmet drop of 2.996 dec shown as `3 dec` beside
+/// `>= 3`): then the judge's own wording, rounded towards the verdict it reached.
 fn value_text(c: &CriterionResult) -> String {
     let unit = if c.unit.is_empty() { String::new() } else { format!(" {}", c.unit) };
-    if c.value.is_nan() { "n/a".into() } else { format!("{}{unit}", number::value(c.value)) }
+    if c.value.is_nan() {
+        return "n/a".into();
+    }
+    if c.value.is_infinite() {
+        return format!("{}{unit}", c.value_text());
+    }
+    let short = number::value(c.value);
+    let shown_met = short.parse::<f64>().ok().map(|v| match c.comparison {
+        Comparison::AtLeast => v >= c.threshold,
+        Comparison::AtMost => v <= c.threshold,
+    });
+    if shown_met.is_some_and(|m| m != c.met) {
+        format!("{}{unit}", c.value_text())
+    } else {
+        format!("{short}{unit}")
+    }
 }
 
 /// Rows of the checklist: failing criteria first, least met first, then the met ones in the
@@ -517,5 +535,21 @@ mod tests {
         assert_eq!(names, ["far", "near", "met1", "met2"]);
         assert_eq!(rows[0].rule, "x ≤ 0.1");
         assert_eq!(rows[0].value, "0.5");
+    }
+
+    #[test]
+    fn rounding_never_shows_a_value_on_the_other_side_of_its_threshold() {
+        let mut unmet = c("Uy", Comparison::AtLeast, 3.0, 2.9996, false);
+        unmet.unit = "dec".into();
+        assert_eq!(value_text(&unmet), "2.99 dec", "three digits would read 3 dec, met");
+        let mut met = c("drag", Comparison::AtMost, 0.1, 0.10004, true);
+        met.value = 0.09996;
+        met.unit = "%".into();
+        assert_eq!(value_text(&met), "0.1 %", "three digits agree with the verdict here");
+        let mut over = c("drag", Comparison::AtMost, 0.1, 0.10004, false);
+        over.unit = "%".into();
+        assert_eq!(value_text(&over), "0.101 %");
+        let plain = c("Ux", Comparison::AtLeast, 3.0, 3.4567, true);
+        assert_eq!(value_text(&plain), "3.46");
     }
 }
