@@ -9,7 +9,8 @@
 //!   near-zero monitor, round-off monitors not judged, ETA range) and
 //!   [`evidence::no_verdict_reason`], the one wording of why a run has nothing to judge;
 //! * [`headless`]: the status, state and JSON lines of `watch --headless` (the loop that
-//!   prints them is `crate::watch::headless`).
+//!   prints them is `crate::watch::headless`);
+//! * [`time`]: the one spelling of wall-clock times (RFC 3339, UTC).
 //!
 //! The live panels live in `tui`, the documents in `report`; both format through this module
 //! so a number reads the same everywhere.
@@ -20,4 +21,5 @@ pub mod headless;
 pub mod number;
 pub mod parse;
 pub mod parsers;
+pub mod time;
 pub mod words;

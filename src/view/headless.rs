@@ -43,13 +43,14 @@ pub use state::{
     RunState, STOPPED_NOTE, StateReport, json_state_line, nothing_state, run_state, state_line,
 };
 
-use std::time::{Duration, Instant, SystemTime, UNIX_EPOCH};
+use std::time::{Duration, Instant, SystemTime};
 
 use serde::Serialize;
 
 use crate::judge::{
     Comparison, CriterionResult, Finding, FindingKind, Judgement, ResidualSummary, Verdict,
 };
+use crate::view::time::format_utc;
 use crate::view::{evidence, words};
 
 /// Why a JSON line was written.
@@ -190,7 +191,7 @@ pub fn status_line_read(
     last_growth_age: Option<Duration>,
     now: SystemTime,
 ) -> String {
-    let mut head = format!("{} {} {}", rfc3339(now), run, j.verdict);
+    let mut head = format!("{} {} {}", format_utc(now), run, j.verdict);
     if let (Some(s), true) = (j.since, j.verdict != Verdict::Converging) {
         head.push_str(&format!(" since it {s}"));
     }
@@ -235,7 +236,7 @@ pub fn status_line_read(
 
 /// The plain line of an action audit entry.
 pub fn action_line(run: &str, f: &Finding, now: SystemTime) -> String {
-    clean(&format!("{} {} action | {}", rfc3339(now), run, f.detail))
+    clean(&format!("{} {} action | {}", format_utc(now), run, f.detail))
 }
 
 #[derive(Serialize)]
@@ -307,7 +308,7 @@ pub fn json_line_read(
 ) -> String {
     let finite = |v: f64| v.is_finite().then_some(v);
     let line = JsonStatus {
-        time: rfc3339(now),
+        time: format_utc(now),
         event: event.as_str(),
         run,
         verdict: j.verdict,
@@ -349,7 +350,7 @@ pub fn json_line_read(
 /// An action audit entry as one JSON object (`event` = `action`).
 pub fn json_action_line(run: &str, f: &Finding, now: SystemTime) -> String {
     to_json(&JsonAction {
-        time: rfc3339(now),
+        time: format_utc(now),
         event: HeadlessEvent::Action.as_str(),
         run,
         iteration: f.last,
@@ -470,33 +471,6 @@ pub fn clean(s: &str) -> String {
         }
     }
     out
-}
-
-/// UTC time as RFC 3339 to the second: `2026-12-01T10:04:11Z`.
-pub fn rfc3339(t: SystemTime) -> String {
-    let secs: i64 = match t.duration_since(UNIX_EPOCH) {
-        Ok(d) => i64::try_from(d.as_secs()).unwrap_or(i64::MAX),
-        Err(e) => -i64::try_from(e.duration().as_secs_f64().ceil() as u64).unwrap_or(i64::MAX),
-    };
-    let days = secs.div_euclid(86_400);
-    let sod = secs.rem_euclid(86_400);
-    let (y, m, d) = civil_from_days(days);
-    format!("{y:04}-{m:02}-{d:02}T{:02}:{:02}:{:02}Z", sod / 3600, sod % 3600 / 60, sod % 60)
-}
-
-/// Proleptic Gregorian date of a day count since 1970-01-01 (H. Hinnant, "chrono-Compatible
-/// Low-Level Date Algorithms", `civil_from_days`).
-fn civil_from_days(z: i64) -> (i64, u32, u32) {
-    let z = z + 719_468;
-    let era = z.div_euclid(146_097);
-    let doe = z.rem_euclid(146_097);
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = (doy - (153 * mp + 2) / 5 + 1) as u32;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32;
-    let y = yoe + era * 400 + i64::from(m <= 2);
-    (y, m, d)
 }
 
 #[cfg(test)]

@@ -21,7 +21,7 @@ use std::time::{Duration, SystemTime};
 
 use serde::Serialize;
 
-use super::{HeadlessEvent, clean, fmt_age, rfc3339, to_json};
+use super::{HeadlessEvent, clean, fmt_age, format_utc, to_json};
 use crate::follow::note;
 use crate::judge::NothingToJudge;
 use crate::run::ingest::SourceActivity;
@@ -200,7 +200,7 @@ pub fn state_line(
     last_growth_age: Option<Duration>,
     now: SystemTime,
 ) -> String {
-    let mut parts = vec![format!("{} {} {}", rfc3339(now), run, s.state.as_str())];
+    let mut parts = vec![format!("{} {} {}", format_utc(now), run, s.state.as_str())];
     match s.state {
         RunState::Reading { percent } => parts.push(format!("{percent} % read")),
         RunState::NothingToJudge => parts.push("no verdict".into()),
@@ -233,7 +233,7 @@ pub fn json_state_line(
     event: HeadlessEvent,
 ) -> String {
     to_json(&JsonState {
-        time: rfc3339(now),
+        time: format_utc(now),
         event: event.as_str(),
         run,
         state: s.state.as_str(),
