@@ -38,3 +38,33 @@ fn civil_from_days(days: i64) -> (i64, u32, u32) {
     let y = yoe + era * 400 + i64::from(m <= 2);
     (y, m, d)
 }
+
+#[cfg(test)]
+mod tests {
+    use std::time::Duration;
+
+    use super::*;
+
+    fn at(secs: i64) -> SystemTime {
+        if secs >= 0 {
+            UNIX_EPOCH + Duration::from_secs(secs as u64)
+        } else {
+            UNIX_EPOCH - Duration::from_secs(secs.unsigned_abs())
+        }
+    }
+
+    #[test]
+    fn utc_formatting_matches_gnu_date() {
+        // Expected strings produced with GNU `date -u -d @SECONDS +%FT%TZ`.
+        assert_eq!(format_utc(at(0)), "1970-01-01T00:00:00Z");
+        assert_eq!(format_utc(at(1_234_567_890)), "2009-02-13T23:31:30Z");
+        assert_eq!(format_utc(at(951_782_400)), "2000-02-29T00:00:00Z");
+        assert_eq!(format_utc(at(951_868_800)), "2000-03-01T00:00:00Z");
+        assert_eq!(format_utc(at(4_107_542_399)), "2100-02-28T23:59:59Z");
+        assert_eq!(format_utc(at(4_107_542_400)), "2100-03-01T00:00:00Z");
+        assert_eq!(format_utc(at(1_796_119_451)), "2026-12-01T10:04:11Z");
+        assert_eq!(format_utc(at(-1)), "1969-12-31T23:59:59Z");
+        assert_eq!(format_utc(at(-86_400 * 365)), "1969-01-01T00:00:00Z");
+        assert_eq!(format_utc(UNIX_EPOCH - Duration::from_millis(500)), "1969-12-31T23:59:59Z");
+    }
+}
