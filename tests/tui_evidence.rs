@@ -14,8 +14,6 @@ use std::sync::Arc;
 use std::time::{Duration, SystemTime};
 
 use crossterm::event::{KeyCode, KeyEvent};
-use ratatui::Terminal;
-use ratatui::backend::TestBackend;
 
 use settle::judge::{Criteria, FindingKind, Reference, SeriesCriteria, Verdict};
 use settle::record::Role;
@@ -23,24 +21,16 @@ use settle::run::ingest::SourceActivity;
 use settle::run::{RunStore, SourceStore};
 use settle::synth::{self, Options, Scenario};
 use settle::tui::theme::Theme;
-use settle::tui::{App, LiveRun, TuiOptions, farewell, render};
+use settle::tui::{App, LiveRun, TuiOptions, farewell};
+
+#[path = "support/screen.rs"]
+mod support;
+use support::{screen, squeeze};
 
 const SIZES: [(u16, u16); 2] = [(80, 24), (120, 40)];
 
 fn t0() -> SystemTime {
     SystemTime::UNIX_EPOCH + Duration::from_secs(1_700_000_000)
-}
-
-fn screen(app: &mut App, w: u16, h: u16) -> Vec<String> {
-    app.resize(w, h);
-    let mut term = Terminal::new(TestBackend::new(w, h)).expect("test backend");
-    term.draw(|f| render(app, f)).expect("draw");
-    let buf = term.backend().buffer().clone();
-    (0..h).map(|y| (0..w).map(|x| buf[(x, y)].symbol().to_string()).collect::<String>()).collect()
-}
-
-fn squeeze(s: &str) -> String {
-    s.split_whitespace().collect::<Vec<_>>().join(" ")
 }
 
 /// The near-zero scenario written as tarn writes it (log + force CSV), read and judged as

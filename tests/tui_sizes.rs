@@ -10,16 +10,18 @@ use std::sync::Arc;
 use std::time::{Duration, SystemTime};
 
 use crossterm::event::{KeyCode, KeyEvent};
-use ratatui::Terminal;
-use ratatui::backend::TestBackend;
 
 use settle::judge::{Comparison, Judgement};
 use settle::run::ingest::SourceActivity;
 use settle::tui::sanitize::sanitized;
 use settle::tui::theme::{Glyphs, Theme};
-use settle::tui::{App, LiveRun, TuiOptions, render};
+use settle::tui::{App, LiveRun, TuiOptions};
 use settle::view::number;
 use settle::view::words::without_backticks;
+
+#[path = "support/screen.rs"]
+mod support;
+use support::{screen, squeeze};
 
 const SIZES: [(u16, u16); 3] = [(80, 24), (100, 30), (200, 50)];
 
@@ -50,22 +52,10 @@ fn modes() -> [(&'static str, Theme); 3] {
     ]
 }
 
-fn screen(app: &mut App, w: u16, h: u16) -> Vec<String> {
-    app.resize(w, h);
-    let mut term = Terminal::new(TestBackend::new(w, h)).expect("test backend");
-    term.draw(|f| render(app, f)).expect("draw");
-    let buf = term.backend().buffer().clone();
-    (0..h).map(|y| (0..w).map(|x| buf[(x, y)].symbol().to_string()).collect::<String>()).collect()
-}
-
 fn dump(name: &str, lines: &[String]) {
     if let Some(dir) = std::env::var_os("SETTLE_SCREEN_DUMP") {
         let _ = std::fs::write(Path::new(&dir).join(format!("{name}.txt")), lines.join("\n"));
     }
-}
-
-fn squeeze(s: &str) -> String {
-    s.split_whitespace().collect::<Vec<_>>().join(" ")
 }
 
 /// The text of the why rows: from the second screen row to the first panel border.
