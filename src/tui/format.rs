@@ -7,6 +7,8 @@
 
 use std::time::Duration;
 
+use crate::view::number::{non_finite, trim};
+
 /// An iteration number with a space every three digits (`4 870`, `1 204 311`).
 pub fn iteration(it: i64) -> String {
     let digits = it.unsigned_abs().to_string();
@@ -47,7 +49,7 @@ pub fn value(v: f64) -> String {
     if (1e-3..1e6).contains(&a) {
         let decimals = (4 - a.log10().floor() as i32).clamp(0, 8) as usize;
         let s = format!("{v:.decimals$}");
-        trim_zeros(&s)
+        trim(&s)
     } else {
         format!("{v:.4e}")
     }
@@ -71,25 +73,7 @@ pub fn short(v: f64) -> String {
     } else {
         format!("{v:.3}")
     };
-    trim_zeros(&s)
-}
-
-fn trim_zeros(s: &str) -> String {
-    if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        s.to_string()
-    }
-}
-
-fn non_finite(v: f64) -> String {
-    if v.is_nan() {
-        "nan".into()
-    } else if v > 0.0 {
-        "inf".into()
-    } else {
-        "-inf".into()
-    }
+    trim(&s)
 }
 
 /// A compact age: `12s`, `4m`, `2h`, `3d`.

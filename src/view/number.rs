@@ -174,7 +174,8 @@ fn sci(v: f64, decimals: usize, trim_zeros: bool) -> String {
     }
 }
 
-fn trim(s: &str) -> String {
+/// `s` without trailing zeros after a decimal point (`1.500` → `1.5`, `2.0` → `2`).
+pub(crate) fn trim(s: &str) -> String {
     if s.contains('.') {
         s.trim_end_matches('0').trim_end_matches('.').to_string()
     } else {
@@ -182,7 +183,8 @@ fn trim(s: &str) -> String {
     }
 }
 
-fn non_finite(v: f64) -> String {
+/// `nan`, `inf` or `-inf`: how every view spells a value that is not finite.
+pub(crate) fn non_finite(v: f64) -> String {
     if v.is_nan() {
         "nan".into()
     } else if v > 0.0 {
