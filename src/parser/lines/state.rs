@@ -289,6 +289,16 @@ impl State {
         result.and(self.take_values(prog, r, line, false, out))
     }
 
+    /// Whether value or event rule `r` reads `line`: its `after` anchor (if any) was seen in
+    /// this record's scope, and its pattern matches (capture locations left in its `locs`).
+    fn anchored_match(&mut self, prog: &LinesProgram, r: usize, line: &[u8], ws: usize) -> bool {
+        let rule = &prog.rules[r];
+        if rule.after.is_some_and(|a| self.anchor_seen[a] != self.scope) {
+            return false;
+        }
+        rule.matcher.find(line, ws, &mut self.rules[r].locs)
+    }
+
     fn value_rule(
         &mut self,
         prog: &LinesProgram,
@@ -297,15 +307,10 @@ impl State {
         ws: usize,
         out: &mut dyn Sink,
     ) -> LineUse {
+        if !self.anchored_match(prog, r, line, ws) {
+            return LineUse::Ignored;
+        }
         let rule = &prog.rules[r];
-        if let Some(a) = rule.after
-            && self.anchor_seen[a] != self.scope
-        {
-            return LineUse::Ignored;
-        }
-        if !rule.matcher.find(line, ws, &mut self.rules[r].locs) {
-            return LineUse::Ignored;
-        }
         let next = rule.attach == Attach::Next;
         if !next && self.open.is_none() {
             return self.fail(Failure::NoRecord { rule: r });
@@ -398,16 +403,11 @@ impl State {
         ws: usize,
         out: &mut dyn Sink,
     ) -> LineUse {
+        if !self.anchored_match(prog, r, line, ws) {
+            return LineUse::Ignored;
+        }
         let rule = &prog.rules[r];
-        if let Some(a) = rule.after
-            && self.anchor_seen[a] != self.scope
-        {
-            return LineUse::Ignored;
-        }
         let rs = &mut self.rules[r];
-        if !rule.matcher.find(line, ws, &mut rs.locs) {
-            return LineUse::Ignored;
-        }
         if rule.repeat == Repeat::First {
             if rs.fired_scope == self.scope {
                 return LineUse::Used;
