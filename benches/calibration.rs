@@ -14,35 +14,9 @@ use std::time::Instant;
 
 use settle::judge::{spectrum, stationarity, trend};
 
-/// SplitMix64 uniforms and Box–Muller normals.
-struct Rng(u64);
-
-impl Rng {
-    fn uniform(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^= z >> 31;
-        ((z >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-    }
-
-    fn normal(&mut self) -> f64 {
-        let (u, v) = (self.uniform(), self.uniform());
-        (-2.0 * u.ln()).sqrt() * (2.0 * std::f64::consts::PI * v).cos()
-    }
-
-    /// Stationary AR(1) with unit innovations.
-    fn ar1(&mut self, n: usize, phi: f64) -> Vec<f64> {
-        let mut x = self.normal() / (1.0 - phi * phi).sqrt();
-        (0..n)
-            .map(|_| {
-                x = phi * x + self.normal();
-                x
-            })
-            .collect()
-    }
-}
+#[path = "../tests/support/rng.rs"]
+mod rng;
+use rng::Rng;
 
 fn seed(kind: u64, n: usize, phi: f64) -> u64 {
     kind * 1_000_003 + n as u64 * 7919 + (phi * 1000.0).round() as u64

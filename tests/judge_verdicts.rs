@@ -11,46 +11,19 @@ use settle::judge::{
 };
 use settle::record::{Event, Role, Severity};
 
-/// SplitMix64 uniforms and Box–Muller normals.
-struct Rng(u64);
-
-impl Rng {
-    fn uniform(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^= z >> 31;
-        ((z >> 11) as f64 + 0.5) / (1u64 << 53) as f64
-    }
-
-    fn normal(&mut self) -> f64 {
-        let (u, v) = (self.uniform(), self.uniform());
-        (-2.0 * u.ln()).sqrt() * (2.0 * std::f64::consts::PI * v).cos()
-    }
-
-    /// AR(1) noise with marginal SD `sd`.
-    fn ar1(&mut self, n: usize, phi: f64, sd: f64) -> Vec<f64> {
-        let innov = sd * (1.0 - phi * phi).sqrt();
-        let mut x = sd * self.normal();
-        (0..n)
-            .map(|_| {
-                x = phi * x + innov * self.normal();
-                x
-            })
-            .collect()
-    }
-}
+#[path = "support/rng.rs"]
+mod rng;
+use rng::Rng;
 
 /// A residual `10^(level(i) + noise)`, noise in decades.
 fn residual(rng: &mut Rng, n: usize, noise_dec: f64, level: impl Fn(f64) -> f64) -> Vec<f64> {
-    let e = rng.ar1(n, 0.8, noise_dec);
+    let e = rng.ar1_sd(n, 0.8, noise_dec);
     (0..n).map(|i| 10f64.powf(level(i as f64) + e[i])).collect()
 }
 
 /// A monitor `mean(i)·(1 + noise)`, relative noise.
 fn monitor(rng: &mut Rng, n: usize, rel_noise: f64, mean: impl Fn(f64) -> f64) -> Vec<f64> {
-    let e = rng.ar1(n, 0.9, rel_noise);
+    let e = rng.ar1_sd(n, 0.9, rel_noise);
     (0..n).map(|i| mean(i as f64) * (1.0 + e[i])).collect()
 }
 
@@ -1009,7 +982,7 @@ fn a_zero_mean_monitor_is_judged_against_its_own_magnitude() {
     let mut rng = Rng(350);
     let n = 3000;
     let cs = monitor(&mut rng, n, 1.0, |_| 0.0);
-    let e = rng.ar1(n, 0.9, 2e-6);
+    let e = rng.ar1_sd(n, 0.9, 2e-6);
     let cs: Vec<f64> =
         cs.iter().enumerate().map(|(i, _)| 0.2 * (-(i as f64) / 100.0).exp() + e[i]).collect();
     let run = Run::new()
@@ -1103,7 +1076,7 @@ fn a_high_residual_stall_with_a_weak_peak_is_stalled_with_the_ripple_as_a_note()
     // period-12 component of ±0.03 decades.
     let mut rng = Rng(390);
     let n = 3000;
-    let noise = rng.ar1(n, 0.7, 0.1);
+    let noise = rng.ar1_sd(n, 0.7, 0.1);
     let res: Vec<f64> = (0..n)
         .map(|i| {
             let w = 0.03 * (2.0 * std::f64::consts::PI * i as f64 / 12.0).sin();
