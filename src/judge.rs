@@ -30,6 +30,8 @@
 //!   configured `W` (default 500) and half of a short segment, the part after the start-up
 //!   transient (MSER-5, or where a monitor still on its way comes within tolerance), at
 //!   least 50 iterations and two periods of a cycle; an explicit `window` is used as given.
+//!   A segment restarted from a checkpoint keeps the run's age but is not judged until it
+//!   holds half the upper window ([`window::required`]).
 //!   The stall, divergence, oscillation and blow-up tests use an evidence window of
 //!   `max(W, 500)` ([`limits::MIN_EVIDENCE_WINDOW`]). The first 200 iterations of a segment
 //!   are its start-up ([`series::STARTUP_ITERATIONS`]): a rise of a decade or two there is
@@ -37,13 +39,14 @@
 //! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
 //!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (a live
 //!   run) or the evidence window (a finished one) has a 95 % upper bound not below −0.1
-//!   dec/kit. Divergence: a significant rise of ≥ 1 decade over the evidence window, of ≥ 2
+//!   dec/kit, and (live) its last quarter has not fallen significantly below the plateau.
+//!   Divergence: a significant rise of ≥ 1 decade over the evidence window, of ≥ 2
 //!   decades over its last fifth, 3 decades above the running minimum, or — any time — 3
 //!   decades beyond the first values while still shooting up. Oscillation: Fisher's g at 1 %,
 //!   dominant, lasting, ≥ 0.05 decades, six cycles in view; it decides when the residual is
 //!   not falling and its criteria fail (also when met only at a trough).
 //! * **Monitors.** Drift = the larger of the trend's change over the window and the change
-//!   it still projects; band = max − min; both relative to the reference ([`scale`]) or
+//!   it still projects, both read with a significant cycle taken out; band = max − min; both relative to the reference ([`scale`]) or
 //!   absolute. An oscillation decides when drift or band fail, it dominates and lasts, and
 //!   its peak-to-peak amplitude alone reaches the band limit.
 //! * **Blow-up** (monitors and indicators): 2 decades above the reference level, sustained
@@ -54,6 +57,9 @@
 //!   departure from its earlier level grows exponentially by a decade, not slowing down, to
 //!   a tenth of its reference is diverging while fewer than half the residuals fall
 //!   ([`health::departure_growth`]).
+//! * **Converged** needs every criterion met and, while the run goes on, held for a tenth
+//!   of the upper window ([`window::hold`]); until then a `holding` finding is the one cause
+//!   of `converging`.
 //! * **Converging** names one cause: the residual that limits the estimate to target.
 //! * **Estimates to target** are dropped while anything argues for divergence.
 //! * **False convergence.** Residual criteria met while a monitor fails; the solver's own
@@ -267,11 +273,22 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         );
         sink.findings.push(f);
     }
+    if !input.ended {
+        let age = last.saturating_sub(first_it.unwrap_or(last)).saturating_add(1);
+        let explicit = criteria.window.is_some();
+        hold_back(window::hold(window, explicit, age), last, &mut sink);
+    }
     finish(&mut sink, first_it.unwrap_or(last), last);
 
     let (verdict, since, mut causes) = verdict::decide(&sink.findings, &sink.criteria);
     if verdict == Verdict::Converging {
-        causes = limiting_residual(&mut sink, causes);
+        // Criteria met but not yet held: that is the one thing between the run and
+        // `converged`.
+        let holding = sink.findings.iter().position(|f| f.kind == FindingKind::Holding);
+        causes = match holding {
+            Some(i) => vec![i],
+            None => limiting_residual(&mut sink, causes),
+        };
     }
     Ok(Judgement {
         verdict,
@@ -283,6 +300,37 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         monitors: sink.monitors,
         iterations: last,
     })
+}
+
+/// When every criterion holds but not all of them yet for `hold` iterations
+/// ([`window::hold`]), a finding that keeps the verdict at `converging` and says from when
+/// the run will be `converged` if nothing changes. Only while the run goes on: the hold
+/// guards the decision to stop a run on a statistic that has just crossed its limit; a
+/// finished run (end-of-run mark) is judged on its final state, and a solver that stops on
+/// its own residual target stops at the first iteration below it.
+fn hold_back(hold: i64, last: i64, sink: &mut Sink) {
+    if sink.criteria.is_empty() || !sink.criteria.iter().all(|c| c.met) {
+        return;
+    }
+    let Some(latest) =
+        sink.criteria.iter().filter_map(|c| c.since.map(|s| (s, c))).max_by_key(|(s, _)| *s)
+    else {
+        return;
+    };
+    let (since, c) = latest;
+    if since <= last.saturating_sub(hold) {
+        return;
+    }
+    let what = format!("{} {}", c.series, c.name);
+    let mut f = finding(FindingKind::Holding, &c.series, since, last, "held_iterations");
+    f.value = last.saturating_sub(since) as f64;
+    f.threshold = Some(hold as f64);
+    f.supports = Some(Verdict::Converging);
+    f.detail = format!(
+        "every criterion is met, {what} only since it {since}: converged once they have held for {hold} iterations (at it {})",
+        since.saturating_add(hold)
+    );
+    sink.findings.push(f);
 }
 
 /// The cause of a `converging` verdict said concisely: of the falling residuals, the one

@@ -440,6 +440,34 @@ fn sweep_count_pinned_at_its_limit_is_diverging() {
 }
 
 #[test]
+fn a_plateau_that_falls_again_is_no_stall_while_the_run_goes_on() {
+    // Synthetic: falls at 2.5 dec/kit to it 300, flat until it 1000 (a pseudo-plateau of 700
+    // iterations), then falls again at the same rate. At it 1150 the 800-iteration stall
+    // window is mostly plateau and, on this seed, its slope alone does not show the fall
+    // (without the rule both are `stalled`); its last quarter has fallen below the plateau.
+    let level = |i: f64| {
+        let flat = (i.min(1000.0) - 300.0).max(0.0);
+        0.5 - 2.5 * (i - 40.0).max(0.0) / 1000.0 + 2.5 * flat / 1000.0
+    };
+    let run = |seed: u64, n: usize, noise: f64, level: &dyn Fn(f64) -> f64| {
+        let mut rng = Rng(seed);
+        let res = residual(&mut rng, n, noise, level);
+        let cd = monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0));
+        Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd).judge()
+    };
+    for noise in [0.05, 0.1] {
+        let j = run(63, 1150, noise, &level);
+        assert_eq!(j.verdict, Verdict::Converging, "noise {noise}\n{}", explain(&j));
+    }
+    // Still flat at the end: stalled.
+    let j = run(63, 1150, 0.05, &|i: f64| level(i.min(1000.0)));
+    assert_eq!(j.verdict, Verdict::Stalled, "{}", explain(&j));
+    // The limit of the rule: 100 iterations after the plateau, in noise of 0.1 decades, the
+    // new fall is not yet told from the plateau's wander (seed 60).
+    assert_eq!(run(60, 1100, 0.1, &level).verdict, Verdict::Stalled);
+}
+
+#[test]
 fn stalled_run_ending_at_its_iteration_limit_stays_stalled() {
     // Synthetic: a plateau 1.4 decades short of the drop, drag still drifting, and the
     // solver's end-of-run mark at its iteration limit. Ending claims nothing here: the run is

@@ -15,8 +15,11 @@
 //! **Band** is `max − min` over the window. Both are percent of the reference, or absolute
 //! when the series has an absolute limit.
 //!
-//! A window must hold 20 values before the criteria are computed; before that they are NaN
-//! and not met (the run is too young to tell).
+//! A window must hold 20 values and, unless the user set `window`, the segment must hold
+//! [`window::required`] iterations of data before the criteria are computed; before that they
+//! are NaN and not met (the run, or the segment after a restart, is too young to tell: a few
+//! tens of iterations after a restart show the kick the restart gave, not where the monitor
+//! goes).
 
 use super::criteria::{self, Limit, Resolved};
 use super::iterative;
@@ -66,11 +69,12 @@ impl Stats {
     }
 }
 
-/// Statistics of the fitted window `f` (`None` with fewer than 20 values). The CI only with
-/// `with_ci` (it costs an FFT).
+/// Statistics of the fitted window `f` (`None` with fewer than 20 values, or an adaptive
+/// window whose segment is too young, [`window::Fitted::young`]). The CI only with `with_ci`
+/// (it costs an FFT).
 fn window_stats(f: &window::Fitted, magnitude: f64, rc: &Resolved, with_ci: bool) -> Option<Stats> {
     let win = &f.window;
-    if win.len() < 20 {
+    if win.len() < 20 || (!rc.window_explicit && f.young) {
         return None;
     }
     let x = win.its_f64();
@@ -79,7 +83,9 @@ fn window_stats(f: &window::Fitted, magnitude: f64, rc: &Resolved, with_ci: bool
         .iter()
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
     let mean = stats::mean(&win.vals)?;
-    let change = if lo == hi { 0.0 } else { stats::ols(&x, &win.vals)?.slope * f.length as f64 };
+    // The drift is read with a known cycle taken out (its phase is not a drift).
+    let seen = f.clean.as_ref().map_or(&win.vals, |c| &c.vals);
+    let change = if lo == hi { 0.0 } else { stats::ols(&x, seen)?.slope * f.length as f64 };
     let remaining =
         f.projection.map(|p| p.remaining).filter(|r| r.abs() > change.abs() && !rc.window_explicit);
     let ci_half =
@@ -173,7 +179,7 @@ fn date_all(
     v: &View<'_>,
     rc: &Resolved,
     mag: &Magnitude,
-    period: Option<f64>,
+    cycle: Option<window::Cycle>,
     crits: &[Crit],
     values: &[f64],
 ) -> Vec<Option<i64>> {
@@ -186,7 +192,7 @@ fn date_all(
             break;
         }
         let need_ci = crits.iter().zip(&alive).any(|(c, a)| *a && c.needs_ci);
-        let f = window::fit(v, t, rc, period, &tolerance(rc, mag.at(t)));
+        let f = window::fit(v, t, rc, cycle, &tolerance(rc, mag.at(t)));
         let st = window_stats(&f, mag.at(t), rc, need_ci);
         for (i, c) in crits.iter().enumerate() {
             if !alive[i] {
@@ -224,14 +230,19 @@ fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
     if good(&near) {
         return near;
     }
+    // Look back over 2, 4, … up to LONG_LOOKBACK_WINDOWS evidence windows, the shortest
+    // first: the longest look-back of a long run reaches back into its start-up, whose
+    // approach then dominates the variance and hides a cycle that began later.
     let span = v.last_it().saturating_sub(v.seg_first_it()) as usize;
-    if span > 2 * e {
-        let far_win = v.window(LONG_LOOKBACK_WINDOWS * e);
+    let mut mult = 2;
+    while mult <= LONG_LOOKBACK_WINDOWS && span > mult * e / 2 + e {
+        let far_win = v.window(mult * e);
         let far = oscillation::find(&post(&far_win))
             .map(|p| oscillation::with_envelope_over(p, &far_win));
         if good(&far) {
             return far;
         }
+        mult *= 2;
     }
     near
 }
@@ -278,19 +289,19 @@ pub fn analyse(
     let crash_sign = health::end_jump(name, v, rc.evidence(), CRASH_JUMP);
 
     let per = periodic(v, rc);
-    let decisive_period = per
-        .as_ref()
-        .filter(|p| p.osc.p_value < OSC_ALPHA && p.sustained_and_dominant(rc.window as f64))
-        .map(|p| p.period);
+    let cycle = per.as_ref().filter(|p| p.osc.p_value < OSC_ALPHA).map(|p| window::Cycle {
+        period: p.period,
+        decisive: p.sustained_and_dominant(rc.window as f64),
+    });
     health::growing_cycle(name, v, rc, Some(mag), sink);
 
-    let fitted = window::fit(v, last_it, rc, decisive_period, &tolerance(rc, mag.at(last_it)));
+    let fitted = window::fit(v, last_it, rc, cycle, &tolerance(rc, mag.at(last_it)));
     let win = &fitted.window;
     let st = window_stats(&fitted, mag.at(last_it), rc, true);
     let crits = crits(rc);
     let values: Vec<f64> =
         crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| c.value(s))).collect();
-    let sinces = date_all(v, rc, mag, decisive_period, &crits, &values);
+    let sinces = date_all(v, rc, mag, cycle, &crits, &values);
     let mut facts = MonitorFacts {
         crash_sign,
         drift_pct: f64::NAN,
@@ -451,6 +462,8 @@ fn oscillation_finding(
         ", too small against the band limit".to_string()
     } else if p.envelope.is_none() {
         ", too few cycles yet to tell whether it lasts".to_string()
+    } else if !p.lasts(horizon) {
+        ", its amplitude not yet shown to last".to_string()
     } else {
         ", inside its limits".to_string()
     };

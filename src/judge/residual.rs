@@ -276,6 +276,22 @@ fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: 
     if t.falling(MIN_FALL_DEC_PER_KIT) {
         return;
     }
+    // While the run goes on, a plateau that has begun to fall again is over: the last
+    // quarter of the window falls significantly and has already gone below every value the
+    // three quarters before it showed (a pseudo-plateau of a developing flow ends so; the
+    // wander of a stall dips, but not out of its own range). A finished run has no later to
+    // fall in: its plateau is judged whole.
+    let split = last_it.saturating_sub((w / 4) as i64);
+    let recent = win.from_iteration(split);
+    let before_min =
+        win.vals[..win.len() - recent.len()].iter().copied().fold(f64::INFINITY, f64::min);
+    if !ended
+        && recent.len() >= 30
+        && trend::fit(&recent.its, &recent.vals)
+            .is_some_and(|r| r.falling(MIN_FALL_DEC_PER_KIT) && r.fitted_last < before_min)
+    {
+        return;
+    }
     // Date the plateau: walk back from the window start until the residual was clearly above
     // the plateau level (bounded look-back of 20 windows).
     let band = (4.0 * t.resid_sd).max(0.3);
@@ -485,6 +501,8 @@ fn oscillation_finding(
         ", too small to matter"
     } else if cycles < OSC_MIN_CYCLES_TO_DECIDE {
         ", too few cycles in the window to tell it from slow noise"
+    } else if !p.lasts(horizon) {
+        ", its amplitude not yet shown to last"
     } else {
         ""
     };

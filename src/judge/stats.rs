@@ -254,6 +254,44 @@ pub fn median(x: &[f64]) -> Option<f64> {
     Some(if k % 2 == 1 { v[k / 2] } else { 0.5 * (v[k / 2 - 1] + v[k / 2]) })
 }
 
+/// `y` less the sinusoid of `period` (in the units of `x`) that a least-squares fit of
+/// `a + b·x + c·sin(ωx) + d·cos(ωx)` finds in it: the trend and the noise stay, the cycle
+/// goes. `None` when the system is singular (too few values, or a period the window cannot
+/// separate from the trend).
+pub fn without_cycle(x: &[f64], y: &[f64], period: f64) -> Option<Vec<f64>> {
+    if x.len() != y.len() || x.len() < 8 || !(period > 0.0) {
+        return None;
+    }
+    let w = 2.0 * std::f64::consts::PI / period;
+    let x0 = x[0];
+    let span = (x[x.len() - 1] - x0).abs().max(1.0);
+    let basis = |xi: f64| {
+        let (sn, cs) = (w * (xi - x0)).sin_cos();
+        [1.0, (xi - x0) / span, sn, cs]
+    };
+    let mut a = vec![vec![0.0; 4]; 4];
+    let mut b = vec![0.0; 4];
+    for (&xi, &yi) in x.iter().zip(y) {
+        let f = basis(xi);
+        for r in 0..4 {
+            b[r] += f[r] * yi;
+            for c in 0..4 {
+                a[r][c] += f[r] * f[c];
+            }
+        }
+    }
+    let coef = solve_small(a, b)?;
+    Some(
+        x.iter()
+            .zip(y)
+            .map(|(&xi, &yi)| {
+                let f = basis(xi);
+                yi - coef[2] * f[2] - coef[3] * f[3]
+            })
+            .collect(),
+    )
+}
+
 /// Solve the small dense system `a·x = b` (n ≤ ~6) by Gaussian elimination with partial
 /// pivoting. `None` when the matrix is singular to working precision.
 pub fn solve_small(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
@@ -294,6 +332,26 @@ pub fn solve_small(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_known_cycle_comes_out_and_the_trend_stays() {
+        // y = 2 + 0.001·x + 0.3·sin(2πx/60 + 0.7) over 4.5 periods (not a whole number).
+        let x: Vec<f64> = (0..270).map(|i| 1000.0 + i as f64).collect();
+        let line = |xi: f64| 2.0 + 0.001 * xi;
+        let y: Vec<f64> = x
+            .iter()
+            .map(|&xi| line(xi) + 0.3 * (2.0 * std::f64::consts::PI * xi / 60.0 + 0.7).sin())
+            .collect();
+        let clean = without_cycle(&x, &y, 60.0).expect("separable");
+        for (c, &xi) in clean.iter().zip(&x) {
+            assert!((c - line(xi)).abs() < 1e-9, "{c} against {}", line(xi));
+        }
+        // The slope of what is left is the trend's; that of the raw values is not.
+        let raw = ols(&x, &y).expect("fit").slope;
+        let left = ols(&x, &clean).expect("fit").slope;
+        assert!((left - 0.001).abs() < 1e-12 && (raw - 0.001).abs() > 1e-5, "{raw} {left}");
+        assert!(without_cycle(&x[..5], &y[..5], 60.0).is_none());
+    }
 
     #[test]
     fn degenerate_inputs() {

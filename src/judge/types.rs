@@ -155,6 +155,9 @@ pub enum FindingKind {
     /// A monitor that carries only round-off next to its companions (the out-of-plane force
     /// of a 2-D case): reported, not judged (informational).
     RoundOff,
+    /// Every criterion holds, but a monitor's not yet for long enough to call the run
+    /// `converged` (it holds the verdict at `converging`).
+    Holding,
 }
 
 impl FindingKind {
@@ -180,6 +183,7 @@ impl FindingKind {
             FindingKind::Action => "action",
             FindingKind::GrowingOscillation => "growing_oscillation",
             FindingKind::RoundOff => "round_off",
+            FindingKind::Holding => "holding",
         }
     }
 }

@@ -3,11 +3,12 @@
 //! Each finding names the verdict it argues for (`supports`). The first verdict of the order
 //! `diverging`, `oscillating`, `suspect`, `stalled` that any finding supports wins, and the
 //! findings supporting it are the causes. Otherwise the run is `converged` when there is at
-//! least one criterion and every criterion holds — an empty run or one with nothing to judge
-//! is never `converged` — and `converging` otherwise. `stale` is decided by the live views,
+//! least one criterion, every criterion holds and no monitor's criteria are still within
+//! their hold span (a `holding` finding) — an empty run or one with nothing to judge is never
+//! `converged` — and `converging` otherwise. `stale` is decided by the live views,
 //! not here.
 
-use super::types::{CriterionResult, Finding, Verdict};
+use super::types::{CriterionResult, Finding, FindingKind, Verdict};
 
 /// Verdicts that findings can force, strongest first.
 pub const PRECEDENCE: [Verdict; 4] =
@@ -31,7 +32,8 @@ pub fn decide(
             return (v, earliest(&causes), causes);
         }
     }
-    if !criteria.is_empty() && criteria.iter().all(|c| c.met) {
+    let held = !findings.iter().any(|f| f.kind == FindingKind::Holding);
+    if held && !criteria.is_empty() && criteria.iter().all(|c| c.met) {
         let since = criteria.iter().map(|c| c.since).collect::<Option<Vec<_>>>();
         let since = since.and_then(|s| s.into_iter().max());
         return (Verdict::Converged, since, Vec::new());
@@ -68,5 +70,9 @@ mod tests {
         assert_eq!(decide(&info, &all), (Verdict::Converged, Some(70), vec![]));
         assert_eq!(decide(&info, &[crit(true, Some(1)), crit(false, None)]).0, Verdict::Converging);
         assert_eq!(decide(&[], &[]).0, Verdict::Converging, "nothing to judge is not converged");
+        // Criteria met but not yet held: converging, the hold its cause.
+        let hold =
+            [Finding { kind: FindingKind::Holding, ..finding(60, Some(Verdict::Converging)) }];
+        assert_eq!(decide(&hold, &all), (Verdict::Converging, Some(60), vec![0]));
     }
 }

@@ -22,6 +22,11 @@
 //!    regression and the 20 batch means of the confidence interval), and at least two
 //!    periods of a periodic component found in the monitor, so the band sees whole cycles.
 //!
+//! 4. **Enough data**: the upper window is as long as the solution is old (a restart from a
+//!    checkpoint numbers its iterations on, so the run's first iteration dates it), but only
+//!    the latest segment's values are used; a segment younger than [`required`] leaves the
+//!    criteria unjudged rather than judged on the restart's kick.
+//!
 //! The window depends only on the values up to `t`, so a criterion dated at an earlier
 //! checkpoint is judged on the same window whether the run is read at once or as it grows.
 
@@ -43,22 +48,54 @@ pub const SHORT_RUN_SHARE: f64 = 0.5;
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Fitted {
     pub window: Window,
+    /// The window less a known cycle (`None` without one): what the drift is read from.
+    pub clean: Option<Window>,
     pub transient_end: Option<i64>,
     /// The nominal length in iterations the window stands for: its span plus one sample
     /// spacing (the configured length for an explicit window).
     pub length: usize,
     /// Where the monitor is heading, from the upper window.
     pub projection: Option<Projection>,
+    /// The segment holds less than [`required`] of the upper window: too young to judge
+    /// (only after a restart, whose segment is younger than the solution).
+    pub young: bool,
+}
+
+/// Iterations of data an adaptive window needs before its criteria mean anything: half the
+/// upper window (what MSER may leave of it), at least [`MIN_WINDOW`]. A run's first segment
+/// always has it (the upper window is at most half of the run); a segment restarted from a
+/// checkpoint late in a run does not until it is that old: until then the window sees the
+/// kick of the restart and not where the monitor is going.
+pub fn required(u: usize) -> usize {
+    (u / 2).max(MIN_WINDOW).min(u)
 }
 
 /// The upper bound `U` at end iteration `t` (the configured length when explicit).
 pub fn upper(v: &View<'_>, t: i64, rc: &Resolved) -> usize {
-    if rc.window_explicit {
-        return rc.window;
+    // How far the solution has come: a solver restarted from a checkpoint numbers its
+    // iterations on from there, so the run's first iteration (not the segment's) dates the
+    // start-up; a restart from scratch starts again at a low number.
+    let first = v.its[0].min(v.seg_first_it());
+    upper_for(rc.window, rc.window_explicit, t.saturating_sub(first).saturating_add(1))
+}
+
+/// The upper bound for a configured `window` on a solution `age` iterations old.
+pub fn upper_for(window: usize, explicit: bool, age: i64) -> usize {
+    if explicit {
+        return window;
     }
-    let seg_len = t.saturating_sub(v.seg_first_it()).saturating_add(1).max(1) as f64;
-    let short = (SHORT_RUN_SHARE * seg_len) as usize;
-    rc.window.min(short.max(MIN_WINDOW))
+    let short = (SHORT_RUN_SHARE * age.max(1) as f64) as usize;
+    window.min(short.max(MIN_WINDOW))
+}
+
+/// Iterations every criterion must have held before a run that goes on is called
+/// `converged`: a tenth of the upper window (50 iterations by default, fewer on a short run).
+/// A statistic that has just crossed its limit may be noise at the limit (a residual
+/// printed just under its target, a drift just under its limit); one that has stayed within
+/// it over several dating checkpoints describes a state. Requiring a criterion to hold over
+/// consecutive iterations before declaring convergence is common practice (no source).
+pub fn hold(window: usize, explicit: bool, age: i64) -> i64 {
+    (upper_for(window, explicit, age) / 10).max(1) as i64
 }
 
 /// Where a monitor is heading, from the trend of the last two thirds of its upper window.
@@ -135,42 +172,71 @@ fn slope(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64, f64)> {
     Some((fit.slope, fit.se_slope * tau.sqrt(), fit.x_mean, fit.at(last)))
 }
 
-/// The window of the monitor `v` ending at iteration `t`; `period` is the period (in
-/// iterations) of a periodic component the monitor shows, if any; `tolerance` maps the value
-/// a geometrically converging monitor approaches to the absolute drift tolerance there.
+/// A periodic component a monitor shows: its period in iterations, and whether it decides
+/// the verdict (then the window holds two of its periods).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cycle {
+    pub period: f64,
+    pub decisive: bool,
+}
+
+/// `w` less the sinusoid of `period` fitted beside its trend ([`stats::without_cycle`]), when
+/// the window holds at least two periods (a shorter one cannot tell the cycle from the
+/// trend); `None` otherwise.
+fn without_cycle(w: &Window, period: f64) -> Option<Window> {
+    if (w.span() as f64) < 2.0 * period {
+        return None;
+    }
+    let x: Vec<f64> = w.its.iter().map(|&i| i as f64).collect();
+    let vals = stats::without_cycle(&x, &w.vals, period)?;
+    Some(Window { its: w.its.clone(), vals })
+}
+
+/// The window of the monitor `v` ending at iteration `t`; `cycle` is a significant periodic
+/// component the monitor shows, if any; `tolerance` maps the value a geometrically converging
+/// monitor approaches to the absolute drift tolerance there.
+///
+/// A known cycle is taken out before the transient, the approach and the projection are read
+/// ([`Fitted::clean`]): otherwise the phase of a cycle reads as a decay or a drift (a
+/// ±0.1 % ripple moves the regression line over a few periods by about as much as its
+/// amplitude). The band and the mean stay on the values as they are.
 pub fn fit(
     v: &View<'_>,
     t: i64,
     rc: &Resolved,
-    period: Option<f64>,
+    cycle: Option<Cycle>,
     tolerance: &dyn Fn(f64) -> f64,
 ) -> Fitted {
     let u = upper(v, t, rc);
     let outer = v.window_map(t, u, |x| x);
     if outer.is_empty() {
-        return Fitted { window: outer, transient_end: None, length: u, projection: None };
+        return Fitted { window: outer, length: u, young: true, ..Default::default() };
     }
-    let projection = project(&outer);
+    let clean = cycle.and_then(|c| without_cycle(&outer, c.period));
+    let seen = clean.as_ref().unwrap_or(&outer);
+    let projection = project(seen);
+    let young = outer.span() as f64 + outer.spacing() < required(u) as f64;
     let approach = projection.filter(|p| p.decaying).map(|p| {
         let tol = tolerance(p.limit);
-        outer.vals.iter().rposition(|x| !((x - p.limit).abs() <= tol)).map_or(0, |i| i + 1)
+        seen.vals.iter().rposition(|x| !((x - p.limit).abs() <= tol)).map_or(0, |i| i + 1)
     });
     let d = match approach {
         Some(a) => a,
-        None => stationarity::mser5(&outer.vals).unwrap_or(0),
+        None => stationarity::mser5(&seen.vals).unwrap_or(0),
     }
     .min(outer.len() - 1);
     let transient_end = (d > 0).then(|| outer.its[d]);
     if rc.window_explicit {
-        return Fitted { window: outer, transient_end, length: u, projection };
+        return Fitted { window: outer, clean, transient_end, length: u, projection, young };
     }
-    let cycles = period.map_or(0, |p| (2.0 * p).ceil() as usize);
+    let cycles = cycle.filter(|c| c.decisive).map_or(0, |c| (2.0 * c.period).ceil() as usize);
     let lower = MIN_WINDOW.max(cycles).min(u) as i64;
     let cut = outer.its[d].min(t.saturating_sub(lower - 1));
     let window = outer.from_iteration(cut);
+    let clean = clean.map(|c| c.from_iteration(cut));
     let spacing = window.spacing().max(1.0);
     let length = ((window.span() as f64 + spacing).round() as usize).max(1);
-    Fitted { window, transient_end, length, projection }
+    Fitted { window, clean, transient_end, length, projection, young }
 }
 
 #[cfg(test)]
@@ -222,6 +288,37 @@ mod tests {
     }
 
     #[test]
+    fn a_segment_restarted_late_is_young_until_it_has_half_the_upper_window() {
+        // 2000 iterations, then a restart from the checkpoint at 1500: 1501, 1502, …
+        let mut its: Vec<i64> = (1..=2000).collect();
+        its.extend(1501..=1800);
+        let vals: Vec<f64> = its.iter().map(|&i| 1.0 + 1e-6 * (i % 7) as f64).collect();
+        let rc = criteria::resolve(&Criteria::default(), "m", Role::Monitor);
+        let at = |k: usize| {
+            let s = SeriesInput {
+                name: Cow::Borrowed("m"),
+                iterations: Cow::Owned(its[..2000 + k].to_vec()),
+                values: Cow::Owned(vals[..2000 + k].to_vec()),
+                segment_starts: vec![0, 2000],
+                ..Default::default()
+            };
+            let v = View::new(&s).expect("non-empty");
+            let t = v.last_it();
+            (upper(&v, t, &rc), fit(&v, t, &rc, None, &|_| 1e-3))
+        };
+        // The solution is 1560 iterations old: the upper window is the configured 500, but
+        // the segment holds 60 of them (< 250): too young.
+        let (u, f) = at(60);
+        assert_eq!(u, 500);
+        assert!(f.young, "{f:?}");
+        // 260 iterations after the restart: judged, on the segment's values only.
+        let (_, f) = at(260);
+        assert!(!f.young && f.window.its[0] > 1500, "{f:?}");
+        assert_eq!(required(500), 250);
+        assert_eq!(required(60), 50);
+    }
+
+    #[test]
     fn the_window_holds_two_periods_of_a_cycle() {
         let vals: Vec<f64> = (1..=1000)
             .map(|i| 1.0 + 0.01 * (2.0 * std::f64::consts::PI * i as f64 / 120.0).sin())
@@ -229,7 +326,8 @@ mod tests {
         let s = input(vals);
         let v = View::new(&s).expect("non-empty");
         let rc = criteria::resolve(&Criteria::default(), "m", Role::Monitor);
-        let f = fit(&v, 1000, &rc, Some(120.0), &|_| 1e-3);
+        let cycle = Cycle { period: 120.0, decisive: true };
+        let f = fit(&v, 1000, &rc, Some(cycle), &|_| 1e-3);
         assert!(f.window.span() >= 239, "{}", f.window.span());
     }
 }

@@ -85,6 +85,7 @@ pub fn kind_words(k: FindingKind) -> &'static str {
         FindingKind::Action => "action",
         FindingKind::GrowingOscillation => "growing oscillation",
         FindingKind::RoundOff => "round-off only",
+        FindingKind::Holding => "criteria met, holding",
     }
 }
 

@@ -1,0 +1,130 @@
+//! Trace the judge over the growing prefixes of one synthetic run: the verdict, and what each
+//! monitor and residual shows, at every prefix. A developer's tool for reading why a scenario
+//! is judged as it is (`cargo run --release --example judge_trace -- restart 7 [every]`).
+
+use settle::judge::{self, Criteria, Verdict};
+use settle::synth::{self, Scenario};
+
+fn main() {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    let Some(scenario) = args.first().and_then(|s| Scenario::parse(s)) else {
+        eprintln!("usage: judge_trace SCENARIO SEED [EVERY]");
+        std::process::exit(2);
+    };
+    let seeds = args.get(1).map(String::as_str).unwrap_or("0");
+    if let Some((a, b)) = seeds.split_once('-') {
+        let (a, b): (u64, u64) = (a.parse().unwrap_or(0), b.parse().unwrap_or(0));
+        for seed in a..=b {
+            summary(scenario, seed);
+        }
+        return;
+    }
+    let seed: u64 = seeds.parse().unwrap_or(0);
+    let every: usize = args.get(2).and_then(|s| s.parse().ok()).unwrap_or(0);
+    let run = synth::generate(scenario, seed);
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    let n = run.steps.len();
+    let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).unwrap_or(0);
+    println!(
+        "{} seed {seed}: {n} steps, segment from step {seg}, settled {:?}, residuals met {:?}, onset {:?}",
+        scenario.name(),
+        run.truth.settled,
+        run.truth.residuals_met,
+        run.onset
+    );
+    if let Some(from) = std::env::var("JUDGE_TRACE_SERIES").ok().and_then(|v| v.parse().ok()) {
+        dump(&run, from);
+        return;
+    }
+    let criteria = Criteria::default();
+    let stride = if every > 0 { every } else { (n / 160).max(1) };
+    let mut last: Option<Verdict> = None;
+    for k in (30.min(n)..=n).step_by(stride).chain(std::iter::once(n)) {
+        let input = synth::prefix_input(&full, &run, k);
+        let j = judge::judge(&input, &criteria);
+        let changed = last != Some(j.verdict);
+        last = Some(j.verdict);
+        if every == 0 && !changed && k != n {
+            continue;
+        }
+        println!("step {k:5} it {:6}: {:?} since {:?}", j.iterations, j.verdict, j.since);
+        for m in &j.monitors {
+            let failing: Vec<&str> = j
+                .criteria
+                .iter()
+                .filter(|c| c.series == m.series && !c.met)
+                .map(|c| c.name.as_str())
+                .collect();
+            println!(
+                "    {:10} drift {:+.4}% band {:.4}% win {} ({}..{}) tr {:?} fail {:?}",
+                m.series,
+                m.drift_pct,
+                m.band_pct,
+                m.window,
+                m.window_first,
+                m.window_last,
+                m.transient_end,
+                failing
+            );
+        }
+        for f in j.findings.iter().filter(|f| f.supports.is_some()) {
+            println!("    finding {:?} {:?}: {}", f.kind, f.series, f.detail);
+        }
+    }
+}
+
+/// One line per seed: the complete run's verdict, and the first prefix called `converged` in
+/// the latest segment against the true settling step.
+fn summary(scenario: Scenario, seed: u64) {
+    let run = synth::generate(scenario, seed);
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    let n = run.steps.len();
+    let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).unwrap_or(0);
+    let criteria = Criteria::default();
+    let stride = (n / 160).max(1);
+    let mut first = None;
+    let mut alarms = Vec::new();
+    for k in (30.min(n)..n).step_by(stride) {
+        let input = synth::prefix_input(&full, &run, k);
+        let v = judge::judge(&input, &criteria).verdict;
+        if v == Verdict::Converged && first.is_none() && k > seg {
+            first = Some(k - 1);
+        }
+        if matches!(v, Verdict::Diverging | Verdict::Oscillating | Verdict::Stalled) {
+            alarms.push((k, v));
+        }
+    }
+    let whole = judge::judge(&full, &criteria).verdict;
+    let delay = match (first, run.truth.settled) {
+        (Some(f), Some(t)) => format!("{:+}", f as i64 - t as i64),
+        _ => "-".into(),
+    };
+    println!(
+        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} alarms {:?}",
+        run.truth.settled, first, alarms
+    );
+}
+
+/// Print 40-step means of the three monitors, relative to the mean of the last 200 steps
+/// (percent), from step `from` (`JUDGE_TRACE_SERIES=from`).
+pub fn dump(run: &synth::SynthRun, from: usize) {
+    let n = run.steps.len();
+    let tail = &run.steps[n.saturating_sub(200)..];
+    let fin = |f: fn(&synth::Step) -> f64| tail.iter().map(f).sum::<f64>() / tail.len() as f64;
+    let fs: [fn(&synth::Step) -> f64; 3] = [|s| s.drag, |s| s.lift, |s| s.dp];
+    let finals: Vec<f64> = fs.iter().map(|f| fin(*f)).collect();
+    for k in (from..n).step_by(40) {
+        let chunk = &run.steps[k..(k + 40).min(n)];
+        let rel: Vec<String> = fs
+            .iter()
+            .zip(&finals)
+            .map(|(f, fv)| {
+                let m = chunk.iter().map(f).sum::<f64>() / chunk.len() as f64;
+                format!("{:+.4}", 100.0 * (m - fv) / fv.abs())
+            })
+            .collect();
+        println!("  steps {k:5}+40 it {:6}: {}", run.steps[k].iteration, rel.join(" "));
+    }
+}

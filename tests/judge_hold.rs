@@ -1,0 +1,75 @@
+//! When a run may be called `converged`: every criterion must have held for a tenth of the
+//! window while the run goes on, and a segment restarted from a checkpoint is not judged on
+//! its first few tens of iterations. Runs from `settle::synth` (our invented solver), the
+//! seeds chosen because the judge once called them `converged` before their true settling
+//! step (`Truth::settled`, from the noise-free model): restart seed 22 twenty iterations after
+//! its restart, converging seed 2001 54 steps early on a residual printed just under its
+//! target.
+
+use settle::judge::{self, Criteria, FindingKind, Judgement, RunInput, Verdict};
+use settle::synth::{self, Scenario};
+
+fn judged(input: &RunInput<'_>) -> Judgement {
+    judge::judge(input, &Criteria::default())
+}
+
+#[test]
+fn converged_only_once_every_criterion_has_held() {
+    let run = synth::generate(Scenario::Converging, 2001);
+    let settled = run.truth.settled.expect("a converging run settles");
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    let (mut holding, mut converged) = (0, None);
+    for k in (settled.saturating_sub(150)..settled + 300).step_by(10) {
+        let input = synth::prefix_input(&full, &run, k);
+        let j = judged(&input);
+        let met = !j.criteria.is_empty() && j.criteria.iter().all(|c| c.met);
+        let last = j.iterations;
+        if let Some(f) = j.findings.iter().find(|f| f.kind == FindingKind::Holding) {
+            // Held back: every criterion met, the latest only since less than 50 iterations.
+            assert!(met && j.verdict == Verdict::Converging, "step {k}: {j:?}");
+            assert_eq!(f.threshold, Some(50.0));
+            assert!(f.first > last - 50 && j.causes.len() == 1, "step {k}: {f:?}");
+            holding += 1;
+            // The same data as a finished run is judged on its final state.
+            let mut ended = synth::prefix_input(&full, &run, k);
+            ended.ended = true;
+            assert_eq!(judged(&ended).verdict, Verdict::Converged, "step {k} ended");
+        }
+        if j.verdict == Verdict::Converged {
+            for c in &j.criteria {
+                let since = c.since.expect("met criteria have a since");
+                assert!(since <= last - 50, "step {k}: {} {} since {since}", c.series, c.name);
+            }
+            converged.get_or_insert(k);
+        }
+    }
+    assert!(holding > 0, "the hold never showed");
+    let first = converged.expect("converged within 300 steps of settling");
+    // Steps, not iterations; the step count of the prefix is `k`, its last step `k − 1`.
+    assert!(first > settled, "converged at step {first}, settled at {settled}");
+}
+
+#[test]
+fn a_segment_restarted_from_a_checkpoint_is_judged_only_once_it_has_the_data() {
+    let run = synth::generate(Scenario::Restart, 22);
+    let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).expect("a restart");
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    let monitor_values = |j: &Judgement| -> Vec<f64> {
+        j.criteria.iter().filter(|c| c.window.is_some()).map(|c| c.value).collect()
+    };
+    // Twenty iterations after the restart: the monitors' criteria are not computed.
+    let j = judged(&synth::prefix_input(&full, &run, seg + 20));
+    assert!(monitor_values(&j).iter().all(|v| v.is_nan()), "{:?}", monitor_values(&j));
+    assert_ne!(j.verdict, Verdict::Converged);
+    // 300 iterations after it, they are, over a window of the segment's own values longer
+    // than half of what the segment alone would allow (the run is 2 000 iterations old).
+    let j = judged(&synth::prefix_input(&full, &run, seg + 300));
+    assert!(monitor_values(&j).iter().all(|v| v.is_finite()), "{:?}", monitor_values(&j));
+    let restart_it = run.steps[seg].iteration;
+    for m in &j.monitors {
+        assert!(m.window_first >= restart_it, "{}: window from {}", m.series, m.window_first);
+        assert!(m.window > 150, "{}: window {}", m.series, m.window);
+    }
+}
