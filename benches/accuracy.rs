@@ -12,7 +12,8 @@
 //!   from that prefix to the crash (target: at least 30 on every early blow-up);
 //! * **converged delay** (runs labelled `converged`): iterations from the true settling step
 //!   (`Truth::settled`, from the noise-free model) to the first prefix judged `converged`
-//!   (in the latest segment: a restart can undo a convergence called before it);
+//!   (in the latest segment: a restart can undo a convergence called before it; from the
+//!   start when the run truly settled before the restart and stayed so through it);
 //!   the target is at most max(100, 20 % of the run) and never negative ("early" counts the
 //!   runs called converged before the truth);
 //! * **ETA error** (runs whose residuals meet their 3-decade drop, in the run or in its
@@ -150,8 +151,14 @@ fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: 
 
     let onset_step = run.onset.and_then(|o| run.steps.iter().position(|st| st.iteration >= o));
     // A restart can undo a convergence called before it: the converged call is looked for
-    // in the latest segment.
+    // in the latest segment — unless the run truly settled before the restart and stayed so
+    // through it (`Truth::settled` counts every step, the abandoned ones too): then a call
+    // made before the restart was right, and it is the one measured.
     let seg_start = run.steps.iter().rposition(|st| st.restart_from.is_some()).unwrap_or(0);
+    let call_from = match run.truth.settled {
+        Some(t) if t < seg_start => 0,
+        _ => seg_start,
+    };
     let mut detected: Option<usize> = None;
     let mut first_converged: Option<usize> = None;
     for k in prefixes(&run) {
@@ -165,7 +172,7 @@ fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: 
         {
             detected = Some(k);
         }
-        if v == Verdict::Converged && first_converged.is_none() && k > seg_start {
+        if v == Verdict::Converged && first_converged.is_none() && k > call_from {
             first_converged = Some(k);
         }
         if s.healthy() && !whole {

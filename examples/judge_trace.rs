@@ -68,7 +68,10 @@ fn main() {
                 failing
             );
         }
-        for f in j.findings.iter().filter(|f| f.supports.is_some()) {
+        let shown = |f: &&settle::judge::Finding| {
+            f.supports.is_some() || f.kind == settle::judge::FindingKind::Oscillation
+        };
+        for f in j.findings.iter().filter(shown) {
             println!("    finding {:?} {:?}: {}", f.kind, f.series, f.detail);
         }
     }
@@ -85,12 +88,26 @@ fn summary(scenario: Scenario, seed: u64) {
     let criteria = Criteria::default();
     let stride = (n / 160).max(1);
     let mut first = None;
+    let mut first_div: Option<usize> = None;
     let mut alarms = Vec::new();
-    for k in (30.min(n)..n).step_by(stride) {
+    let mut ks: Vec<usize> = (30.min(n)..n).step_by(stride).collect();
+    if run.end == synth::End::Crash && n < 400 {
+        ks.extend(n.saturating_sub(80)..n);
+        ks.sort_unstable();
+        ks.dedup();
+    }
+    for k in ks {
         let input = synth::prefix_input(&full, &run, k);
         let v = judge::judge(&input, &criteria).verdict;
-        if v == Verdict::Converged && first.is_none() && k > seg {
+        let call_from = match run.truth.settled {
+            Some(t) if t < seg => 0,
+            _ => seg,
+        };
+        if v == Verdict::Converged && first.is_none() && k > call_from {
             first = Some(k - 1);
+        }
+        if v == Verdict::Diverging && first_div.is_none() {
+            first_div = Some(k);
         }
         if matches!(v, Verdict::Diverging | Verdict::Oscillating | Verdict::Stalled) {
             alarms.push((k, v));
@@ -101,8 +118,9 @@ fn summary(scenario: Scenario, seed: u64) {
         (Some(f), Some(t)) => format!("{:+}", f as i64 - t as i64),
         _ => "-".into(),
     };
+    let lead = first_div.map(|k| run.last_iteration() - run.steps[k - 1].iteration);
     println!(
-        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} alarms {:?}",
+        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} lead {lead:?} alarms {:?}",
         run.truth.settled, first, alarms
     );
 }

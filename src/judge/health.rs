@@ -286,6 +286,19 @@ pub fn growing_cycle(
         if (win.span() as f64) < GROWTH_MIN_CYCLES * g.periodic.period {
             continue;
         }
+        // A residual's cycle must grow in the residual's own units, not only in the
+        // logarithm: noise of a constant size on a residual falling onto its floor grows in
+        // the logarithm as the level falls (×100 for two decades of fall, near period 2,
+        // white noise's highest frequency). The cycle before a crash grows while the level
+        // does not fall. Growth in units = growth in the logarithm × the level's change.
+        if magnitude.is_none() {
+            let level_change = super::trend::fit(&win.its, &win.vals)
+                .map_or(0.0, |t| t.slope_dec_per_kit * win.span() as f64 / 1000.0);
+            if g.envelope.ratio * 10f64.powf(level_change.min(0.0)) < oscillation::GROWTH_MIN_RATIO
+            {
+                continue;
+            }
+        }
         let (material, amp_text) = match magnitude {
             None => (
                 g.amplitude_now >= OSC_MIN_RESIDUAL_DEC,
