@@ -180,6 +180,13 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     let mut crash_signs: Vec<String> = Vec::new();
     let mut restarts: Option<(usize, i64)> = None;
     let mut window_iterations = 0usize;
+    // Iterations every criterion must have held before a live run is `converged`.
+    let hold = match (first_it, last_it) {
+        (Some(f), Some(l)) if !input.ended => {
+            window::hold(window, criteria.window.is_some(), l.saturating_sub(f).saturating_add(1))
+        }
+        _ => 0,
+    };
 
     // The series to judge, with their criteria and views; monitors with their magnitude, so
     // that a round-off-only monitor can be told from its companions.
@@ -227,7 +234,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                     .map(|(_, m)| *m)
                     .fold(0.0f64, f64::max);
                 let round_off = scale::round_off(mag.max(), companions).then_some(companions);
-                let facts = monitor::analyse(name, view, rc, mag, round_off, &mut sink);
+                let facts = monitor::analyse(name, view, rc, mag, round_off, hold, &mut sink);
                 if !facts.failing.is_empty() {
                     failing_monitors.push(Failing {
                         name: name.to_string(),
@@ -274,9 +281,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         sink.findings.push(f);
     }
     if !input.ended {
-        let age = last.saturating_sub(first_it.unwrap_or(last)).saturating_add(1);
-        let explicit = criteria.window.is_some();
-        hold_back(window::hold(window, explicit, age), last, &mut sink);
+        hold_back(hold, last, &mut sink);
     }
     finish(&mut sink, first_it.unwrap_or(last), last);
 

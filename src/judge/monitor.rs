@@ -182,12 +182,22 @@ fn date_all(
     cycle: Option<window::Cycle>,
     crits: &[Crit],
     values: &[f64],
+    hold: i64,
 ) -> Vec<Option<i64>> {
     let last = v.last_it();
     let mut since: Vec<Option<i64>> =
         crits.iter().zip(values).map(|(c, x)| (*x <= c.lim.value).then_some(last)).collect();
     let mut alive: Vec<bool> = since.iter().map(Option::is_some).collect();
-    for t in checkpoints(v, rc.window).skip(1) {
+    // The grid, and the iteration `hold` before the last: whether every criterion has held
+    // for the hold span before `converged` ([`window::hold`]) is then read exactly, not to
+    // the grid's step (50 iterations by default, a third of a short run's window).
+    let mut points: Vec<i64> = checkpoints(v, rc.window).skip(1).collect();
+    let held_at = last.saturating_sub(hold);
+    if hold > 0 && held_at >= v.seg_first_it() && !points.contains(&held_at) {
+        let at = points.partition_point(|&p| p > held_at);
+        points.insert(at, held_at);
+    }
+    for t in points {
         if !alive.iter().any(|a| *a) {
             break;
         }
@@ -255,6 +265,7 @@ pub fn analyse(
     rc: &Resolved,
     mag: &Magnitude,
     round_off: Option<f64>,
+    hold: i64,
     sink: &mut Sink,
 ) -> MonitorFacts {
     health::non_finite(name, v, sink);
@@ -301,7 +312,7 @@ pub fn analyse(
     let crits = crits(rc);
     let values: Vec<f64> =
         crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| c.value(s))).collect();
-    let sinces = date_all(v, rc, mag, cycle, &crits, &values);
+    let sinces = date_all(v, rc, mag, cycle, &crits, &values, hold);
     let mut facts = MonitorFacts {
         crash_sign,
         drift_pct: f64::NAN,
@@ -529,7 +540,7 @@ mod tests {
             metric: |s| s.band,
             needs_ci: false,
         };
-        let since = date_all(&v, &rc, &mag, None, std::slice::from_ref(&band), &[0.0]);
+        let since = date_all(&v, &rc, &mag, None, std::slice::from_ref(&band), &[0.0], 0);
         // Bounded look-back: the last iteration and 49 grid points of 10 iterations.
         assert_eq!(since, vec![Some(3000 - 490)]);
         let short = SeriesInput {
@@ -540,7 +551,7 @@ mod tests {
         let v2 = View::new(&short).expect("non-empty");
         let mag2 = Magnitude::new(&v2);
         // Grid points 1200, 1190, …, 1100 hold (window (t−100, t] after the step); 1090 not.
-        let d = date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[0.0]);
+        let d = date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[0.0], 0);
         assert_eq!(d, vec![Some(1100)]);
         // One more value does not move the date.
         let short3 = SeriesInput {
@@ -550,10 +561,10 @@ mod tests {
         };
         let v3 = View::new(&short3).expect("non-empty");
         let d3 =
-            date_all(&v3, &rc, &Magnitude::new(&v3), None, std::slice::from_ref(&band), &[0.0]);
+            date_all(&v3, &rc, &Magnitude::new(&v3), None, std::slice::from_ref(&band), &[0.0], 0);
         assert_eq!(d3, vec![Some(1100)]);
         assert_eq!(
-            date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[1.0]),
+            date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[1.0], 0),
             vec![None]
         );
     }
