@@ -46,8 +46,8 @@
 //!   dominant, lasting, ≥ 0.05 decades, six cycles in view; it decides when the residual is
 //!   not falling and its criteria fail (also when met only at a trough).
 //! * **Monitors.** Drift = the larger of the trend's change over the window and the change
-//!   it still projects, both read with a significant cycle taken out; band = max − min; both relative to the reference ([`scale`]) or
-//!   absolute. An oscillation decides when drift or band fail, it dominates and lasts, and
+//!   it still projects, both read with a significant cycle taken out; band = max − min;
+//!   both relative to the reference ([`scale`]) or absolute. An oscillation decides when drift or band fail, it dominates and lasts, and
 //!   its peak-to-peak amplitude alone reaches the band limit.
 //! * **Blow-up** (monitors and indicators): 2 decades above the reference level, sustained
 //!   exponential growth of ≥ 1 decade (2 in the start-up), 3 decades beyond the first values
@@ -180,6 +180,8 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     let mut crash_signs: Vec<String> = Vec::new();
     let mut restarts: Option<(usize, i64)> = None;
     let mut window_iterations = 0usize;
+    // Monitors whose criteria have not all held for the hold span.
+    let mut unheld: Vec<String> = Vec::new();
     // Iterations every criterion must have held before a live run is `converged`.
     let hold = match (first_it, last_it) {
         (Some(f), Some(l)) if !input.ended => {
@@ -235,6 +237,9 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                     .fold(0.0f64, f64::max);
                 let round_off = scale::round_off(mag.max(), companions).then_some(companions);
                 let facts = monitor::analyse(name, view, rc, mag, round_off, hold, &mut sink);
+                if !facts.held && round_off.is_none() {
+                    unheld.push(name.to_string());
+                }
                 if !facts.failing.is_empty() {
                     failing_monitors.push(Failing {
                         name: name.to_string(),
@@ -281,7 +286,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         sink.findings.push(f);
     }
     if !input.ended {
-        hold_back(hold, last, &mut sink);
+        hold_back(hold, last, &unheld, &mut sink);
     }
     finish(&mut sink, first_it.unwrap_or(last), last);
 
@@ -313,27 +318,27 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
 /// guards the decision to stop a run on a statistic that has just crossed its limit; a
 /// finished run (end-of-run mark) is judged on its final state, and a solver that stops on
 /// its own residual target stops at the first iteration below it.
-fn hold_back(hold: i64, last: i64, sink: &mut Sink) {
+fn hold_back(hold: i64, last: i64, unheld: &[String], sink: &mut Sink) {
     if sink.criteria.is_empty() || !sink.criteria.iter().all(|c| c.met) {
         return;
     }
-    let Some(latest) =
-        sink.criteria.iter().filter_map(|c| c.since.map(|s| (s, c))).max_by_key(|(s, _)| *s)
-    else {
+    // Residual criteria are dated by their values; a monitor's by its windows (`unheld`:
+    // not every checkpoint from `hold` before the last held).
+    let waiting = |c: &&CriterionResult| match c.window {
+        None => c.since.is_none_or(|s| s > last.saturating_sub(hold)),
+        Some(_) => unheld.contains(&c.series),
+    };
+    let Some(c) = sink.criteria.iter().filter(waiting).max_by_key(|c| c.since) else {
         return;
     };
-    let (since, c) = latest;
-    if since <= last.saturating_sub(hold) {
-        return;
-    }
+    let since = c.since.unwrap_or(last);
     let what = format!("{} {}", c.series, c.name);
     let mut f = finding(FindingKind::Holding, &c.series, since, last, "held_iterations");
     f.value = last.saturating_sub(since) as f64;
     f.threshold = Some(hold as f64);
     f.supports = Some(Verdict::Converging);
     f.detail = format!(
-        "every criterion is met, {what} only since it {since}: converged once they have held for {hold} iterations (at it {})",
-        since.saturating_add(hold)
+        "every criterion is met, {what} only since it {since}: converged once they have held for {hold} iterations"
     );
     sink.findings.push(f);
 }

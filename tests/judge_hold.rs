@@ -19,17 +19,23 @@ fn converged_only_once_every_criterion_has_held() {
     let settled = run.truth.settled.expect("a converging run settles");
     let store = synth::to_store(&run);
     let full = store.judge_input();
-    let (mut holding, mut converged) = (0, None);
-    for k in (settled.saturating_sub(150)..settled + 300).step_by(10) {
+    let (mut holding, mut all_met, mut converged) = (0, None, None);
+    // Every 5 steps (one iteration each: no restart in this run).
+    for k in (settled.saturating_sub(150)..settled + 300).step_by(5) {
         let input = synth::prefix_input(&full, &run, k);
         let j = judged(&input);
         let met = !j.criteria.is_empty() && j.criteria.iter().all(|c| c.met);
-        let last = j.iterations;
+        if met && converged.is_none() && all_met.is_none() {
+            all_met = Some(k);
+        }
+        if !met && converged.is_none() {
+            all_met = None;
+        }
         if let Some(f) = j.findings.iter().find(|f| f.kind == FindingKind::Holding) {
-            // Held back: every criterion met, the latest only since less than 50 iterations.
+            // Held back: every criterion met, not yet for 50 iterations.
             assert!(met && j.verdict == Verdict::Converging, "step {k}: {j:?}");
             assert_eq!(f.threshold, Some(50.0));
-            assert!(f.first > last - 50 && j.causes.len() == 1, "step {k}: {f:?}");
+            assert_eq!(j.causes.len(), 1, "step {k}: {f:?}");
             holding += 1;
             // The same data as a finished run is judged on its final state.
             let mut ended = synth::prefix_input(&full, &run, k);
@@ -37,15 +43,21 @@ fn converged_only_once_every_criterion_has_held() {
             assert_eq!(judged(&ended).verdict, Verdict::Converged, "step {k} ended");
         }
         if j.verdict == Verdict::Converged {
-            for c in &j.criteria {
+            assert!(met, "step {k}");
+            // Residual criteria are dated by their values: held for 50 iterations.
+            for c in j.criteria.iter().filter(|c| c.window.is_none()) {
                 let since = c.since.expect("met criteria have a since");
-                assert!(since <= last - 50, "step {k}: {} {} since {since}", c.series, c.name);
+                assert!(since <= j.iterations - 50, "step {k}: {} since {since}", c.series);
             }
             converged.get_or_insert(k);
         }
     }
     assert!(holding > 0, "the hold never showed");
     let first = converged.expect("converged within 300 steps of settling");
+    let met_from = all_met.expect("criteria met before the call");
+    // Met without a break from `met_from` on, called at least 50 iterations later (less the
+    // 5-step sampling of the first met prefix).
+    assert!(first >= met_from + 45, "met from step {met_from}, converged at {first}");
     // Steps, not iterations; the step count of the prefix is `k`, its last step `k − 1`.
     assert!(first > settled, "converged at step {first}, settled at {settled}");
 }

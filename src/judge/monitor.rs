@@ -46,6 +46,8 @@ pub struct MonitorFacts {
     /// What fails, in words (the detail of the first failing criterion's finding).
     pub why: String,
     pub crash_sign: Option<String>,
+    /// Every criterion has held for the hold span ([`super::window::hold`]).
+    pub held: bool,
 }
 
 /// Window statistics of a monitor at one end iteration.
@@ -172,6 +174,14 @@ pub(super) fn magnitude_from(v: &View<'_>, rc: &Resolved) -> i64 {
     checkpoints(v, rc.window).fold(v.last_it(), i64::min)
 }
 
+/// What [`date_all`] finds for each criterion.
+struct Dated {
+    since: Vec<Option<i64>>,
+    /// The criterion has held from `hold` iterations before the last (every checkpoint in
+    /// between included).
+    held: Vec<bool>,
+}
+
 /// `since` of every criterion: the oldest checkpoint of the unbroken run of checkpoints,
 /// from the end, at which it held for the window ending there (`None` when it does not hold
 /// at the end). The sweep stops when no criterion holds any more.
@@ -183,20 +193,23 @@ fn date_all(
     crits: &[Crit],
     values: &[f64],
     hold: i64,
-) -> Vec<Option<i64>> {
+) -> Dated {
     let last = v.last_it();
     let mut since: Vec<Option<i64>> =
         crits.iter().zip(values).map(|(c, x)| (*x <= c.lim.value).then_some(last)).collect();
     let mut alive: Vec<bool> = since.iter().map(Option::is_some).collect();
     // The grid, and the iteration `hold` before the last: whether every criterion has held
-    // for the hold span before `converged` ([`window::hold`]) is then read exactly, not to
-    // the grid's step (50 iterations by default, a third of a short run's window).
+    // for the hold span before `converged` ([`window::hold`]) is read exactly, not to the
+    // grid's step (50 iterations by default, a third of a short run's window). `since`
+    // stays on the grid, so that it does not move with every new iteration.
     let mut points: Vec<i64> = checkpoints(v, rc.window).skip(1).collect();
     let held_at = last.saturating_sub(hold);
-    if hold > 0 && held_at >= v.seg_first_it() && !points.contains(&held_at) {
+    let on_grid = points.contains(&held_at);
+    if hold > 0 && held_at >= v.seg_first_it() && !on_grid {
         let at = points.partition_point(|&p| p > held_at);
         points.insert(at, held_at);
     }
+    let mut held = vec![hold <= 0; crits.len()];
     for t in points {
         if !alive.iter().any(|a| *a) {
             break;
@@ -209,13 +222,16 @@ fn date_all(
                 continue;
             }
             if st.as_ref().is_some_and(|s| c.value(s) <= c.lim.value) {
-                since[i] = Some(t);
+                if t != held_at || on_grid {
+                    since[i] = Some(t);
+                }
+                held[i] |= t <= held_at;
             } else {
                 alive[i] = false;
             }
         }
     }
-    since
+    Dated { since, held }
 }
 
 /// The periodic component of a monitor: in the evidence window after its transient, or —
@@ -312,11 +328,12 @@ pub fn analyse(
     let crits = crits(rc);
     let values: Vec<f64> =
         crits.iter().map(|c| st.as_ref().map_or(f64::NAN, |s| c.value(s))).collect();
-    let sinces = date_all(v, rc, mag, cycle, &crits, &values, hold);
+    let Dated { since: sinces, held } = date_all(v, rc, mag, cycle, &crits, &values, hold);
     let mut facts = MonitorFacts {
         crash_sign,
         drift_pct: f64::NAN,
         window: fitted.length,
+        held: held.iter().all(|h| *h),
         ..Default::default()
     };
     for ((c, value), since) in crits.iter().zip(&values).zip(sinces) {
@@ -540,7 +557,7 @@ mod tests {
             metric: |s| s.band,
             needs_ci: false,
         };
-        let since = date_all(&v, &rc, &mag, None, std::slice::from_ref(&band), &[0.0], 0);
+        let since = date_all(&v, &rc, &mag, None, std::slice::from_ref(&band), &[0.0], 0).since;
         // Bounded look-back: the last iteration and 49 grid points of 10 iterations.
         assert_eq!(since, vec![Some(3000 - 490)]);
         let short = SeriesInput {
@@ -551,7 +568,7 @@ mod tests {
         let v2 = View::new(&short).expect("non-empty");
         let mag2 = Magnitude::new(&v2);
         // Grid points 1200, 1190, …, 1100 hold (window (t−100, t] after the step); 1090 not.
-        let d = date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[0.0], 0);
+        let d = date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[0.0], 0).since;
         assert_eq!(d, vec![Some(1100)]);
         // One more value does not move the date.
         let short3 = SeriesInput {
@@ -561,10 +578,11 @@ mod tests {
         };
         let v3 = View::new(&short3).expect("non-empty");
         let d3 =
-            date_all(&v3, &rc, &Magnitude::new(&v3), None, std::slice::from_ref(&band), &[0.0], 0);
+            date_all(&v3, &rc, &Magnitude::new(&v3), None, std::slice::from_ref(&band), &[0.0], 0)
+                .since;
         assert_eq!(d3, vec![Some(1100)]);
         assert_eq!(
-            date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[1.0], 0),
+            date_all(&v2, &rc, &mag2, None, std::slice::from_ref(&band), &[1.0], 0).since,
             vec![None]
         );
     }
