@@ -313,11 +313,11 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
 }
 
 /// When every criterion holds but not all of them yet for `hold` iterations
-/// ([`window::hold`]), a finding that keeps the verdict at `converging` and says from when
-/// the run will be `converged` if nothing changes. Only while the run goes on: the hold
-/// guards the decision to stop a run on a statistic that has just crossed its limit; a
-/// finished run (end-of-run mark) is judged on its final state, and a solver that stops on
-/// its own residual target stops at the first iteration below it.
+/// ([`window::hold`]), a finding that keeps the verdict at `converging` and names the
+/// criterion met last. Only while the run goes on: the hold guards the decision to stop a
+/// run on a statistic that has just crossed its limit; a finished run (end-of-run mark) is
+/// judged on its final state, and a solver that stops on its own residual target stops at
+/// the first iteration below it.
 fn hold_back(hold: i64, last: i64, unheld: &[String], sink: &mut Sink) {
     if sink.criteria.is_empty() || !sink.criteria.iter().all(|c| c.met) {
         return;
