@@ -8,11 +8,12 @@
 //! settles at zero, its side force carries only round-off; see `tests/synth_scenarios.rs`)
 //! and the sample `mixer-22`, whose crash finding names an event rule as inline code.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::Command;
 
 use serde_json::Value;
-use settle::synth::{self, Options, Scenario};
+#[path = "support/near_zero.rs"]
+mod near_zero;
 
 const BIN: &str = env!("CARGO_BIN_EXE_settle");
 
@@ -22,23 +23,6 @@ fn settle(args: &[&str]) -> std::process::Output {
 
 fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
-}
-
-/// The near-zero scenario as tarn writes it: a log and a force CSV in `dir`.
-fn near_zero_case(dir: &Path) -> (PathBuf, PathBuf) {
-    let run = synth::generate_with(
-        Scenario::NearZeroMonitors,
-        1,
-        &Options { iterations: Some(900), ..Options::default() },
-    );
-    let (log, csv) = (dir.join("tarn.log"), dir.join("forces.csv"));
-    let mut bytes = Vec::new();
-    synth::write_tarn_log(&run, &mut bytes).expect("write log");
-    std::fs::write(&log, bytes).expect("log written");
-    let mut bytes = Vec::new();
-    synth::write_forces_csv(&run, &mut bytes).expect("write csv");
-    std::fs::write(&csv, bytes).expect("csv written");
-    (log, csv)
 }
 
 /// The monitors of `check --json`: (series, window, reference, reference_value, round_off).
@@ -51,7 +35,7 @@ fn monitors(log: &str, csv: &str) -> Vec<Value> {
 #[test]
 fn check_text_shows_window_reference_and_round_off_without_backticks() {
     let dir = tempfile::tempdir().expect("tempdir");
-    let (log, csv) = near_zero_case(dir.path());
+    let (log, csv) = near_zero::write_case(dir.path());
     let (log, csv) = (log.to_str().expect("utf-8"), csv.to_str().expect("utf-8"));
     let ms = monitors(log, csv);
     let lift = ms.iter().find(|m| m["series"] == "lift").expect("lift");
@@ -81,7 +65,7 @@ fn check_text_shows_window_reference_and_round_off_without_backticks() {
 #[test]
 fn the_report_tables_and_captions_carry_the_same_words() {
     let dir = tempfile::tempdir().expect("tempdir");
-    let (log, csv) = near_zero_case(dir.path());
+    let (log, csv) = near_zero::write_case(dir.path());
     let (log, csv) = (log.to_str().expect("utf-8"), csv.to_str().expect("utf-8"));
     let ms = monitors(log, csv);
     let lift = ms.iter().find(|m| m["series"] == "lift").expect("lift");
@@ -131,7 +115,7 @@ fn the_crash_why_reads_without_backticks_in_check_and_headless() {
 
 /// A settle.toml that makes every series `info`: records, nothing the criteria judge.
 fn info_only_case(dir: &Path) {
-    near_zero_case(dir);
+    near_zero::write_case(dir);
     std::fs::write(
         dir.join("settle.toml"),
         "name = \"probe\"\n[[source]]\npath = \"tarn.log\"\n[[source]]\npath = \"forces.csv\"\n\

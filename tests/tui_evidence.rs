@@ -19,10 +19,11 @@ use settle::judge::{Criteria, FindingKind, Reference, SeriesCriteria, Verdict};
 use settle::record::Role;
 use settle::run::ingest::SourceActivity;
 use settle::run::{RunStore, SourceStore};
-use settle::synth::{self, Options, Scenario};
 use settle::tui::theme::Theme;
 use settle::tui::{App, LiveRun, TuiOptions, farewell};
 
+#[path = "support/near_zero.rs"]
+mod near_zero;
 #[path = "support/screen.rs"]
 mod support;
 use support::{screen, squeeze};
@@ -36,19 +37,7 @@ fn t0() -> SystemTime {
 /// The near-zero scenario written as tarn writes it (log + force CSV), read and judged as
 /// `watch` reads it, with `criteria` in effect.
 fn near_zero_run(dir: &std::path::Path, criteria: Criteria) -> LiveRun {
-    let run = synth::generate_with(
-        Scenario::NearZeroMonitors,
-        1,
-        &Options { iterations: Some(900), ..Options::default() },
-    );
-    let log = dir.join("tarn.log");
-    let csv = dir.join("forces.csv");
-    let mut bytes = Vec::new();
-    synth::write_tarn_log(&run, &mut bytes).expect("write log");
-    std::fs::write(&log, bytes).expect("log written");
-    let mut bytes = Vec::new();
-    synth::write_forces_csv(&run, &mut bytes).expect("write csv");
-    std::fs::write(&csv, bytes).expect("csv written");
+    let (log, csv) = near_zero::write_case(dir);
     let registry = Arc::new(settle::parser::Registry::builtin());
     let paths: Vec<PathBuf> = vec![log, csv];
     let (mut spec, _) = settle::run::resolve::one_run(&paths, &[], &registry).expect("one run");
