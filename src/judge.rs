@@ -37,9 +37,11 @@
 //!   are its start-up ([`series::STARTUP_ITERATIONS`]): a rise of a decade or two there is
 //!   not divergence, and the stall test starts after it.
 //! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
-//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (a live
-//!   run) or the evidence window (a finished one) has a 95 % upper bound not below −0.1
-//!   dec/kit, and (live) its last quarter has not fallen significantly below the plateau.
+//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (or,
+//!   for a finished run too short for that, the evidence window) has a 95 % upper bound not
+//!   below −0.1 dec/kit, and (live) its last quarter has not fallen significantly below the
+//!   plateau, nor do most other residuals fall steadily at a rate inside its interval
+//!   (`common_fall`).
 //!   Divergence: a significant rise of ≥ 1 decade over the evidence window, of ≥ 2
 //!   decades over its last fifth, 3 decades above the running minimum, or — any time — 3
 //!   decades beyond the first values while still shooting up. Oscillation: Fisher's g at 1 %,
@@ -86,6 +88,7 @@
 // `partial_cmp` spelling clippy suggests hides it.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
+mod common_fall;
 pub mod criteria;
 pub mod eta;
 mod events;
@@ -208,6 +211,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     let magnitudes: Vec<f64> =
         work.iter().map(|(_, _, _, m)| m.as_ref().map_or(f64::NAN, |m| m.max())).collect();
 
+    let mut stalls = Vec::new();
     for (k, (s, rc, view, mag)) in work.iter().enumerate() {
         window_iterations = window_iterations.max(view.window(window).len());
         if view.segments > 1 && restarts.is_none_or(|(k, _)| view.segments > k) {
@@ -226,6 +230,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                     .and_then(|v| v.into_iter().max());
                 residuals_met.push((facts.met, since));
                 crash_signs.extend(facts.crash_sign);
+                stalls.extend(facts.stall.map(|f| (k, f)));
             }
             Role::Monitor => {
                 let Some(mag) = mag else { continue };
@@ -240,6 +245,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                 if !facts.held && round_off.is_none() {
                     unheld.push(name.to_string());
                 }
+
                 if !facts.failing.is_empty() {
                     failing_monitors.push(Failing {
                         name: name.to_string(),
@@ -263,6 +269,21 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     }
 
     let last = last_it.unwrap_or(0);
+    if !input.ended && !stalls.is_empty() {
+        // Indices into `work` become indices into the residuals.
+        let res: Vec<(usize, (&str, &series::View<'_>))> = work
+            .iter()
+            .enumerate()
+            .filter(|(_, (_, rc, _, _))| rc.role == Role::Residual)
+            .map(|(k, (s, _, v, _))| (k, (&*s.name, v)))
+            .collect();
+        let stalls: Vec<_> = stalls
+            .iter()
+            .filter_map(|(k, f)| res.iter().position(|(j, _)| j == k).map(|p| (p, *f)))
+            .collect();
+        let views: Vec<_> = res.into_iter().map(|(_, r)| r).collect();
+        common_fall::demote_hidden(&stalls, &views, last, &mut sink);
+    }
     run_level(input, last_it, window, window_iterations, &mut sink);
     let all_met = !residuals_met.is_empty() && residuals_met.iter().all(|(m, _)| *m);
     let met_since = if all_met {
@@ -470,7 +491,7 @@ fn finish(sink: &mut Sink, first: i64, last: i64) {
     let stalls: Vec<(String, i64)> = sink
         .findings
         .iter()
-        .filter(|f| f.kind == FindingKind::Stall)
+        .filter(|f| f.kind == FindingKind::Stall && f.supports == Some(Verdict::Stalled))
         .filter_map(|f| f.series.clone().map(|s| (s, f.last.saturating_sub(f.first))))
         .collect();
     for f in &mut sink.findings {

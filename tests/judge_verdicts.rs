@@ -1372,3 +1372,95 @@ fn a_cycle_grown_a_hundredfold_decides_alone_a_smaller_growth_of_one_series_is_a
     assert!(growing.iter().all(|f| f.supports.is_none()), "{}", explain(&j));
     assert_ne!(j.verdict, Verdict::Diverging, "{}", explain(&j));
 }
+
+#[test]
+fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
+    // Synthetic: a coupled solve falling at 0.4 dec/kit after its first decade. One
+    // residual's noise is slow and large (AR(1), φ = 0.98, 0.15 decades), the other two are
+    // quiet. On its own the noisy residual does not show its fall over the 800-iteration
+    // stall window and is called `stalled` (asserted below, so the case is a real one); with
+    // its companions falling steadily at a rate inside its interval, it is converging.
+    // Without the rule (`judge::common_fall`) every one of these seeds is `stalled`.
+    let level = |i: f64| -(i / 150.0).min(1.0) - 0.4 * (i - 150.0).max(0.0) / 1000.0;
+    let n = 1300;
+    let build = |seed: u64, noisy_level: &dyn Fn(f64) -> f64| {
+        let mut rng = Rng(seed);
+        let e = rng.ar1_sd(n, 0.98, 0.15);
+        let noisy: Vec<f64> = (0..n).map(|i| 10f64.powf(noisy_level(i as f64) + e[i])).collect();
+        let a = residual(&mut rng, n, 0.03, level);
+        let b = residual(&mut rng, n, 0.03, level);
+        let cd = monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0));
+        (noisy, a, b, cd)
+    };
+    let (mut checked, mut rescued) = (0, 0);
+    for seed in 300..340 {
+        let (noisy, a, b, cd) = build(seed, &level);
+        let alone = Run::new()
+            .add("res_k", Role::Residual, noisy.clone())
+            .add("Cd", Role::Monitor, cd.clone())
+            .judge();
+        if alone.verdict != Verdict::Stalled {
+            continue;
+        }
+        checked += 1;
+        let j = Run::new()
+            .add("res_k", Role::Residual, noisy)
+            .add("res_p", Role::Residual, a)
+            .add("res_Ux", Role::Residual, b)
+            .add("Cd", Role::Monitor, cd)
+            .judge();
+        if j.verdict == Verdict::Converging {
+            rescued += 1;
+            assert!(j.findings.iter().any(|f| f.kind == FindingKind::Stall
+                && f.supports.is_none()
+                && f.detail.contains("hides the common fall")));
+        }
+    }
+    // 38 of the 40 seeds look stalled alone; 35 of them are converging with their companions
+    // (in the other three the noisy residual's interval excludes the common rate, or a
+    // companion's rate is not steady over the window's latest half).
+    assert!(checked >= 30, "only {checked} seeds where the noisy residual alone looks stalled");
+    assert!(rescued * 10 >= checked * 8, "{rescued} of {checked} converging with companions");
+
+    // The same residual really flat from it 250 while the others go on falling: stalled
+    // (its interval excludes the common rate).
+    let flat = |i: f64| level(i.min(250.0));
+    let (_, a, b, cd) = build(301, &flat);
+    let quiet = residual(&mut Rng(9), n, 0.03, flat);
+    let j = Run::new()
+        .add("res_k", Role::Residual, quiet)
+        .add("res_p", Role::Residual, a)
+        .add("res_Ux", Role::Residual, b)
+        .add("Cd", Role::Monitor, cd)
+        .judge();
+    assert_eq!(j.verdict, Verdict::Stalled, "{}", explain(&j));
+}
+
+#[test]
+fn a_finished_run_is_judged_on_its_stall_window_not_on_the_wander_at_its_end() {
+    // Synthetic: a plateau 1.5 decades short of the drop from it 300 whose level wanders,
+    // as a stalled residual's does: up 0.3 decades over it 2200–2500, level, then down 0.4
+    // over the last 300 iterations; noise AR(1), φ = 0.8, 0.05 decades; the solver's
+    // end-of-run mark at its iteration limit. Over the evidence window (500) the fall is
+    // significant; over the 800-iteration stall window it is not. The run is over, so it is
+    // judged whole: `stalled`, not "stopped while still converging" (`suspect`, as it was
+    // when the evidence window's fall decided).
+    let n = 3000;
+    let wander = |i: f64| {
+        let up = 0.3 * ((i - 2200.0) / 300.0).clamp(0.0, 1.0);
+        let down = 0.4 * ((i - 2700.0) / 300.0).clamp(0.0, 1.0);
+        up - down
+    };
+    for seed in 700..710 {
+        let mut rng = Rng(seed);
+        let res = residual(&mut rng, n, 0.05, |i| -1.5 * (i / 300.0).min(1.0) + wander(i));
+        let cd = monitor(&mut rng, n, 1e-4, |i| 0.0312 * (1.0 + 0.004 * i / 1000.0));
+        let run = Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd);
+        let j = run.ended().judge();
+        assert_eq!(j.verdict, Verdict::Stalled, "seed {seed}\n{}", explain(&j));
+        // The fall of the evidence window is still reported, and the stall spans the window.
+        assert!(j.findings.iter().any(|f| f.kind == FindingKind::Trend), "{}", explain(&j));
+        let f = &j.findings[j.causes[0]];
+        assert!(f.kind == FindingKind::Stall && f.last - f.first >= 790, "{}", explain(&j));
+    }
+}

@@ -253,7 +253,7 @@ pub fn blowup(name: &str, v: &View<'_>, window: usize, indicator: bool, sink: &m
 
 /// An oscillation whose amplitude grows cycle after cycle ([`oscillation::growing`]) in a
 /// residual (log10 values) or a monitor (`magnitude` given): the classic prelude of a crash.
-/// Looked for over the last 60, 120 and 240 iterations of the segment after its first
+/// Looked for over the last 40, 60, 120 and 240 iterations of the segment after its first
 /// values, so that it is found as soon as the growth is significant, start-up or not, with
 /// at least [`GROWTH_MIN_CYCLES`] cycles in the window. The component must be material:
 /// ±[`OSC_MIN_RESIDUAL_DEC`] for residuals, a peak-to-peak amplitude of half the band limit
@@ -273,6 +273,9 @@ pub fn growing_cycle(
     let last_it = v.last_it();
     let n = v.len();
     let from = v.its[(v.seg + series::EARLY_VALUES).min(n - 1)];
+    // The first window that shows growth gives the finding, unless a longer one shows the
+    // cycle grown by orders of magnitude (it then decides alone).
+    let mut first = None;
     for w in GROWTH_WINDOWS {
         let win = match magnitude {
             None => v.window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN }),
@@ -336,10 +339,13 @@ pub fn growing_cycle(
             num(g.envelope.ratio),
             last_it.saturating_sub(p.first),
         );
-        sink.findings.push(f);
-        return true;
+        if alone {
+            sink.findings.push(f);
+            return true;
+        }
+        first.get_or_insert(f);
     }
-    false
+    first.map(|f| sink.findings.push(f)).is_some()
 }
 
 /// The statistic of a [`departure_growth`] finding (the judge recognises it by this).

@@ -52,8 +52,10 @@ pub const GROWTH_ALPHA: f64 = 0.05;
 pub const GROWTH_SAME_PERIOD: f64 = 0.1;
 
 /// Windows (iterations) over which a growing oscillation is looked for, shortest first (ours:
-/// twenty cycles of a period-3 cycle, and longer for longer periods).
-pub const GROWTH_WINDOWS: [usize; 3] = [60, 120, 240];
+/// the shortest holds [`GROWTH_MIN_CYCLES`] cycles of a period up to 5 — the period-2 to -3
+/// cycles that precede a crash — and reaches back as little as it can before their onset,
+/// which would dilute the growth; longer ones for longer periods).
+pub const GROWTH_WINDOWS: [usize; 4] = [40, 60, 120, 240];
 
 /// A monitor's mean is "near zero" when it is below this share of the monitor's own largest
 /// magnitude in the latest segment (block medians of 5, so one spike does not count); the

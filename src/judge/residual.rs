@@ -24,6 +24,19 @@ pub struct ResidualFacts {
     pub met: bool,
     /// Something near the end looks like a blow-up (used with a crash signature).
     pub crash_sign: Option<String>,
+    /// The stall finding pushed for this residual, for [`super::common_fall`].
+    pub stall: Option<StallFacts>,
+}
+
+/// Where a stall finding sits and what its trend showed.
+#[derive(Debug, Clone, Copy)]
+pub struct StallFacts {
+    /// Index of the finding in the sink.
+    pub finding: usize,
+    /// First iteration of the window the stall trend was fitted over.
+    pub from: i64,
+    /// 95 % interval of that trend's slope, dec/kit.
+    pub ci: (f64, f64),
 }
 
 /// Peak and last positive finite value of the whole run.
@@ -110,7 +123,7 @@ pub fn analyse(
             eta_range: None,
             eta_window: None,
         });
-        return ResidualFacts { met: false, crash_sign };
+        return ResidualFacts { met: false, crash_sign, stall: None };
     };
 
     // Drop from the peak of the whole run, dated within the latest segment.
@@ -153,11 +166,19 @@ pub fn analyse(
     let diverging = divergence(name, v, &win, w, sink);
     let growing = !diverging && health::growing_cycle(name, v, rc, None, sink);
 
+    let mut stalled = None;
     if let Some(t) = tr {
+        let may_stall = !met && !diverging && !growing && drop < ROUNDOFF_DROP_DEC;
         if !met && falling {
             trend_finding(name, &t, target, eta, sink);
-        } else if !met && !diverging && !growing && drop < ROUNDOFF_DROP_DEC {
-            stall(name, v, rc, drop, input_ended, sink);
+            // A finished run is judged whole: a fall over its last evidence window that the
+            // longer stall window does not show is the wander of a plateau, not convergence
+            // the run was stopped in (it has no later to go on in).
+            if input_ended && may_stall {
+                stalled = stall(name, v, rc, drop, input_ended, sink);
+            }
+        } else if may_stall {
+            stalled = stall(name, v, rc, drop, input_ended, sink);
         }
     }
     if half && !growing {
@@ -194,7 +215,7 @@ pub fn analyse(
         eta_range: eta.map(|e| e.range),
         eta_window: eta.map(|e| e.window),
     });
-    ResidualFacts { met, crash_sign }
+    ResidualFacts { met, crash_sign, stall: stalled }
 }
 
 /// First iteration of the latest segment from which `ok(value)` has held for every value to
@@ -250,16 +271,25 @@ fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<eta::Eta>, sink
 /// The stall test: the criteria are unmet, and over the stall window after the start-up the
 /// residual's 95 % upper slope bound is not below −0.1 dec/kit. The window is at least
 /// [`STALL_MIN_ITERATIONS`] (pseudo-plateaus of a developing flow last hundreds of
-/// iterations); for a finished run (end-of-run mark) the evidence window, or half the segment
-/// of a short run, will do.
-fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: &mut Sink) {
+/// iterations); a finished run (end-of-run mark) whose segment is too short for it is judged
+/// on the evidence window, or on half the segment of a short run.
+fn stall(
+    name: &str,
+    v: &View<'_>,
+    rc: &Resolved,
+    drop: f64,
+    ended: bool,
+    sink: &mut Sink,
+) -> Option<StallFacts> {
     let last_it = v.last_it();
     let seg_len = last_it.saturating_sub(v.seg_first_it()).saturating_add(1).max(1) as usize;
     let mut w = rc.evidence().max(STALL_MIN_ITERATIONS);
     let mut startup = series::startup_end(v.seg_first_it());
-    if ended {
-        // The run is over: no later fall can make this plateau a pseudo-plateau, so the
-        // evidence window will do, or half the segment of a short run.
+    if ended && seg_len < w + series::STARTUP_ITERATIONS as usize {
+        // The run is over: no later fall can make this plateau a pseudo-plateau, so a
+        // segment too short for the stall window is judged on the evidence window, or on
+        // half the segment of a short run. A longer one keeps the stall window: the wander of
+        // a plateau can fall for a few hundred iterations.
         w = rc.evidence();
         if seg_len < w + series::STARTUP_ITERATIONS as usize {
             w = w.min(seg_len / 2);
@@ -270,11 +300,11 @@ fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: 
         .window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN })
         .from_iteration(startup);
     if !(win.span() as f64 >= 0.9 * w as f64 && win.len() >= 30) {
-        return;
+        return None;
     }
-    let Some(t) = trend::fit(&win.its, &win.vals) else { return };
+    let t = trend::fit(&win.its, &win.vals)?;
     if t.falling(MIN_FALL_DEC_PER_KIT) {
-        return;
+        return None;
     }
     // While the run goes on, a plateau that has begun to fall again is over: the last
     // quarter of the window falls significantly and has already gone below every value the
@@ -290,7 +320,7 @@ fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: 
         && trend::fit(&recent.its, &recent.vals)
             .is_some_and(|r| r.falling(MIN_FALL_DEC_PER_KIT) && r.fitted_last < before_min)
     {
-        return;
+        return None;
     }
     // Date the plateau: walk back from the window start until the residual was clearly above
     // the plateau level (bounded look-back of 20 windows).
@@ -323,6 +353,7 @@ fn stall(name: &str, v: &View<'_>, rc: &Resolved, drop: f64, ended: bool, sink: 
         dec(t.ci.1),
     );
     sink.findings.push(f);
+    Some(StallFacts { finding: sink.findings.len() - 1, from: t.first, ci: t.ci })
 }
 
 /// The divergence rules on the latest segment after its start-up. Returns true when a
