@@ -175,10 +175,11 @@ pub fn analyse(
             // longer stall window does not show is the wander of a plateau, not convergence
             // the run was stopped in (it has no later to go on in).
             if input_ended && may_stall {
-                stalled = stall(name, v, rc, drop, input_ended, sink);
+                stalled = stall(name, v, rc, drop, Ended::Long, sink);
             }
         } else if may_stall {
-            stalled = stall(name, v, rc, drop, input_ended, sink);
+            let ended = if input_ended { Ended::Evidence } else { Ended::No };
+            stalled = stall(name, v, rc, drop, ended, sink);
         }
     }
     if half && !growing {
@@ -268,28 +269,45 @@ fn trend_finding(name: &str, t: &Trend, target: f64, eta: Option<eta::Eta>, sink
     sink.findings.push(f);
 }
 
+/// Which window a stall is judged on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Ended {
+    /// The run goes on: the stall window.
+    No,
+    /// A finished run whose evidence window shows no fall: that window.
+    Evidence,
+    /// A finished run whose evidence window falls: the stall window, when the segment is
+    /// long enough for it.
+    Long,
+}
+
 /// The stall test: the criteria are unmet, and over the stall window after the start-up the
-/// residual's 95 % upper slope bound is not below −0.1 dec/kit. The window is at least
-/// [`STALL_MIN_ITERATIONS`] (pseudo-plateaus of a developing flow last hundreds of
-/// iterations); a finished run (end-of-run mark) whose segment is too short for it is judged
-/// on the evidence window, or on half the segment of a short run.
+/// residual's 95 % upper slope bound is not below −0.1 dec/kit. While the run goes on the
+/// window is at least [`STALL_MIN_ITERATIONS`] (pseudo-plateaus of a developing flow last
+/// hundreds of iterations). A finished run (end-of-run mark) is stalled when either its
+/// evidence window (or half the segment of a short run) or its stall window shows no fall:
+/// the first misses the wander of a plateau that falls over the last few hundred
+/// iterations, the second a plateau shorter than itself, whose approach it still holds.
 fn stall(
     name: &str,
     v: &View<'_>,
     rc: &Resolved,
     drop: f64,
-    ended: bool,
+    how: Ended,
     sink: &mut Sink,
 ) -> Option<StallFacts> {
+    let ended = how != Ended::No;
     let last_it = v.last_it();
     let seg_len = last_it.saturating_sub(v.seg_first_it()).saturating_add(1).max(1) as usize;
     let mut w = rc.evidence().max(STALL_MIN_ITERATIONS);
     let mut startup = series::startup_end(v.seg_first_it());
-    if ended && seg_len < w + series::STARTUP_ITERATIONS as usize {
-        // The run is over: no later fall can make this plateau a pseudo-plateau, so a
-        // segment too short for the stall window is judged on the evidence window, or on
-        // half the segment of a short run. A longer one keeps the stall window: the wander of
-        // a plateau can fall for a few hundred iterations.
+    let long_fits = seg_len >= w + series::STARTUP_ITERATIONS as usize;
+    if how == Ended::Long && !long_fits {
+        return None;
+    }
+    if how == Ended::Evidence {
+        // The run is over: no later fall can make this plateau a pseudo-plateau, so the
+        // evidence window will do, or half the segment of a short run.
         w = rc.evidence();
         if seg_len < w + series::STARTUP_ITERATIONS as usize {
             w = w.min(seg_len / 2);
