@@ -39,9 +39,9 @@
 //! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
 //!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (a
 //!   finished run: over the evidence window, or over 800 when that one falls) has a 95 %
-//!   upper bound not below −0.1 dec/kit, and (live) its last quarter has not fallen significantly below the
-//!   plateau, nor do most other residuals fall steadily at a rate inside its interval
-//!   (`common_fall`).
+//!   upper bound not below −0.1 dec/kit, and (live) its last quarter has not fallen
+//!   significantly below the plateau, nor do most other residuals fall steadily at a rate
+//!   inside its interval (`common_fall`).
 //!   Divergence: a significant rise of ≥ 1 decade over the evidence window, of ≥ 2
 //!   decades over its last fifth, 3 decades above the running minimum, or — any time — 3
 //!   decades beyond the first values while still shooting up. Oscillation: Fisher's g at 1 %,
@@ -211,6 +211,8 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     let magnitudes: Vec<f64> =
         work.iter().map(|(_, _, _, m)| m.as_ref().map_or(f64::NAN, |m| m.max())).collect();
 
+    // Residual views in judging order, and stalls by their index there (`common_fall`).
+    let mut residual_views = Vec::new();
     let mut stalls = Vec::new();
     for (k, (s, rc, view, mag)) in work.iter().enumerate() {
         window_iterations = window_iterations.max(view.window(window).len());
@@ -230,7 +232,8 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                     .and_then(|v| v.into_iter().max());
                 residuals_met.push((facts.met, since));
                 crash_signs.extend(facts.crash_sign);
-                stalls.extend(facts.stall.map(|f| (k, f)));
+                stalls.extend(facts.stall.map(|f| (residual_views.len(), f)));
+                residual_views.push(view);
             }
             Role::Monitor => {
                 let Some(mag) = mag else { continue };
@@ -245,7 +248,6 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                 if !facts.held && round_off.is_none() {
                     unheld.push(name.to_string());
                 }
-
                 if !facts.failing.is_empty() {
                     failing_monitors.push(Failing {
                         name: name.to_string(),
@@ -269,20 +271,8 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     }
 
     let last = last_it.unwrap_or(0);
-    if !input.ended && !stalls.is_empty() {
-        // Indices into `work` become indices into the residuals.
-        let res: Vec<(usize, (&str, &series::View<'_>))> = work
-            .iter()
-            .enumerate()
-            .filter(|(_, (_, rc, _, _))| rc.role == Role::Residual)
-            .map(|(k, (s, _, v, _))| (k, (&*s.name, v)))
-            .collect();
-        let stalls: Vec<_> = stalls
-            .iter()
-            .filter_map(|(k, f)| res.iter().position(|(j, _)| j == k).map(|p| (p, *f)))
-            .collect();
-        let views: Vec<_> = res.into_iter().map(|(_, r)| r).collect();
-        common_fall::demote_hidden(&stalls, &views, last, &mut sink);
+    if !input.ended {
+        common_fall::demote_hidden(&stalls, &residual_views, last, &mut sink);
     }
     run_level(input, last_it, window, window_iterations, &mut sink);
     let all_met = !residuals_met.is_empty() && residuals_met.iter().all(|(m, _)| *m);

@@ -22,17 +22,17 @@ use super::{Sink, stats};
 
 /// Demote the stall findings in `stalls` (`(index into residuals, facts)`) whose residual's
 /// interval holds the rate at which most of the other residuals fall significantly over the
-/// same iterations. `residuals` are every judged residual with its view.
+/// same iterations. `residuals` are the views of every judged residual.
 pub fn demote_hidden(
     stalls: &[(usize, StallFacts)],
-    residuals: &[(&str, &View<'_>)],
+    residuals: &[&View<'_>],
     last: i64,
     sink: &mut Sink,
 ) {
     let to_log = |x: f64| if x > 0.0 { x.log10() } else { f64::NAN };
     for (k, sf) in stalls {
         let others: Vec<&View<'_>> =
-            residuals.iter().enumerate().filter(|(j, _)| j != k).map(|(_, (_, v))| *v).collect();
+            residuals.iter().enumerate().filter(|(j, _)| j != k).map(|(_, v)| *v).collect();
         if others.is_empty() {
             continue;
         }

@@ -346,7 +346,7 @@ pub fn growing(win: &Window, alpha: f64) -> Option<Growth> {
 }
 
 #[cfg(test)]
-mod tests {
+pub(super) mod tests {
     use super::*;
     use std::f64::consts::PI;
 
@@ -355,7 +355,7 @@ mod tests {
     }
 
     /// Deterministic pseudo-noise in [-1, 1] (a fixed linear congruential sequence).
-    fn noise(n: usize, seed: u64) -> Vec<f64> {
+    pub(in crate::judge) fn noise(n: usize, seed: u64) -> Vec<f64> {
         let mut s = seed;
         (0..n)
             .map(|_| {

@@ -391,24 +391,13 @@ mod tests {
         }
     }
 
-    /// Deterministic pseudo-noise in [-1, 1] (a fixed linear congruential sequence).
-    fn lcg(n: usize, seed: u64) -> Vec<f64> {
-        let mut s = seed;
-        (0..n)
-            .map(|_| {
-                s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
-                ((s >> 11) as f64 / (1u64 << 53) as f64) * 2.0 - 1.0
-            })
-            .collect()
-    }
-
     #[test]
     fn a_cycle_whose_phase_wanders_is_steady_and_one_that_grows_is_not() {
         // Period 4.5 whose length wanders by a few per cent, correlated over about ten
         // cycles (AR(1) with φ = 0.9): over 250 values the phase drifts by radians, as a
         // solver's limit cycle may (synthetic).
         for seed in 1..=10u64 {
-            let e = lcg(500, seed);
+            let e = crate::judge::oscillation::tests::noise(500, seed);
             let (mut theta, mut dev) = (0.0, 0.0);
             let x: Vec<f64> = (0..500)
                 .map(|t| {
