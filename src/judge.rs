@@ -37,8 +37,8 @@
 //!   are its start-up ([`series::STARTUP_ITERATIONS`]): a rise of a decade or two there is
 //!   not divergence, and the stall test starts after it.
 //! * **Residuals.** Criteria: drop from the peak ≥ 3 decades (default) and, when set, level
-//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 800 iterations (a
-//!   finished run: over the evidence window, or over 800 when that one falls) has a 95 %
+//!   ≤ `below`. Stall: criteria unmet, the post-start-up trend over 1000 iterations (a
+//!   finished run: over the evidence window, or over 1000 when that one falls) has a 95 %
 //!   upper bound not below −0.1 dec/kit, and (live) its last quarter has not fallen
 //!   significantly below the plateau, nor do most other residuals fall steadily at a rate
 //!   inside its interval (`common_fall`).

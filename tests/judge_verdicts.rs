@@ -441,12 +441,14 @@ fn sweep_count_pinned_at_its_limit_is_diverging() {
 
 #[test]
 fn a_plateau_that_falls_again_is_no_stall_while_the_run_goes_on() {
-    // Synthetic: falls at 2.5 dec/kit to it 300, flat until it 1000 (a pseudo-plateau of 700
-    // iterations), then falls again at the same rate. At it 1150 the 800-iteration stall
-    // window is mostly plateau and, on this seed, its slope alone does not show the fall
-    // (without the rule both are `stalled`); its last quarter has fallen below the plateau.
+    // Synthetic: falls at 2.5 dec/kit to it 300, flat until it 1200 (a pseudo-plateau of 900
+    // iterations), then falls again at the same rate, in noise of 0.05 decades. At it 1300 the
+    // 1000-iteration stall window is mostly plateau and, on these seeds, its slope alone does
+    // not show the fall: without the rule all three are `stalled` (checked by disabling it;
+    // 100 iterations after the plateau the rule turns 6 of 15 seeds 55–69 to converging, and
+    // 150 iterations after it the window's slope alone shows the fall on all 15).
     let level = |i: f64| {
-        let flat = (i.min(1000.0) - 300.0).max(0.0);
+        let flat = (i.min(1200.0) - 300.0).max(0.0);
         0.5 - 2.5 * (i - 40.0).max(0.0) / 1000.0 + 2.5 * flat / 1000.0
     };
     let run = |seed: u64, n: usize, noise: f64, level: &dyn Fn(f64) -> f64| {
@@ -455,16 +457,17 @@ fn a_plateau_that_falls_again_is_no_stall_while_the_run_goes_on() {
         let cd = monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0));
         Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd).judge()
     };
-    for noise in [0.05, 0.1] {
-        let j = run(63, 1150, noise, &level);
-        assert_eq!(j.verdict, Verdict::Converging, "noise {noise}\n{}", explain(&j));
+    for seed in [56, 58, 60] {
+        let j = run(seed, 1300, 0.05, &level);
+        assert_eq!(j.verdict, Verdict::Converging, "seed {seed}\n{}", explain(&j));
+        // Still flat at the end: stalled.
+        let j = run(seed, 1300, 0.05, &|i: f64| level(i.min(1200.0)));
+        assert_eq!(j.verdict, Verdict::Stalled, "seed {seed}\n{}", explain(&j));
     }
-    // Still flat at the end: stalled.
-    let j = run(63, 1150, 0.05, &|i: f64| level(i.min(1000.0)));
-    assert_eq!(j.verdict, Verdict::Stalled, "{}", explain(&j));
     // The limit of the rule: 100 iterations after the plateau, in noise of 0.1 decades, the
-    // new fall is not yet told from the plateau's wander (seed 60).
-    assert_eq!(run(60, 1100, 0.1, &level).verdict, Verdict::Stalled);
+    // new fall is not yet told from the plateau's wander (seed 60); 50 iterations later it is.
+    assert_eq!(run(60, 1300, 0.1, &level).verdict, Verdict::Stalled);
+    assert_eq!(run(60, 1350, 0.1, &level).verdict, Verdict::Converging);
 }
 
 #[test]
@@ -1376,8 +1379,8 @@ fn a_cycle_grown_a_hundredfold_decides_alone_a_smaller_growth_of_one_series_is_a
 #[test]
 fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
     // Synthetic: a coupled solve falling at 0.4 dec/kit after its first decade. One
-    // residual's noise is slow and large (AR(1), φ = 0.98, 0.15 decades), the other two are
-    // quiet. On its own the noisy residual does not show its fall over the 800-iteration
+    // residual's noise is slow and large (AR(1), φ = 0.98, 0.2 decades), the other two are
+    // quiet. On its own the noisy residual does not show its fall over the 1000-iteration
     // stall window and is called `stalled` (asserted below, so the case is a real one); with
     // its companions falling steadily at a rate inside its interval, it is converging.
     // Without the rule (`judge::common_fall`) every one of these seeds is `stalled`.
@@ -1385,7 +1388,7 @@ fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
     let n = 1300;
     let build = |seed: u64, noisy_level: &dyn Fn(f64) -> f64| {
         let mut rng = Rng(seed);
-        let e = rng.ar1_sd(n, 0.98, 0.15);
+        let e = rng.ar1_sd(n, 0.98, 0.2);
         let noisy: Vec<f64> = (0..n).map(|i| 10f64.powf(noisy_level(i as f64) + e[i])).collect();
         let a = residual(&mut rng, n, 0.03, level);
         let b = residual(&mut rng, n, 0.03, level);
@@ -1416,8 +1419,8 @@ fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
                 && f.detail.contains("hides the common fall")));
         }
     }
-    // 38 of the 40 seeds look stalled alone; 35 of them are converging with their companions
-    // (in the other three the noisy residual's interval excludes the common rate, or a
+    // 32 of the 40 seeds look stalled alone; 30 of them are converging with their companions
+    // (in the other two the noisy residual's interval excludes the common rate, or a
     // companion's rate is not steady over the window's latest half).
     assert!(checked >= 30, "only {checked} seeds where the noisy residual alone looks stalled");
     assert!(rescued * 10 >= checked * 8, "{rescued} of {checked} converging with companions");
@@ -1442,7 +1445,7 @@ fn a_finished_run_is_judged_on_its_stall_window_not_on_the_wander_at_its_end() {
     // as a stalled residual's does: up 0.3 decades over it 2200–2500, level, then down 0.4
     // over the last 300 iterations; noise AR(1), φ = 0.8, 0.05 decades; the solver's
     // end-of-run mark at its iteration limit. Over the evidence window (500) the fall is
-    // significant; over the 800-iteration stall window it is not. The run is over, so it is
+    // significant; over the 1000-iteration stall window it is not. The run is over, so it is
     // judged whole: `stalled`, not "stopped while still converging" (`suspect`, as it was
     // when the evidence window's fall decided).
     let n = 3000;
