@@ -1395,6 +1395,15 @@ fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
         let cd = monitor(&mut rng, n, 1e-4, settling(0.0312, 250.0));
         (noisy, a, b, cd)
     };
+    // The residual `k` judged with its two companions of the same solve.
+    let coupled = |k: Vec<f64>, a: Vec<f64>, b: Vec<f64>, cd: Vec<f64>| {
+        Run::new()
+            .add("res_k", Role::Residual, k)
+            .add("res_p", Role::Residual, a)
+            .add("res_Ux", Role::Residual, b)
+            .add("Cd", Role::Monitor, cd)
+            .judge()
+    };
     let (mut checked, mut rescued) = (0, 0);
     for seed in 300..340 {
         let (noisy, a, b, cd) = build(seed, &level);
@@ -1406,12 +1415,7 @@ fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
             continue;
         }
         checked += 1;
-        let j = Run::new()
-            .add("res_k", Role::Residual, noisy)
-            .add("res_p", Role::Residual, a)
-            .add("res_Ux", Role::Residual, b)
-            .add("Cd", Role::Monitor, cd)
-            .judge();
+        let j = coupled(noisy, a, b, cd);
         if j.verdict == Verdict::Converging {
             rescued += 1;
             assert!(j.findings.iter().any(|f| f.kind == FindingKind::Stall
@@ -1430,12 +1434,7 @@ fn a_noisy_residual_that_falls_with_the_others_is_not_stalled() {
     let flat = |i: f64| level(i.min(250.0));
     let (_, a, b, cd) = build(301, &flat);
     let quiet = residual(&mut Rng(9), n, 0.03, flat);
-    let j = Run::new()
-        .add("res_k", Role::Residual, quiet)
-        .add("res_p", Role::Residual, a)
-        .add("res_Ux", Role::Residual, b)
-        .add("Cd", Role::Monitor, cd)
-        .judge();
+    let j = coupled(quiet, a, b, cd);
     assert_eq!(j.verdict, Verdict::Stalled, "{}", explain(&j));
 }
 

@@ -269,26 +269,13 @@ pub fn envelope(x: &[f64], f: f64, from: usize, to: usize) -> Option<Envelope> {
 }
 
 /// Semi-amplitude of the sinusoid of angular frequency `w` (radians per sample) in the
-/// least-squares fit of `a + b·t + c·cos(w(t₀+t)) + d·sin(w(t₀+t))` to `seg`; NaN when the
-/// fit is singular (at the Nyquist frequency only the cosine is observable and `|c|` is
-/// returned).
+/// least-squares fit of a line plus that sinusoid to `seg`, whose first sample is sample
+/// `t0` ([`stats::line_and_sine`]); NaN when the fit is singular (at the Nyquist frequency
+/// only the cosine is observable and `|c|` is returned).
 fn block_amplitude(seg: &[f64], w: f64, t0: usize) -> f64 {
     let nyquist = (w - std::f64::consts::PI).abs() < 1e-9;
-    let cols = if nyquist { 3 } else { 4 };
-    let mut ata = vec![vec![0.0; cols]; cols];
-    let mut aty = vec![0.0; cols];
-    let centre = (seg.len() as f64 - 1.0) / 2.0;
-    for (i, v) in seg.iter().enumerate() {
-        let ph = w * (t0 + i) as f64;
-        let row = [1.0, i as f64 - centre, ph.cos(), ph.sin()];
-        for r in 0..cols {
-            aty[r] += row[r] * v;
-            for c in 0..cols {
-                ata[r][c] += row[r] * row[c];
-            }
-        }
-    }
-    match stats::solve_small(ata, aty) {
+    let x: Vec<f64> = (t0..t0 + seg.len()).map(|t| t as f64).collect();
+    match stats::line_and_sine(&x, seg, 2.0 * std::f64::consts::PI / w, nyquist) {
         Some(b) if nyquist => b[2].abs(),
         Some(b) => b[2].hypot(b[3]),
         None => f64::NAN,

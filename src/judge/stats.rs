@@ -255,41 +255,52 @@ pub fn median(x: &[f64]) -> Option<f64> {
 }
 
 /// `y` less the sinusoid of `period` (in the units of `x`) that a least-squares fit of
-/// `a + b·x + c·sin(ωx) + d·cos(ωx)` finds in it: the trend and the noise stay, the cycle
-/// goes. `None` when the system is singular (too few values, or a period the window cannot
-/// separate from the trend).
+/// `a + b·x + c·sin(ωx) + d·cos(ωx)` finds in it ([`line_and_sine`]): the trend and the
+/// noise stay, the cycle goes. `None` when the system is singular (too few values, or a
+/// period the window cannot separate from the trend).
 pub fn without_cycle(x: &[f64], y: &[f64], period: f64) -> Option<Vec<f64>> {
     if x.len() != y.len() || x.len() < 8 || !(period > 0.0) {
+        return None;
+    }
+    let coef = line_and_sine(x, y, period, false)?;
+    let w = 2.0 * std::f64::consts::PI / period;
+    Some(
+        x.iter()
+            .zip(y)
+            .map(|(&xi, &yi)| {
+                let (sn, cs) = (w * (xi - x[0])).sin_cos();
+                yi - coef[2] * sn - coef[3] * cs
+            })
+            .collect(),
+    )
+}
+
+/// Least-squares coefficients of `a + b·(x − x₀)/s + c·sin(ω(x − x₀)) + d·cos(ω(x − x₀))`
+/// (`ω = 2π/period`, `x₀` the first abscissa, `s` the span): `[a, b, c, d]`, or `[a, b, d]`
+/// without the sine column when `cosine_only` (at the Nyquist frequency it vanishes).
+/// `None` for mismatched or empty input, or a singular system.
+pub fn line_and_sine(x: &[f64], y: &[f64], period: f64, cosine_only: bool) -> Option<Vec<f64>> {
+    if x.len() != y.len() || x.is_empty() {
         return None;
     }
     let w = 2.0 * std::f64::consts::PI / period;
     let x0 = x[0];
     let span = (x[x.len() - 1] - x0).abs().max(1.0);
-    let basis = |xi: f64| {
-        let (sn, cs) = (w * (xi - x0)).sin_cos();
-        [1.0, (xi - x0) / span, sn, cs]
-    };
-    let mut a = vec![vec![0.0; 4]; 4];
-    let mut b = vec![0.0; 4];
+    let cols: &[usize] = if cosine_only { &[0, 1, 3] } else { &[0, 1, 2, 3] };
+    let k = cols.len();
+    let mut a = vec![vec![0.0; k]; k];
+    let mut b = vec![0.0; k];
     for (&xi, &yi) in x.iter().zip(y) {
-        let f = basis(xi);
-        for r in 0..4 {
-            b[r] += f[r] * yi;
-            for c in 0..4 {
-                a[r][c] += f[r] * f[c];
+        let (sn, cs) = (w * (xi - x0)).sin_cos();
+        let full = [1.0, (xi - x0) / span, sn, cs];
+        for (r, &cr) in cols.iter().enumerate() {
+            b[r] += full[cr] * yi;
+            for (c, &cc) in cols.iter().enumerate() {
+                a[r][c] += full[cr] * full[cc];
             }
         }
     }
-    let coef = solve_small(a, b)?;
-    Some(
-        x.iter()
-            .zip(y)
-            .map(|(&xi, &yi)| {
-                let f = basis(xi);
-                yi - coef[2] * f[2] - coef[3] * f[3]
-            })
-            .collect(),
-    )
+    solve_small(a, b)
 }
 
 /// Solve the small dense system `a·x = b` (n ≤ ~6) by Gaussian elimination with partial
