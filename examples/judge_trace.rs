@@ -1,8 +1,13 @@
 //! Trace the judge over the growing prefixes of one synthetic run: the verdict, and what each
 //! monitor and residual shows, at every prefix. A developer's tool for reading why a scenario
 //! is judged as it is (`cargo run --release --example judge_trace -- restart 7 [every]`).
+//!
+//! `SEED` may be a range `A-B` (one summary line per seed). Environment: `JUDGE_TRACE_AT=K`
+//! judges only the prefix of `K` steps; `JUDGE_TRACE_RAW=1` prints every step's log10
+//! residuals, sweeps, continuity and monitors instead; `JUDGE_TRACE_SERIES=FROM` prints
+//! 40-step monitor means from step `FROM`.
 
-use settle::judge::{self, Criteria, Verdict};
+use settle::judge::{self, Criteria, FindingKind, Verdict};
 use settle::synth::{self, Scenario};
 
 fn main() {
@@ -37,10 +42,32 @@ fn main() {
         dump(&run, from);
         return;
     }
+    if std::env::var("JUDGE_TRACE_RAW").is_ok() {
+        for s in &run.steps {
+            let r: Vec<String> =
+                s.residuals.iter().map(|(_, x)| format!("{:7.3}", x.log10())).collect();
+            println!(
+                "{:5} {} sw {:?} cont {:.3e} drag {:.6} lift {:.6} dp {:.6}",
+                s.iteration,
+                r.join(" "),
+                s.sweeps,
+                s.continuity,
+                s.drag,
+                s.lift,
+                s.dp
+            );
+        }
+        return;
+    }
     let criteria = Criteria::default();
     let stride = if every > 0 { every } else { (n / 160).max(1) };
     let mut last: Option<Verdict> = None;
-    for k in (30.min(n)..=n).step_by(stride).chain(std::iter::once(n)) {
+    let at = std::env::var("JUDGE_TRACE_AT").ok().and_then(|v| v.parse::<usize>().ok());
+    let ks: Vec<usize> = match at {
+        Some(k) => vec![k],
+        None => (30.min(n)..=n).step_by(stride).chain(std::iter::once(n)).collect(),
+    };
+    for k in ks {
         let input = synth::prefix_input(&full, &run, k);
         let j = judge::judge(&input, &criteria);
         let changed = last != Some(j.verdict);
@@ -69,7 +96,8 @@ fn main() {
             );
         }
         let shown = |f: &&settle::judge::Finding| {
-            f.supports.is_some() || f.kind == settle::judge::FindingKind::Oscillation
+            f.supports.is_some()
+                || matches!(f.kind, FindingKind::Oscillation | FindingKind::GrowingOscillation)
         };
         for f in j.findings.iter().filter(shown) {
             println!("    finding {:?} {:?}: {}", f.kind, f.series, f.detail);

@@ -92,6 +92,7 @@ mod common_fall;
 pub mod criteria;
 pub mod eta;
 mod events;
+mod growth;
 mod health;
 pub mod history;
 pub mod iterative;
@@ -270,6 +271,20 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         }
     }
 
+    let peers: Vec<growth::Peer<'_>> = work
+        .iter()
+        .filter(|(_, rc, _, mag)| match rc.role {
+            Role::Residual => true,
+            Role::Monitor => mag.is_some(),
+            _ => false,
+        })
+        .map(|(s, rc, view, _)| growth::Peer {
+            name: &s.name,
+            view: *view,
+            residual: rc.role == Role::Residual,
+        })
+        .collect();
+    growth::corroborate(&mut sink, &peers);
     let last = last_it.unwrap_or(0);
     if !input.ended {
         common_fall::demote_hidden(&stalls, &residual_views, last, &mut sink);
@@ -387,40 +402,6 @@ fn limiting_residual(sink: &mut Sink, causes: Vec<usize>) -> Vec<usize> {
     vec![slowest]
 }
 
-/// A growing oscillation decides (`diverging`) when at least two series grow with the same
-/// period ([`limits::GROWTH_SAME_PERIOD`]), or alone once it has grown a hundredfold
-/// (`health::growing_cycle`); otherwise it stays a note.
-fn corroborate_growth(sink: &mut Sink) {
-    let growing: Vec<(usize, f64, Option<String>)> = sink
-        .findings
-        .iter()
-        .enumerate()
-        .filter(|(_, f)| f.kind == FindingKind::GrowingOscillation)
-        .filter_map(|(i, f)| f.period.map(|p| (i, p, f.series.clone())))
-        .collect();
-    for (i, p, s) in &growing {
-        let others = growing
-            .iter()
-            .filter(|(j, q, t)| j != i && t != s && (q - p).abs() <= limits::GROWTH_SAME_PERIOD * p)
-            .count();
-        let f = &mut sink.findings[*i];
-        if f.supports == Some(Verdict::Diverging) {
-            f.detail.push_str(if others > 0 {
-                "; grown a hundredfold, and other series grow with the same period: heading for divergence"
-            } else {
-                "; grown a hundredfold: heading for divergence"
-            });
-        } else if others > 0 {
-            f.supports = Some(Verdict::Diverging);
-            f.detail.push_str(&format!(
-                "; {others} other series grow with the same period: heading for divergence"
-            ));
-        } else {
-            f.detail.push_str("; no other series grows with it (noted, not deciding)");
-        }
-    }
-}
-
 /// A monitor departing exponentially from its level ([`health::departure_growth`]) decides
 /// only while the residuals do not fall: when at least half of them still fall
 /// significantly towards their targets (a `converging` trend, criteria unmet), the
@@ -462,7 +443,6 @@ struct Failing {
 /// deciding oscillation of the same residual name each other; evidence ranges stay inside
 /// the data.
 fn finish(sink: &mut Sink, first: i64, last: i64) {
-    corroborate_growth(sink);
     departure_while_falling(sink);
     let diverging = sink.findings.iter().any(|f| f.supports == Some(Verdict::Diverging));
     if diverging {

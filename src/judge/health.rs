@@ -277,11 +277,7 @@ pub fn growing_cycle(
     // cycle grown by orders of magnitude (it then decides alone).
     let mut first = None;
     for w in GROWTH_WINDOWS {
-        let win = match magnitude {
-            None => v.window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN }),
-            Some(_) => v.window_map(last_it, w, |x| x),
-        }
-        .from_iteration(from);
+        let win = window_in(v, last_it, w, magnitude.is_none()).from_iteration(from);
         if win.len() < 32 {
             continue;
         }
@@ -294,13 +290,8 @@ pub fn growing_cycle(
         // the logarithm as the level falls (×100 for two decades of fall, near period 2,
         // white noise's highest frequency). The cycle before a crash grows while the level
         // does not fall. Growth in units = growth in the logarithm × the level's change.
-        if magnitude.is_none() {
-            let level_change = super::trend::fit(&win.its, &win.vals)
-                .map_or(0.0, |t| t.slope_dec_per_kit * win.span() as f64 / 1000.0);
-            if g.envelope.ratio * 10f64.powf(level_change.min(0.0)) < oscillation::GROWTH_MIN_RATIO
-            {
-                continue;
-            }
+        if magnitude.is_none() && !grown_in_units(&win, g.envelope.ratio) {
+            continue;
         }
         let (material, amp_text) = match magnitude {
             None => (
@@ -346,6 +337,40 @@ pub fn growing_cycle(
         first.get_or_insert(f);
     }
     first.map(|f| sink.findings.push(f)).is_some()
+}
+
+/// The window `(t − w, t]` of `v`, in decades when `decades` (a residual: non-positive
+/// values dropped), else as it is.
+fn window_in(v: &View<'_>, t: i64, w: usize, decades: bool) -> series::Window {
+    match decades {
+        true => v.window_map(t, w, |x| if x > 0.0 { x.log10() } else { f64::NAN }),
+        false => v.window_map(t, w, |x| x),
+    }
+}
+
+/// A residual's cycle (`win` in decades) whose log-amplitude grew `ratio`-fold grew at least
+/// [`oscillation::GROWTH_MIN_RATIO`]-fold in the residual's own units: growth in units is
+/// growth in the logarithm times the level's change over the window.
+fn grown_in_units(win: &series::Window, ratio: f64) -> bool {
+    let level_change = super::trend::fit(&win.its, &win.vals)
+        .map_or(0.0, |t| t.slope_dec_per_kit * win.span() as f64 / 1000.0);
+    ratio * 10f64.powf(level_change.min(0.0)) >= oscillation::GROWTH_MIN_RATIO
+}
+
+/// Whether `v` grows at the period of another series' growing cycle over the iterations
+/// `first..=last` that cycle was found in: its envelope at that period rises at one-sided
+/// level `level` ([`oscillation::Envelope::grows`]; a residual in decades and grown in its
+/// own units too). The period is given, not searched for, so no spectral test is needed: one
+/// instability of the coupled solve shows in every equation at once, each with its own
+/// share of noise.
+pub fn grows_at(v: &View<'_>, residual: bool, period: f64, span: (i64, i64), level: f64) -> bool {
+    let (first, last) = span;
+    let w = usize::try_from(last - first + 1).unwrap_or(0);
+    let win = window_in(v, last, w, residual).from_iteration(first.max(v.seg_first_it()));
+    match oscillation::envelope_at(&win, period) {
+        Some(e) => e.grows(level) && (!residual || grown_in_units(&win, e.ratio)),
+        None => false,
+    }
 }
 
 /// The statistic of a [`departure_growth`] finding (the judge recognises it by this).
