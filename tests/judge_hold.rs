@@ -85,3 +85,27 @@ fn a_segment_restarted_from_a_checkpoint_is_judged_only_once_it_has_the_data() {
         assert!(m.window > 150, "{}: window {}", m.series, m.window);
     }
 }
+
+/// A solver resumed from the checkpoint it wrote last numbers on from there: only its
+/// restart notice shows the restart. Restart seed 5008 (killed at 2004 right after its
+/// checkpoint) was called `converged` at step 2100, 39 steps before its true settling step,
+/// when the window reached back across the restart's kick and read the kick as the end of
+/// the approach; with the notice the segment is judged only once it has the data.
+#[test]
+fn a_restart_from_the_last_checkpoint_is_a_segment_too() {
+    let run = synth::generate(Scenario::Restart, 5008);
+    let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).expect("a restart");
+    assert_eq!(run.steps[seg].iteration, run.steps[seg - 1].iteration + 1, "numbers go on");
+    let settled = run.truth.settled.expect("the run settles");
+    let store = synth::to_store(&run);
+    assert_eq!(store.sources[0].segments.len(), 2);
+    let full = store.judge_input();
+    let restart_it = run.steps[seg].iteration;
+    for k in (seg + 10..=settled).step_by(10) {
+        let j = judged(&synth::prefix_input(&full, &run, k));
+        assert_ne!(j.verdict, Verdict::Converged, "step {k}, settled at {settled}");
+        for m in j.monitors.iter().filter(|m| m.window > 0) {
+            assert!(m.window_first >= restart_it, "{}: window from {}", m.series, m.window_first);
+        }
+    }
+}

@@ -240,3 +240,33 @@ fn text_that_is_no_run_log_is_refused_with_a_reason() {
     let err = draft_text("x", "empty.log", b"\n\n").unwrap_err();
     assert!(err.contains("empty"), "{err}");
 }
+
+/// A run that resumed from its last checkpoint (the step numbers go on) and writes restart
+/// files: the draft names the resume notice `resumed`, the name that opens a segment, and
+/// leaves the restart-file line its own name, so that writing a checkpoint is no restart.
+#[test]
+fn a_resume_notice_is_drafted_as_resumed_and_opens_a_segment() {
+    let rill = formats::rill(120);
+    let mut text = String::new();
+    for line in rill.lines() {
+        text.push_str(line);
+        text.push('\n');
+        if line.starts_with("it     40 ") || line.starts_with("it     80 ") {
+            text.push_str("restart file written to nozzle-3.rst\n");
+        }
+        if line.starts_with("it     80 ") {
+            text.push_str("resumed from nozzle-3.rst at iteration 80\n");
+        }
+    }
+    let d = drafted("rill", &text);
+    let src = d.source_text();
+    assert!(src.contains("name = \"resumed\""), "{src}");
+    assert!(src.contains("name = \"restart\""), "{src}");
+    let s = read(&d, &text);
+    assert_eq!(s.records(), 120);
+    let rules: Vec<&str> = s.events.iter().map(|e| e.rule.as_str()).collect();
+    assert_eq!(rules, ["restart", "restart", "resumed"]);
+    // One segment from the notice on: records 1–80, then 81–120.
+    assert_eq!(s.segments.len(), 2, "{:?}", s.segments);
+    assert_eq!(s.segments[1].first_record, 80);
+}

@@ -276,7 +276,7 @@ restarting from checkpoint at step 550
     let its: Vec<Option<i64>> = p.records.iter().map(|r| r.iteration).collect();
     assert_eq!(its, vec![Some(600), Some(551)]);
     assert_eq!(p.events.len(), 1);
-    assert_eq!(p.events[0].rule, "restart");
+    assert_eq!(p.events[0].rule, "resumed");
     assert_eq!(p.events[0].severity, Severity::Info);
     assert_eq!(p.events[0].message, "restarting from checkpoint at step 550");
 }

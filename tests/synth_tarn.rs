@@ -223,6 +223,10 @@ fn direct_store_agrees_with_the_written_log() {
         assert_eq!(count("warning"), warnings, "{s}");
         assert_eq!(count("crash"), usize::from(log.contains("*** tarn fatal")), "{s}");
         assert_eq!(count("solver_converged"), usize::from(log.contains("targets reached")));
+        let restarts = lines.iter().filter(|l| l.starts_with("restarting from checkpoint")).count();
+        assert_eq!(count("resumed"), restarts, "{s}");
+        // Every restart opens a segment, whether or not the step numbers go back.
+        assert_eq!(src.segments.len(), 1 + restarts, "{s}");
         assert_eq!(src.ended.is_some(), log.contains("tarn: finished after"), "{s}");
         for ev in &src.events {
             let l = lines[ev.line as usize - 1].trim();
@@ -293,4 +297,32 @@ fn prefixes_match_a_store_of_the_prefix() {
             assert_eq!(cut.ended_at, direct.ended_at);
         }
     }
+}
+
+/// A solver resumed from the checkpoint it wrote last numbers on from there: read through
+/// the shipped `tarn` definition, its restart notice opens the segment the direct store has,
+/// at the same record.
+#[test]
+fn a_restart_from_the_last_checkpoint_is_a_segment_when_parsed() {
+    let run = (0..60)
+        .map(|seed| synth::generate(Scenario::Restart, seed))
+        .find(|r| {
+            r.steps.iter().zip(r.steps.iter().skip(1)).all(|(a, b)| b.iteration > a.iteration)
+        })
+        .expect("a restart from the last checkpoint among 60 seeds");
+    let log = text(&run);
+    let registry = settle::parser::Registry::builtin();
+    let mut p = registry.get("tarn").expect("shipped definition").parser();
+    let mut out = Vec::new();
+    for l in log.lines() {
+        p.feed(l.as_bytes(), &mut out);
+    }
+    p.finish(&mut out);
+    let mut parsed = settle::run::SourceStore::new("tarn.log", "tarn");
+    parsed.apply(out);
+    let direct = synth::to_store(&run);
+    let restart = run.steps.iter().position(|s| s.restart_from.is_some()).expect("restart");
+    assert_eq!(parsed.segments.len(), 2);
+    assert_eq!(parsed.segments[1].first_record, restart);
+    assert_eq!(parsed.segments, direct.sources[0].segments);
 }

@@ -52,6 +52,10 @@ pub enum SegmentReason {
     Replaced,
     /// The next file of a restart glob (`run.log.2` after `run.log.1`).
     NewFile { path: PathBuf },
+    /// The solver said it resumed (an event rule named `resumed`, on `line`): a solver
+    /// resumed from the checkpoint it wrote last numbers on from there, so the iteration
+    /// numbers alone do not show the restart, and its kick would read as part of the run.
+    Notice { line: u64 },
 }
 
 /// A range of records between two restarts.
@@ -172,6 +176,9 @@ impl SourceStore {
         if self.rereading() && self.reread_event(&ev) {
             return;
         }
+        if is_restart_notice(&ev) && !self.iterations.is_empty() && self.pending_segment.is_none() {
+            self.pending_segment = Some(SegmentReason::Notice { line: ev.line });
+        }
         if self.events.len() >= MAX_EVENTS {
             self.events.remove(0);
             self.events_dropped += 1;
@@ -184,7 +191,7 @@ impl SourceStore {
         if self.rereading() && self.reread_record(&rec) {
             return;
         }
-        let pos = self.push_head(rec.iteration, rec.time);
+        let pos = self.push_head(rec.iteration, rec.time, rec.line);
         let segment = self.segments.last().map_or(0, |s| s.first_record as u64);
         for &(id, v) in rec.values {
             if let Some(&idx) = self.ids.get(id as usize)
@@ -197,16 +204,32 @@ impl SourceStore {
 
     /// A new record's iteration and time (its values follow): opens a segment when it
     /// must, and returns the record's position.
-    fn push_head(&mut self, iteration: Option<i64>, time: Option<f64>) -> u32 {
+    fn push_head(&mut self, iteration: Option<i64>, time: Option<f64>, line: u64) -> u32 {
         let last = self.iterations.last().copied();
+        // A restart notice reaches the store before the record that was open when it was
+        // printed (a record closes at the next step line): that record is still the old
+        // process's; the segment opens at the first record that starts after the notice.
+        let waits =
+            matches!(self.pending_segment, Some(SegmentReason::Notice { line: n }) if line <= n);
+        let pending = if waits { None } else { self.pending_segment.take() };
         let iteration = match (iteration, last) {
             (Some(it), _) => it,
-            (None, Some(l)) if self.pending_segment.is_none() => l + 1,
+            // A new file numbers its records from 1; a restart notice within a file does not.
+            (None, Some(l)) if matches!(pending, None | Some(SegmentReason::Notice { .. })) => {
+                l + 1
+            }
             (None, Some(_)) | (None, None) => 1,
         };
         if self.iterations.is_empty() {
             self.segments.push(Segment { first_record: 0, reason: SegmentReason::Start });
-        } else if let Some(reason) = self.pending_segment.take() {
+        } else if let Some(reason) = pending {
+            // A notice and a step back name the same restart: the step back says more.
+            let reason = match (reason, last) {
+                (SegmentReason::Notice { .. }, Some(l)) if iteration <= l => {
+                    SegmentReason::IterationBack { from: l, to: iteration }
+                }
+                (r, _) => r,
+            };
             self.segments.push(Segment { first_record: self.iterations.len(), reason });
         } else if let Some(l) = last
             && iteration <= l
@@ -216,7 +239,6 @@ impl SourceStore {
                 reason: SegmentReason::IterationBack { from: l, to: iteration },
             });
         }
-        self.pending_segment = None;
         let pos = self.iterations.len() as u32;
         self.iterations.push(iteration);
         match time {
@@ -365,6 +387,13 @@ impl Sink for SourceStore {
             self.skips.push(skip);
         }
     }
+}
+
+/// An event that says the solver resumed from a checkpoint: its rule is named `resumed` (any
+/// case), the name `parsers/README.md` reserves for it. Not `restart`: that word also names
+/// the writing of a restart file, which is no restart of the run.
+pub fn is_restart_notice(ev: &Event) -> bool {
+    ev.rule.eq_ignore_ascii_case("resumed")
 }
 
 /// Index of the segment holding `record`, and its id for [`Series`]' history (its first

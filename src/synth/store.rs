@@ -67,8 +67,16 @@ pub fn to_store_prefix(run: &SynthRun, steps: usize) -> RunStore {
     let mut line = BANNER_LINES;
     let mut used = 0u64;
     for (k, st) in run.steps[..steps].iter().enumerate() {
-        if st.restart_from.is_some() {
+        if let Some(from) = st.restart_from {
             line += 1;
+            used += 1;
+            out.push(Output::Event(Event {
+                severity: Severity::Info,
+                rule: "resumed".to_string(),
+                message: format!("restarting from checkpoint at step {from}"),
+                line,
+                iteration: run.steps[..k].last().map(|p| p.iteration),
+            }));
         }
         line += 1;
         used += 1;
@@ -172,7 +180,10 @@ pub fn prefix_input<'a>(full: &'a RunInput<'_>, run: &SynthRun, steps: usize) ->
     let events_kept: usize = if whole {
         full.events.len()
     } else {
-        run.steps[..steps].iter().map(|s| s.warnings.len() + s.notices.len()).sum()
+        let per_step = |s: &super::Step| {
+            s.warnings.len() + s.notices.len() + usize::from(s.restart_from.is_some())
+        };
+        run.steps[..steps].iter().map(per_step).sum()
     };
     let series = full
         .series

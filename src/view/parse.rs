@@ -37,6 +37,7 @@ fn segment_text(reason: &SegmentReason) -> String {
         SegmentReason::Truncated => "file truncated or rewritten: read again from its start".into(),
         SegmentReason::Replaced => "file replaced by a new one".into(),
         SegmentReason::NewFile { path } => format!("next restart file {}", path.display()),
+        SegmentReason::Notice { line } => format!("restart: resumed, notice on line {line}"),
     }
 }
 

@@ -20,12 +20,12 @@ impl SourceStore {
         let mut started = skip == 0;
         for item in b.items() {
             match item {
-                BatchItem::Record { index, iteration, time, .. } => {
+                BatchItem::Record { index, iteration, time, line } => {
                     if index < skip {
                         started = true;
                         continue;
                     }
-                    self.push_head(iteration, time);
+                    self.push_head(iteration, time, line + line_offset);
                 }
                 _ if !started => {}
                 BatchItem::Series(info) => self.series(info.clone()),

@@ -216,3 +216,55 @@ fn different_quantities_with_one_name_stay_apart_once_seen() {
         assert_eq!(judged(&log, n, &csv, 3.max(n / 2)), want, "{n}");
     }
 }
+
+fn restart_notice(line: u64) -> Output {
+    Output::Event(notice_event(line))
+}
+
+fn notice_event(line: u64) -> Event {
+    Event {
+        severity: crate::record::Severity::Info,
+        rule: "Resumed".into(),
+        message: "restarting from checkpoint at step 2".into(),
+        line,
+        iteration: None,
+    }
+}
+
+/// A record of `p` opened on `line`.
+fn at(it: i64, line: u64, p: f64) -> Output {
+    Output::Record(Record { iteration: Some(it), values: vec![(0, p)], line, ..Default::default() })
+}
+
+#[test]
+fn a_restart_notice_opens_a_segment_even_when_the_numbers_go_on() {
+    // A solver resumed from the checkpoint it wrote last: 1, 2, notice, 3, 4.
+    let mut s = SourceStore::new("log", "demo");
+    s.apply([info(0, "p"), at(1, 1, 1.0), at(2, 3, 0.5), restart_notice(4)]);
+    s.apply([at(3, 5, 0.9), at(4, 6, 0.8)]);
+    assert_eq!(s.segments.len(), 2);
+    assert_eq!(s.segments[1].first_record, 2);
+    assert_eq!(s.segments[1].reason, SegmentReason::Notice { line: 4 });
+    let p = s.series_by_name("p").unwrap();
+    assert_eq!(s.series_segment_starts(p), vec![0, 2]);
+    assert_eq!(s.events.len(), 1);
+    // The notice arrives while the record of it 2 is still open (a record closes at the next
+    // step line), so the parser emits it first: it 2 stays in the old segment.
+    let mut s = SourceStore::new("log", "demo");
+    s.apply([info(0, "p"), at(1, 1, 1.0), restart_notice(4), at(2, 3, 0.5), at(3, 5, 0.9)]);
+    assert_eq!(s.segments.iter().map(|g| g.first_record).collect::<Vec<_>>(), vec![0, 2]);
+    // Resumed from an older checkpoint: one segment, named by the step back.
+    let mut s = SourceStore::new("log", "demo");
+    s.apply([info(0, "p"), at(1, 1, 1.0), at(2, 3, 0.5), restart_notice(4)]);
+    s.apply([at(2, 5, 0.9), at(3, 6, 0.8)]);
+    assert_eq!(s.segments.len(), 2);
+    assert_eq!(s.segments[1].reason, SegmentReason::IterationBack { from: 2, to: 2 });
+    // A notice before the first record (a run started from an earlier run's checkpoint)
+    // is the start, and an event of another name (`restart`: a restart file written) opens
+    // nothing.
+    let mut s = SourceStore::new("log", "demo");
+    s.apply([info(0, "p"), restart_notice(1), at(10, 2, 1.0), at(11, 3, 0.5)]);
+    let other = Output::Event(Event { rule: "restart".into(), line: 5, ..notice_event(5) });
+    s.apply([other, at(12, 6, 0.4)]);
+    assert_eq!(s.segments.len(), 1);
+}

@@ -155,6 +155,10 @@ pub fn event_rules(
                         "info",
                         if matches!(keyword.as_str(), "converged" | "reached") {
                             "solver_converged".into()
+                        } else if matches!(keyword.as_str(), "restarting" | "resumed") {
+                            // The name that opens a segment (`restart` alone may be the
+                            // writing of a restart file, and keeps its own name).
+                            "resumed".into()
                         } else {
                             keyword.clone()
                         },
