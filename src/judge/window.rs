@@ -162,7 +162,7 @@ pub fn project(outer: &Window) -> Option<Projection> {
     let rate = if decaying {
         s3
     } else {
-        let s23 = slope(&x[a..], &outer.vals[a..]).map_or(s3, |t| t.0);
+        let s23 = stats::ols(&x[a..], &outer.vals[a..]).map_or(s3, |f| f.slope);
         let follows = s23 * s3 > 0.0 && s3.abs() > 2.0 * e3;
         if follows { s3.abs().min(s23.abs()).copysign(s3) } else { 0.0 }
     };

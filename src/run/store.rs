@@ -392,7 +392,7 @@ impl Sink for SourceStore {
 /// An event that says the solver resumed from a checkpoint: its rule is named `resumed` (any
 /// case), the name `parsers/README.md` reserves for it. Not `restart`: that word also names
 /// the writing of a restart file, which is no restart of the run.
-pub fn is_restart_notice(ev: &Event) -> bool {
+fn is_restart_notice(ev: &Event) -> bool {
     ev.rule.eq_ignore_ascii_case("resumed")
 }
 
