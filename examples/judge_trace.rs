@@ -5,7 +5,8 @@
 //! `SEED` may be a range `A-B` (one summary line per seed). Environment: `JUDGE_TRACE_AT=K`
 //! judges only the prefix of `K` steps; `JUDGE_TRACE_RAW=1` prints every step's log10
 //! residuals, sweeps, continuity and monitors instead; `JUDGE_TRACE_SERIES=FROM` prints
-//! 40-step monitor means from step `FROM`.
+//! 40-step monitor means from step `FROM`; `JUDGE_TRACE_WHOLE=1` with a range prints only
+//! each seed's verdict on the complete run (a quick sweep over many seeds).
 
 use settle::judge::{self, Criteria, FindingKind, Verdict};
 use settle::synth::{self, Scenario};
@@ -19,8 +20,15 @@ fn main() {
     let seeds = args.get(1).map(String::as_str).unwrap_or("0");
     if let Some((a, b)) = seeds.split_once('-') {
         let (a, b): (u64, u64) = (a.parse().unwrap_or(0), b.parse().unwrap_or(0));
+        let whole_only = std::env::var("JUDGE_TRACE_WHOLE").is_ok();
         for seed in a..=b {
-            summary(scenario, seed);
+            if whole_only {
+                let run = synth::generate(scenario, seed);
+                let v = judge::judge(&synth::to_store(&run).judge_input(), &Criteria::default());
+                println!("seed {seed}: whole {:?} expected {:?}", v.verdict, scenario.expected());
+            } else {
+                summary(scenario, seed);
+            }
         }
         return;
     }
@@ -47,7 +55,7 @@ fn main() {
             let r: Vec<String> =
                 s.residuals.iter().map(|(_, x)| format!("{:7.3}", x.log10())).collect();
             println!(
-                "{:5} {} sw {:?} cont {:.3e} drag {:.6} lift {:.6} dp {:.6}",
+                "{:5} {} sw {:?} cont {:.3e} drag {:.7e} lift {:.7e} dp {:.7e}",
                 s.iteration,
                 r.join(" "),
                 s.sweeps,

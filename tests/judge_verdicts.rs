@@ -10,6 +10,7 @@ use settle::judge::{
     SeriesInput, Verdict, judge, try_judge,
 };
 use settle::record::{Event, Role, Severity};
+use settle::synth::{self, Scenario};
 
 #[path = "support/rng.rs"]
 mod rng;
@@ -1521,5 +1522,40 @@ fn a_finished_run_is_judged_on_its_stall_window_not_on_the_wander_at_its_end() {
         assert!(j.findings.iter().any(|f| f.kind == FindingKind::Trend), "{}", explain(&j));
         let f = &j.findings[j.causes[0]];
         assert!(f.kind == FindingKind::Stall && f.last - f.first >= 790, "{}", explain(&j));
+    }
+}
+
+#[test]
+fn a_finished_plateau_that_wandered_back_down_is_stalled_and_a_new_low_is_not() {
+    // The synthetic stall scenario, seeds 8001 and 8014 (traced misses of the accuracy
+    // bench): a plateau of slow red-noise wander (AR(1), φ ≥ 0.985, common to every
+    // residual) that dips over the last 500 iterations of a finished run. The dip reads as
+    // a significant fall of 0.35–0.9 dec/kit over the evidence window and of 0.3–0.4 over
+    // the 1000-iteration stall window, so the window's slope alone said "still on its way"
+    // and the run was `suspect` (checked: without the rule both are). Each ends no lower than
+    // a residual already was earlier on its plateau: `stalled`, the rule named.
+    for seed in [8001, 8014] {
+        let run = synth::generate(Scenario::Stall, seed);
+        let j = judge(&synth::to_store(&run).judge_input(), &Criteria::default());
+        assert_eq!(j.verdict, Verdict::Stalled, "seed {seed}\n{}", explain(&j));
+        assert!(
+            j.causes.iter().any(|&i| j.findings[i].detail.contains("no lower than it already")),
+            "seed {seed}\n{}",
+            explain(&j)
+        );
+    }
+    // Synthetic: a finished run still falling steadily at 0.5 dec/kit over its last 1500
+    // iterations, 1.2 decades short, in AR(1) noise of 0.05 decades: each window ends below
+    // everything before it, so it is not stalled (drag drifts: stopped on its way).
+    for seed in 720..730 {
+        let mut rng = Rng(seed);
+        let n = 3000;
+        let res = residual(&mut rng, n, 0.05, |i| {
+            -(i / 300.0).min(1.0) - 0.5 * (i - 1500.0).max(0.0) / 1000.0
+        });
+        let cd = monitor(&mut rng, n, 1e-4, |i| 0.0312 * (1.0 + 0.004 * i / 1000.0));
+        let run = Run::new().add("res_p", Role::Residual, res).add("Cd", Role::Monitor, cd);
+        let j = run.ended().judge();
+        assert_eq!(j.verdict, Verdict::Suspect, "seed {seed}\n{}", explain(&j));
     }
 }

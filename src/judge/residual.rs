@@ -288,6 +288,9 @@ enum Ended {
 /// evidence window (or half the segment of a short run) or its stall window shows no fall:
 /// the first misses the wander of a plateau that falls over the last few hundred
 /// iterations, the second a plateau shorter than itself, whose approach it still holds.
+/// Slow wander (red noise with a correlation time of hundreds of iterations) can read as a
+/// significant fall over the stall window too: a finished run whose last fall ends no lower
+/// than the residual already was earlier in that window is stalled ([`wandered_back`]).
 fn stall(
     name: &str,
     v: &View<'_>,
@@ -321,7 +324,14 @@ fn stall(
         return None;
     }
     let t = trend::fit(&win.its, &win.vals)?;
-    if t.falling(MIN_FALL_DEC_PER_KIT) {
+    // A finished run whose plateau wandered back down at its end: the fall over the last
+    // evidence window ends no lower than the residual already was earlier in the stall window
+    // (the test a live plateau must pass to be over, below). Its slope over a plateau
+    // of slow red-noise wander reads significant, but the run made no progress.
+    let falls = t.falling(MIN_FALL_DEC_PER_KIT);
+    let back_down =
+        if falls && how == Ended::Long { wandered_back(v, &win, rc.evidence()) } else { None };
+    if falls && back_down.is_none() {
         return None;
     }
     // While the run goes on, a plateau that has begun to fall again is over: the last
@@ -363,15 +373,46 @@ fn stall(
     } else {
         "above its target level".to_string()
     };
-    f.detail = format!(
-        "{name} has not fallen for {} iterations: slope {} dec/kit (95 % CI {}…{}), {shortfall}",
-        its(t.last.saturating_sub(first) as f64),
-        dec(t.slope_dec_per_kit),
-        dec(t.ci.0),
-        dec(t.ci.1),
-    );
+    f.detail = match back_down {
+        Some((low_at, low)) => format!(
+            "{name} ended no lower than it already was at it {low_at} ({}): its fall over the last {} iterations (slope {} dec/kit over {}) only took it back down its plateau, where it has been for {} iterations; {shortfall}",
+            num(10f64.powf(low)),
+            rc.evidence(),
+            dec(t.slope_dec_per_kit),
+            its(t.last.saturating_sub(t.first) as f64),
+            its(t.last.saturating_sub(first) as f64),
+        ),
+        None => format!(
+            "{name} has not fallen for {} iterations: slope {} dec/kit (95 % CI {}…{}), {shortfall}",
+            its(t.last.saturating_sub(first) as f64),
+            dec(t.slope_dec_per_kit),
+            dec(t.ci.0),
+            dec(t.ci.1),
+        ),
+    };
     sink.findings.push(f);
     Some(StallFacts { finding: sink.findings.len() - 1, from: t.first, ci: t.ci })
+}
+
+/// A finished run's fall over its last `evidence` iterations that ends (on the fitted line)
+/// no lower than the lowest value the stall window `win` showed before them: the iteration
+/// and log10 value of that earlier low. The same comparison ends a live run's plateau (the
+/// wander of a stall dips, but not out of its own range); a run still converging ends below
+/// everything it showed before.
+fn wandered_back(v: &View<'_>, win: &series::Window, evidence: usize) -> Option<(i64, f64)> {
+    let split = v.last_it().saturating_sub(evidence as i64 - 1);
+    let recent = win.from_iteration(split);
+    let k = win.len() - recent.len();
+    if recent.len() < 30 || k < 30 {
+        return None;
+    }
+    let r = trend::fit(&recent.its, &recent.vals)?;
+    let (at, low) = win.its[..k]
+        .iter()
+        .zip(&win.vals[..k])
+        .filter(|(_, y)| y.is_finite())
+        .min_by(|a, b| a.1.total_cmp(b.1))?;
+    (r.fitted_last >= *low).then_some((*at, *low))
 }
 
 /// The divergence rules on the latest segment after its start-up. Returns true when a
