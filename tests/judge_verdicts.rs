@@ -1191,21 +1191,38 @@ fn a_high_residual_stall_with_a_weak_peak_is_stalled_with_the_ripple_as_a_note()
 
 #[test]
 fn a_long_period_monitor_cycle_is_oscillating() {
-    // Residuals met; Cd swings ±1 % with a period of 240 over 4000 iterations: five cycles
-    // do not fit the 500-iteration window, the look-back over the segment finds them.
-    let mut rng = Rng(400);
-    let n = 4000;
-    let cd = monitor(&mut rng, n, 1e-5, |i| {
-        0.0312 * (1.0 + 0.01 * (2.0 * std::f64::consts::PI * i / 240.0).sin())
-    });
-    let run = Run::new()
-        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
-        .add("Cd", Role::Monitor, cd);
-    let j = run.judge();
+    // Residuals met; Cd swings with a period of 240 or 280 over 4000 iterations, its
+    // fundamental ±1 % or ±0.5 % with a second harmonic of half that: five cycles do not fit
+    // the 500-iteration window, the look-back over the segment finds them.
+    for (period, amp) in [(240.0, 0.01), (280.0, 0.01), (280.0, 0.005)] {
+        let mut rng = Rng(400);
+        let n = 4000;
+        let cd = monitor(&mut rng, n, 1e-5, |i| {
+            let t = 2.0 * std::f64::consts::PI * i / period;
+            0.0312 * (1.0 + amp * (t.sin() + 0.5 * (2.0 * t + 1.0).sin()))
+        });
+        let run = Run::new()
+            .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
+            .add("Cd", Role::Monitor, cd);
+        let j = run.judge();
+        assert_eq!(j.verdict, Verdict::Oscillating, "{period} {amp}\n{}", explain(&j));
+        let f = &j.findings[j.causes[0]];
+        assert!((f.period.expect("period") - period).abs() < 10.0, "{}", explain(&j));
+        let a = f.amplitude.expect("amplitude");
+        assert!((a - 100.0 * amp).abs() < 0.15 * 100.0 * amp, "{period} {amp}\n{}", explain(&j));
+    }
+    // The synthetic long-period scenario, seed 153 (a traced miss): lift swings ±0.7 % with
+    // a jittered, non-sinusoidal cycle of period about 280. The 1000-iteration look-back
+    // found it dominant but pinned at 222 iterations, the longest period it resolves (4.5
+    // cycles), read at ±0.17 %: "too small against the band limit", and the run `suspect`
+    // (checked: without the pinned-period rule it is). A pinned period asks the next,
+    // longer look-back, which reads about 272 iterations and ±0.64 %.
+    let run = synth::generate(Scenario::LongPeriodCycle, 153);
+    let j = judge(&synth::to_store(&run).judge_input(), &Criteria::default());
     assert_eq!(j.verdict, Verdict::Oscillating, "{}", explain(&j));
     let f = &j.findings[j.causes[0]];
-    assert!((f.period.expect("period") - 240.0).abs() < 10.0, "{}", explain(&j));
-    assert!((f.amplitude.expect("amplitude") - 1.0).abs() < 0.15, "{}", explain(&j));
+    let period = f.period.expect("period");
+    assert!((250.0..300.0).contains(&period), "{}", explain(&j));
 }
 
 #[test]

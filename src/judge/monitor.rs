@@ -253,8 +253,16 @@ fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
     let near_win = v.window(e);
     let near =
         oscillation::find(&post(&near_win)).map(|p| oscillation::with_envelope_over(p, &near_win));
+    // A component whose period is pinned at the longest the window resolves may be a longer
+    // cycle seen at the wrong period (and so at too small an amplitude): it is kept, and a
+    // longer look-back that finds the component unpinned replaces it.
+    let pinned = |p: &Option<Periodic>| p.as_ref().is_some_and(|p| p.at_longest_period());
+    let mut kept = None;
     if good(&near) {
-        return near;
+        if !pinned(&near) {
+            return near;
+        }
+        kept = near;
     }
     // Look back over 2, 4, … up to LONG_LOOKBACK_WINDOWS evidence windows, the shortest
     // first: the longest look-back of a long run reaches back into its start-up, whose
@@ -266,11 +274,14 @@ fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
         let far = oscillation::find(&post(&far_win))
             .map(|p| oscillation::with_envelope_over(p, &far_win));
         if good(&far) {
-            return far;
+            if !pinned(&far) {
+                return far;
+            }
+            kept = kept.or(far);
         }
         mult *= 2;
     }
-    near
+    kept.or(near)
 }
 
 /// Judge one monitor; pushes criteria, findings and the summary into `sink`. `round_off`:

@@ -106,6 +106,18 @@ impl Periodic {
         self.share > DOMINANT_SHARE
     }
 
+    /// The period came out at the longest the window resolves (its refinement stops at
+    /// `MIN_CYCLES − ½` cycles in the window): the cycle may be longer than this window
+    /// shows, and a longer look-back can tell. Within 1 % of that bound counts.
+    pub fn at_longest_period(&self) -> bool {
+        let spacing = self.period / self.osc.period;
+        if !(spacing > 0.0) {
+            return false;
+        }
+        let n = ((self.last - self.first) as f64 / spacing).round() + 1.0;
+        self.osc.period * (spectrum::MIN_CYCLES as f64 - 0.5) >= 0.99 * n
+    }
+
     /// The amplitude shrinks: as measured, it halves within `horizon` iterations (the window
     /// the criteria look at), over the window or over the longer look-back. The burden of
     /// proof lies with "it lasts": a cycle whose measured decay would halve it before the
