@@ -194,8 +194,8 @@ pub fn project(outer: &Window) -> Option<Projection> {
 /// Least-squares slope of `y` against `x` with its standard error widened for the
 /// autocorrelation of monitor noise (AR(1) approximation of the integrated autocorrelation
 /// time from the lag-1 autocorrelation of the residuals, `τ = (1+ρ)/(1−ρ)`, at most n/4: an
-/// O(n) correction, cheap enough for every checkpoint), the centre of `x` and the fitted
-/// value at the last `x`.
+/// O(n) correction, cheap enough for every checkpoint), the centre of `x`, the fitted
+/// value at the last `x`, and the mean of `y` with its standard error.
 fn slope(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64, f64, Mean)> {
     let fit = stats::ols(x, y)?;
     let resid = stats::ols_residuals(&fit, x, y);
