@@ -75,18 +75,15 @@ fn a_segment_restarted_from_a_checkpoint_is_judged_only_once_it_has_the_data() {
     let j = judged(&synth::prefix_input(&full, &run, seg + 20));
     assert!(monitor_values(&j).iter().all(|v| v.is_nan()), "{:?}", monitor_values(&j));
     assert_ne!(j.verdict, Verdict::Converged);
-    // 300 iterations after it, they are, over the segment's own values back to where each
-    // monitor's transient ends: not capped at half of what the segment alone would allow
-    // (150; the run is 2 000 iterations old), as two of the three windows show.
+    // 300 iterations after it, they are, over a window of the segment's own values longer
+    // than half of what the segment alone would allow (the run is 2 000 iterations old).
     let j = judged(&synth::prefix_input(&full, &run, seg + 300));
     assert!(monitor_values(&j).iter().all(|v| v.is_finite()), "{:?}", monitor_values(&j));
     let restart_it = run.steps[seg].iteration;
     for m in &j.monitors {
         assert!(m.window_first >= restart_it, "{}: window from {}", m.series, m.window_first);
-        assert_eq!(Some(m.window_first), m.transient_end, "{}", m.series);
+        assert!(m.window > 150, "{}: window {}", m.series, m.window);
     }
-    let longer = j.monitors.iter().filter(|m| m.window > 150).count();
-    assert!(longer >= 2, "{:?}", j.monitors.iter().map(|m| m.window).collect::<Vec<_>>());
 }
 
 /// A solver resumed from the checkpoint it wrote last numbers on from there: only its

@@ -103,15 +103,9 @@ pub fn hold(window: usize, explicit: bool, age: i64) -> i64 {
 /// A monitor approaching its value geometrically (error `e·λ^i`, the picture behind the
 /// eigenvalue estimate of Ferziger & Perić) has a slope that shrinks by the same factor over
 /// equal spans: with least-squares slopes `s₁`, `s₂`, `s₃` over the three thirds (one sign,
-/// shrinking from third to third, the last step beyond two standard errors) a decay is seen.
-/// Its decay time `τ` comes from the thirds' means, whose successive differences shrink by
-/// `e^{−Δ/τ}` (`Δ` the distance of the thirds' centres; Aitken's Δ² picture) — a mean is far
-/// steadier than a slope, whose ratio `s₃/s₂` read the same `τ` anywhere from 200 to 400
-/// iterations on one run's successive checkpoints — or from `s₃/s₂` when the means do not
-/// show the decay. The value the monitor heads for is about `s₃·τ` beyond the last third's
-/// mean (its line passes through the mean at the third's centre with the slope there): from
-/// the line's value at the window's end, `h` iterations past that centre, `s₃·(τ − h)` is
-/// still to come. The horizon `τ` is trusted up to
+/// shrinking from third to third, the last step beyond two standard errors),
+/// `s₃/s₂ = e^{−Δ/τ}` (`Δ` the distance of the thirds' centres) gives the decay time `τ`, and
+/// the change still to come is about `s₃·τ`. The horizon `τ` is trusted up to
 /// [`HORIZON_WINDOWS`] upper windows only when both slopes stand clearly out of the noise
 /// (four standard errors, widened for autocorrelation): otherwise — noise, or a slope that
 /// does not shrink — it is the upper window itself. Without a decay, the rate carried over
@@ -120,10 +114,8 @@ pub fn hold(window: usize, explicit: bool, age: i64) -> i64 {
 /// a trend the monitor still follows shows in both readings, while a swing of red noise or
 /// of a slow ripple at the end of the window steepens only the last third (carried over a
 /// whole window, it read as a drift of 0.1 % on runs whose band was 0.05 %). A clear decay
-/// is projected with a margin of two standard errors of `s₃·τ` (the relative errors of `s₃`
-/// and of `τ` added, `τ`'s by the delta method), so that an estimate at the limit does not
-/// pass for one below it: with one, a lift read at 0.098 % against a limit of 0.1 % while
-/// 0.102 % was still to come was called `converged` 11 iterations early (ring-down, seed 6).
+/// is projected with a margin for the uncertainty of the two slopes (their relative
+/// standard errors added), so that an estimate at the limit does not pass for one below it.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Projection {
     /// Signed change still to come (units of the monitor).
@@ -148,8 +140,8 @@ pub fn project(outer: &Window) -> Option<Projection> {
     let (a, b) = (n - 2 * third, n - third);
     let x = outer.its_f64();
     let early = slope(&x[..a], &outer.vals[..a]);
-    let (s2, e2, c2, _, m2) = slope(&x[a..b], &outer.vals[a..b])?;
-    let (s3, e3, c3, end, m3) = slope(&x[b..], &outer.vals[b..])?;
+    let (s2, e2, c2, _) = slope(&x[a..b], &outer.vals[a..b])?;
+    let (s3, e3, c3, end) = slope(&x[b..], &outer.vals[b..])?;
     let s1 = early.map_or(f64::NAN, |t| t.0);
     let gap = c3 - c2;
     let span = outer.span() as f64 + outer.spacing();
@@ -163,18 +155,8 @@ pub fn project(outer: &Window) -> Option<Projection> {
         && gap > 0.0;
     let clear = s2.abs() > 4.0 * e2 && s3.abs() > 4.0 * e3;
     let cap = if clear { HORIZON_WINDOWS * span } else { span };
-    // The decay time and its relative standard error: from the thirds' means where they
-    // show the decay (Aitken's ratio of successive differences; a mean is far steadier
-    // than a slope), else from the ratio of the slopes.
-    let (tau, rel_tau) =
-        early.map(|t| t.4).and_then(|m1| decay_from_means(m1, m2, m3, gap)).unwrap_or_else(|| {
-            let (r2, r3) = (e2 / s2.abs(), e3 / s3.abs());
-            let ln = (s2 / s3).ln();
-            (gap / ln, (r2 + r3) / ln)
-        });
-    let horizon = if decaying { tau.min(cap) } else { span };
-    // Two standard errors of `s₃·τ` are the margin.
-    let margin = if clear && decaying { 1.0 + 2.0 * (e3 / s3.abs() + rel_tau) } else { 1.0 };
+    let horizon = if decaying { (gap / (s2 / s3).ln()).min(cap) } else { span };
+    let margin = if clear && decaying { 1.0 + e3 / s3.abs() + e2 / s2.abs() } else { 1.0 };
     // Without a decay, the rate carried is the smaller of the two readings, and none when
     // they point different ways or the last third's is within its noise (see above).
     let rate = if decaying {
@@ -184,51 +166,23 @@ pub fn project(outer: &Window) -> Option<Projection> {
         let follows = s23 * s3 > 0.0 && s3.abs() > 2.0 * e3;
         if follows { s3.abs().min(s23.abs()).copysign(s3) } else { 0.0 }
     };
-    // A decay's limit lies `s₃·τ` beyond the last third's mean, which its line passes
-    // through at the third's centre: from the line's end, `h` iterations on, less remains.
-    let past_centre = if decaying { (x[n - 1] - c3).max(0.0) } else { 0.0 };
-    let remaining = rate * (horizon * margin - past_centre).max(0.0);
+    let remaining = rate * horizon * margin;
     Some(Projection { remaining, limit: end + remaining, decaying })
 }
 
 /// Least-squares slope of `y` against `x` with its standard error widened for the
 /// autocorrelation of monitor noise (AR(1) approximation of the integrated autocorrelation
 /// time from the lag-1 autocorrelation of the residuals, `τ = (1+ρ)/(1−ρ)`, at most n/4: an
-/// O(n) correction, cheap enough for every checkpoint), the centre of `x`, the fitted
-/// value at the last `x`, and the mean of `y` with its standard error.
-fn slope(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64, f64, Mean)> {
+/// O(n) correction, cheap enough for every checkpoint), the centre of `x` and the fitted
+/// value at the last `x`.
+fn slope(x: &[f64], y: &[f64]) -> Option<(f64, f64, f64, f64)> {
     let fit = stats::ols(x, y)?;
     let resid = stats::ols_residuals(&fit, x, y);
     let rho = stats::lag1_autocorrelation(&resid).unwrap_or(0.0).clamp(0.0, 0.99);
     let n = x.len() as f64;
     let tau = ((1.0 + rho) / (1.0 - rho)).clamp(1.0, (n / 4.0).max(1.0));
     let last = x.last().copied()?;
-    let mean = Mean { value: fit.y_mean, se: fit.resid_sd * (tau / n).sqrt() };
-    Some((fit.slope, fit.se_slope * tau.sqrt(), fit.x_mean, fit.at(last), mean))
-}
-
-/// The mean of a third of the window and its standard error (noise about the third's line,
-/// widened for autocorrelation as the slope's is).
-#[derive(Debug, Clone, Copy)]
-struct Mean {
-    value: f64,
-    se: f64,
-}
-
-/// Decay time from the means of three equal, consecutive spans `gap` apart, and its relative
-/// standard error: successive differences `d₁ = m₂ − m₁`, `d₂ = m₃ − m₂` of one sign and
-/// shrinking give `q = d₂/d₁ = e^{−gap/τ}` (Aitken's Δ² picture). `None` when the means do
-/// not show a decay.
-fn decay_from_means(m1: Mean, m2: Mean, m3: Mean, gap: f64) -> Option<(f64, f64)> {
-    let (d1, d2) = (m2.value - m1.value, m3.value - m2.value);
-    if !(d1 * d2 > 0.0 && d2.abs() < d1.abs() && gap > 0.0) {
-        return None;
-    }
-    let ln = (d1 / d2).ln();
-    let (v1, v2, v3) = (m1.se.powi(2), m2.se.powi(2), m3.se.powi(2));
-    // Var(q)/q² by the delta method; d₁ and d₂ share m₂ with opposite signs.
-    let rel_q = ((v2 + v3) / (d2 * d2) + (v1 + v2) / (d1 * d1) + 2.0 * v2 / (d1 * d2)).sqrt();
-    Some((gap / ln, rel_q / ln))
+    Some((fit.slope, fit.se_slope * tau.sqrt(), fit.x_mean, fit.at(last)))
 }
 
 /// A periodic component a monitor shows: its period in iterations, and whether it decides
@@ -420,50 +374,5 @@ mod tests {
         assert_eq!(project(&window_of(500, turn)).expect("projection").remaining, 0.0);
         // A last-third slope within two standard errors projects nothing.
         assert_eq!(project(&window_of(500, at)).expect("projection").remaining, 0.0);
-    }
-
-    #[test]
-    fn the_decay_time_comes_from_the_thirds_means() {
-        // Means of e^{−x/τ} over three consecutive spans of length L: successive differences
-        // shrink by e^{−L/τ} exactly, whatever the spans' own averaging.
-        let (tau, len) = (250.0f64, 160.0f64);
-        let mean = |a: f64| tau * ((-a / tau).exp() - (-(a + len) / tau).exp()) / len;
-        let m = |a: f64, se: f64| Mean { value: 1.0 + 0.01 * mean(a), se };
-        let (t, rel) =
-            decay_from_means(m(0.0, 0.0), m(len, 0.0), m(2.0 * len, 0.0), len).expect("decay");
-        assert!((t - tau).abs() < 1e-9 * tau && rel == 0.0, "{t} {rel}");
-        // Noise on the means widens the decay time's error: with each mean known to 2 % of
-        // the last difference, 5.9 % (delta method, by hand:
-        // √(2·0.02²·(1 + q + q²)) / ln(1/q) with q = e^{−0.64}).
-        let d2 = 0.01 * (mean(len) - mean(2.0 * len));
-        let se = 0.02 * d2;
-        let (_, rel) =
-            decay_from_means(m(0.0, se), m(len, se), m(2.0 * len, se), len).expect("decay");
-        assert!((0.058..0.060).contains(&rel), "{rel}");
-        // Differences that do not shrink, or change sign, show no decay.
-        let v = |x: f64| Mean { value: x, se: 0.0 };
-        assert!(decay_from_means(v(0.0), v(1.0), v(2.5), len).is_none());
-        assert!(decay_from_means(v(0.0), v(1.0), v(0.5), len).is_none());
-    }
-
-    #[test]
-    fn a_decay_is_projected_to_its_limit_from_the_windows_end() {
-        // A geometric approach to 1 (decay time 150 and 400 iterations, faint noise): the
-        // change still to come after the window is projected with its margin, never under
-        // and at most 30 % over (measured: 22 % and 13 %; the slopes' errors include the
-        // curvature a straight line misses). Counting `s₃·τ` from the line's end instead of
-        // from the last third's mean projected over twice what remains at τ = 150 (measured
-        // 2.2).
-        use crate::synth::rng::Rng;
-        for tau in [150.0, 400.0] {
-            let mut rng = Rng::new(5);
-            let noise: Vec<f64> = (0..500).map(|_| 1e-9 * rng.normal()).collect();
-            let w = window_of(500, |i| 0.01 * (-i / tau).exp() + noise[i as usize - 1]);
-            let p = project(&w).expect("projection");
-            assert!(p.decaying, "tau {tau}: {p:?}");
-            let to_come = 1.0 - w.vals[499];
-            let ratio = p.remaining / to_come;
-            assert!((1.0..1.3).contains(&ratio), "tau {tau}: {p:?} {to_come}");
-        }
     }
 }
