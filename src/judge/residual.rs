@@ -341,8 +341,7 @@ fn stall(
     // fall in: its plateau is judged whole.
     let split = last_it.saturating_sub((w / 4) as i64);
     let recent = win.from_iteration(split);
-    let before_min =
-        win.vals[..win.len() - recent.len()].iter().copied().fold(f64::INFINITY, f64::min);
+    let before_min = lowest(&win, win.len() - recent.len()).map_or(f64::INFINITY, |l| l.1);
     if !ended
         && recent.len() >= 30
         && trend::fit(&recent.its, &recent.vals)
@@ -407,12 +406,19 @@ fn wandered_back(v: &View<'_>, win: &series::Window, evidence: usize) -> Option<
         return None;
     }
     let r = trend::fit(&recent.its, &recent.vals)?;
-    let (at, low) = win.its[..k]
+    let (at, low) = lowest(win, k)?;
+    (r.fitted_last >= low).then_some((at, low))
+}
+
+/// The lowest finite value among the first `k` of `win`, with its iteration: the range a
+/// plateau showed before its latest stretch (both stall rules compare against it).
+fn lowest(win: &series::Window, k: usize) -> Option<(i64, f64)> {
+    win.its[..k]
         .iter()
         .zip(&win.vals[..k])
         .filter(|(_, y)| y.is_finite())
-        .min_by(|a, b| a.1.total_cmp(b.1))?;
-    (r.fitted_last >= *low).then_some((*at, *low))
+        .min_by(|a, b| a.1.total_cmp(b.1))
+        .map(|(&at, &y)| (at, y))
 }
 
 /// The divergence rules on the latest segment after its start-up. Returns true when a
