@@ -6,7 +6,9 @@
 //! judges only the prefix of `K` steps; `JUDGE_TRACE_RAW=1` prints every step's log10
 //! residuals, sweeps, continuity and monitors instead; `JUDGE_TRACE_SERIES=FROM` prints
 //! 40-step monitor means from step `FROM`; `JUDGE_TRACE_WHOLE=1` with a range prints only
-//! each seed's verdict on the complete run (a quick sweep over many seeds).
+//! each seed's verdict on the complete run (a quick sweep over many seeds); `JUDGE_TRACE_ETA=1`
+//! with a range prints each residual's remaining-iterations estimate at the halfway point the
+//! accuracy bench measures, against the truth.
 
 use settle::judge::{self, Criteria, FindingKind, Verdict};
 use settle::synth::{self, Scenario};
@@ -21,8 +23,11 @@ fn main() {
     if let Some((a, b)) = seeds.split_once('-') {
         let (a, b): (u64, u64) = (a.parse().unwrap_or(0), b.parse().unwrap_or(0));
         let whole_only = std::env::var("JUDGE_TRACE_WHOLE").is_ok();
+        let eta_only = std::env::var("JUDGE_TRACE_ETA").is_ok();
         for seed in a..=b {
-            if whole_only {
+            if eta_only {
+                eta_at_halfway(scenario, seed);
+            } else if whole_only {
                 let run = synth::generate(scenario, seed);
                 let v = judge::judge(&synth::to_store(&run).judge_input(), &Criteria::default());
                 println!("seed {seed}: whole {:?} expected {:?}", v.verdict, scenario.expected());
@@ -158,6 +163,43 @@ fn summary(scenario: Scenario, seed: u64) {
     println!(
         "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} lead {lead:?} alarms {:?}",
         run.truth.settled, first, alarms
+    );
+}
+
+/// Print, as the accuracy bench measures it, each residual's estimate of the iterations to its
+/// 3-decade drop at the prefix halfway to the step where the residuals meet it
+/// (`JUDGE_TRACE_ETA=1` with a seed range).
+fn eta_at_halfway(scenario: Scenario, seed: u64) {
+    let run = synth::generate(scenario, seed);
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).unwrap_or(0);
+    let Some(met) = run.truth.residuals_met.filter(|&m| m >= 60 && !(seg > m / 2 && seg <= m))
+    else {
+        println!("seed {seed:3}: no halfway estimate measured");
+        return;
+    };
+    let half = met / 2;
+    let j = judge::judge(&synth::prefix_input(&full, &run, half + 1), &Criteria::default());
+    let truth = (met - half) as f64;
+    let mut worst: Option<f64> = Some(0.0);
+    let mut parts = Vec::new();
+    for r in &j.residuals {
+        let met = j.criteria.iter().filter(|c| c.series == r.series).all(|c| c.met);
+        let e = r.eta_iterations;
+        if !met {
+            worst = match (worst, e) {
+                (Some(w), Some(e)) => Some(w.max(e)),
+                _ => None,
+            };
+        }
+        parts.push(format!("{} {}", r.series, e.map_or("-".into(), |e| format!("{e:.0}"))));
+    }
+    let err = worst.map_or("-".into(), |w| format!("{:+.0} %", 100.0 * (w - truth) / truth));
+    println!(
+        "seed {seed:3}: met {met} half {half} truth {truth:.0} est {} err {err} [{}]",
+        worst.map_or("-".into(), |w| format!("{w:.0}")),
+        parts.join(", ")
     );
 }
 
