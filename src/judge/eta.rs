@@ -3,12 +3,12 @@
 //!
 //! A fit over the whole evidence window reaches back into the early, slower (or faster) part
 //! of the history and extrapolates a rate the residual no longer has. The estimate here uses
-//! the recent quarter of the latest segment ([`RECENT_SHARE`], between [`MIN_RECENT`] and the
+//! the recent half of the latest segment ([`RECENT_SHARE`], between [`MIN_RECENT`] and the
 //! evidence window), the same autocorrelation-aware trend as the stall test
 //! ([`super::trend::fit`]), and says how uncertain it is: the range comes from the 95 %
 //! interval of the rate. No estimate is made when that interval includes zero (the residual
-//! is not known to be falling) — and the judge drops every estimate while anything argues
-//! for divergence.
+//! is not known to be falling), nor while the segment is younger than [`MIN_RECENT`]
+//! iterations — and the judge drops every estimate while anything argues for divergence.
 
 use super::series::View;
 use super::trend::{self, Trend};
@@ -17,7 +17,7 @@ use super::trend::{self, Trend};
 /// leave most of the start-up out, long enough to average the noise of the residuals).
 pub const RECENT_SHARE: f64 = 0.5;
 
-/// Fewest iterations the rate is measured over (ours).
+/// Fewest iterations the rate is measured over; a younger segment has no estimate (ours).
 pub const MIN_RECENT: usize = 40;
 
 /// An estimate of the iterations to a target.
@@ -46,6 +46,11 @@ pub fn recent_length(v: &View<'_>, evidence: usize) -> usize {
 pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta> {
     let len = recent_length(v, evidence);
     let win = v.window_map(v.last_it(), len, |x| if x > 0.0 { x.log10() } else { f64::NAN });
+    // A segment younger than MIN_RECENT iterations has no rate yet: a few iterations after a
+    // restart the residuals fall back from its kick many times faster than they converge.
+    if win.span() + 1 < MIN_RECENT as i64 {
+        return None;
+    }
     let whole = trend::fit(&win.its, &win.vals)?;
     // When the rate changed significantly within the recent window (convergence slowing
     // down, or picking up after a plateau), the rate of its second half is the recent one.
@@ -116,5 +121,39 @@ mod tests {
         assert!(e.range.0 <= e.iterations && e.iterations <= e.range.1);
         // Already below the target: nothing to estimate.
         assert!(estimate(&v, -1.0, 500).is_none());
+    }
+
+    #[test]
+    fn a_segment_younger_than_the_fewest_iterations_has_no_rate() {
+        // Restart seed 13006 of the synthetic runs, in small: a steady −2 dec/kit, then a
+        // restart from an earlier checkpoint whose kick (0.8 decades) the residual falls
+        // back from within a few iterations. Nine iterations after the restart the estimate read that fall (76
+        // iterations to a target 907 away); the segment has no rate until it spans
+        // MIN_RECENT iterations, and then the fall back from the kick is over.
+        let mut its: Vec<i64> = (1..=900).collect();
+        let mut vals: Vec<f64> = its.iter().map(|&i| 10f64.powf(-0.002 * i as f64)).collect();
+        let restart = its.len();
+        for i in 754..=850i64 {
+            let l = -0.002 * i as f64 + 0.8 * (-((i - 754) as f64) / 5.0).exp();
+            its.push(i);
+            vals.push(10f64.powf(l + if i % 2 == 0 { 1e-3 } else { -1e-3 }));
+        }
+        let at = |k: usize| {
+            let s = SeriesInput {
+                name: Cow::Borrowed("p"),
+                iterations: Cow::Owned(its[..restart + k].to_vec()),
+                values: Cow::Owned(vals[..restart + k].to_vec()),
+                segment_starts: vec![0, restart],
+                ..Default::default()
+            };
+            let v = View::new(&s).expect("non-empty");
+            estimate(&v, -4.0, 500)
+        };
+        assert!(at(9).is_none(), "{:?}", at(9));
+        assert!(at(MIN_RECENT - 1).is_none());
+        // Once the kick has died out (e-folding 5 iterations): from −1.67 at it 833 to −4 at
+        // −2 dec/kit, plus two noise deviations, about 1170 iterations.
+        let e = at(80).expect("a rate");
+        assert!((e.iterations - 1170.0).abs() < 120.0, "{e:?}");
     }
 }
