@@ -127,9 +127,9 @@ mod tests {
     fn a_segment_younger_than_the_fewest_iterations_has_no_rate() {
         // Restart seed 13006 of the synthetic runs, in small: a steady −2 dec/kit, then a
         // restart from an earlier checkpoint whose kick (0.8 decades) the residual falls
-        // back from within a few iterations. Nine iterations after the restart the estimate read that fall (76
-        // iterations to a target 907 away); the segment has no rate until it spans
-        // MIN_RECENT iterations, and then the fall back from the kick is over.
+        // back from within a few iterations. Nine iterations after the restart the
+        // estimate read that fall (76 iterations to a target 907 away); the segment has no
+        // rate until it spans MIN_RECENT iterations, and by then the kick is gone.
         let mut its: Vec<i64> = (1..=900).collect();
         let mut vals: Vec<f64> = its.iter().map(|&i| 10f64.powf(-0.002 * i as f64)).collect();
         let restart = its.len();
