@@ -42,7 +42,8 @@ pub fn recent_length(v: &View<'_>, evidence: usize) -> usize {
 /// The printed values, not their trend, must stay below the target, so the trend has to
 /// reach [`NOISE_SDS`] standard deviations of the noise about it below the target. And when
 /// the rate of the second half of the recent window differs from the first by more than two
-/// standard errors of the difference, the second half's rate is extrapolated.
+/// standard errors of the difference, the second half's rate is extrapolated (and the same
+/// question is asked of that half, while its halves hold `MIN_RECENT / 2` values).
 pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta> {
     let len = recent_length(v, evidence);
     let win = v.window_map(v.last_it(), len, |x| if x > 0.0 { x.log10() } else { f64::NAN });
@@ -51,22 +52,32 @@ pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta>
     if win.span() + 1 < MIN_RECENT as i64 {
         return None;
     }
-    let whole = trend::fit(&win.its, &win.vals)?;
     // When the rate changed significantly within the recent window (convergence slowing
-    // down, or picking up after a plateau), the rate of its second half is the recent one.
-    let mid = win.its.len() / 2;
-    let first = trend::fit(&win.its[..mid], &win.vals[..mid]);
-    let second = trend::fit(&win.its[mid..], &win.vals[mid..]);
-    let (t, window) = match (first, second) {
-        (Some(a), Some(b))
-            if b.ci.1 < 0.0
-                && (b.slope_dec_per_kit - a.slope_dec_per_kit).abs()
-                    > 2.0 * a.se_dec_per_kit.hypot(b.se_dec_per_kit) =>
-        {
-            (b, len / 2)
+    // down, or picking up after a plateau), the rate of its second half is the recent one —
+    // and, the same question asked of that half, of its own second half, as long as the
+    // halves hold MIN_RECENT / 2 values each: a plateau that ended in the last fifth of the
+    // window leaves part of itself in the second half, and a fall back from a start-up rise
+    // slows down all the way.
+    let (mut its, mut vals) = (&win.its[..], &win.vals[..]);
+    let mut t = trend::fit(its, vals)?;
+    // The recent window itself is always asked (a sparse log's holds few values).
+    let mut first = true;
+    while first || its.len() >= MIN_RECENT {
+        first = false;
+        let mid = its.len() / 2;
+        let (Some(a), Some(b)) =
+            (trend::fit(&its[..mid], &vals[..mid]), trend::fit(&its[mid..], &vals[mid..]))
+        else {
+            break;
+        };
+        let changed = (b.slope_dec_per_kit - a.slope_dec_per_kit).abs()
+            > 2.0 * a.se_dec_per_kit.hypot(b.se_dec_per_kit);
+        if !(b.ci.1 < 0.0 && changed) {
+            break;
         }
-        _ => (whole, len),
-    };
+        (its, vals, t) = (&its[mid..], &vals[mid..], b);
+    }
+    let window = usize::try_from(its[its.len() - 1] - its[0] + 1).unwrap_or(0);
     let gap = t.fitted_last - (target_log10 - NOISE_SDS * t.resid_sd);
     if !(t.ci.1 < 0.0 && gap > 0.0 && t.fitted_last > target_log10) {
         return None;
@@ -121,6 +132,35 @@ mod tests {
         assert!(e.range.0 <= e.iterations && e.iterations <= e.range.1);
         // Already below the target: nothing to estimate.
         assert!(estimate(&v, -1.0, 500).is_none());
+    }
+
+    #[test]
+    fn a_plateau_that_ended_late_in_the_window_leaves_the_rate_after_it() {
+        // −3 dec/kit to it 400, a plateau to it 900, then −3 dec/kit again (the exit from a
+        // pseudo-plateau in the last fifth of the recent window, its 501–1000). From −1.5
+        // at it 1000 to −4.5 it takes 1000 iterations at −3 dec/kit. One halving read the
+        // rate over its 751–1000, two thirds of it still plateau: about 1.1 dec/kit and
+        // 2700 iterations. Halving while the rate keeps changing reaches the fall after it.
+        let its: Vec<i64> = (1..=1000).collect();
+        let vals: Vec<f64> = its
+            .iter()
+            .map(|&i| {
+                let x = i as f64;
+                let l = -0.003 * x.min(400.0) - 0.003 * (x - 900.0).max(0.0);
+                10f64.powf(l + if i % 2 == 0 { 1e-3 } else { -1e-3 })
+            })
+            .collect();
+        let s = SeriesInput {
+            name: Cow::Borrowed("p"),
+            iterations: Cow::Owned(its),
+            values: Cow::Owned(vals),
+            segment_starts: vec![0],
+            ..Default::default()
+        };
+        let v = View::new(&s).expect("non-empty");
+        let e = estimate(&v, -4.5, 500).expect("falling");
+        assert!((e.iterations - 1000.0).abs() < 100.0, "{e:?}");
+        assert!(e.window <= 100, "{e:?}");
     }
 
     #[test]
