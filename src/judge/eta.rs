@@ -61,9 +61,7 @@ pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta>
     let (mut its, mut vals) = (&win.its[..], &win.vals[..]);
     let mut t = trend::fit(its, vals)?;
     // The recent window itself is always asked (a sparse log's holds few values).
-    let mut first = true;
-    while first || its.len() >= MIN_RECENT {
-        first = false;
+    loop {
         let mid = its.len() / 2;
         let (Some(a), Some(b)) =
             (trend::fit(&its[..mid], &vals[..mid]), trend::fit(&its[mid..], &vals[mid..]))
@@ -76,6 +74,9 @@ pub fn estimate(v: &View<'_>, target_log10: f64, evidence: usize) -> Option<Eta>
             break;
         }
         (its, vals, t) = (&its[mid..], &vals[mid..], b);
+        if its.len() < MIN_RECENT {
+            break;
+        }
     }
     let window = usize::try_from(its[its.len() - 1] - its[0] + 1).unwrap_or(0);
     let gap = t.fitted_last - (target_log10 - NOISE_SDS * t.resid_sd);
@@ -100,8 +101,12 @@ pub const NOISE_SDS: f64 = 2.0;
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::judge::types::SeriesInput;
-    use std::borrow::Cow;
+    use crate::judge::series::tests::input;
+
+    /// ±0.001 decades, alternating: a little noise for the trend's error.
+    fn wobble(i: i64) -> f64 {
+        if i % 2 == 0 { 1e-3 } else { -1e-3 }
+    }
 
     #[test]
     fn the_recent_rate_decides_not_the_early_one() {
@@ -113,16 +118,10 @@ mod tests {
             .map(|&i| {
                 let i = i as f64;
                 let l = if i <= 600.0 { -0.0005 * i } else { -0.3 - 0.003 * (i - 600.0) };
-                10f64.powf(l + if (i as i64) % 2 == 0 { 1e-3 } else { -1e-3 })
+                10f64.powf(l + wobble(i as i64))
             })
             .collect();
-        let s = SeriesInput {
-            name: Cow::Borrowed("p"),
-            iterations: Cow::Owned(its),
-            values: Cow::Owned(vals),
-            segment_starts: vec![0],
-            ..Default::default()
-        };
+        let s = input(its, vals, vec![0]);
         let v = View::new(&s).expect("non-empty");
         let e = estimate(&v, -4.5, 500).expect("falling");
         // The recent half (its 501–1000) holds the change of rate at it 600: its second half.
@@ -147,16 +146,10 @@ mod tests {
             .map(|&i| {
                 let x = i as f64;
                 let l = -0.003 * x.min(400.0) - 0.003 * (x - 900.0).max(0.0);
-                10f64.powf(l + if i % 2 == 0 { 1e-3 } else { -1e-3 })
+                10f64.powf(l + wobble(i))
             })
             .collect();
-        let s = SeriesInput {
-            name: Cow::Borrowed("p"),
-            iterations: Cow::Owned(its),
-            values: Cow::Owned(vals),
-            segment_starts: vec![0],
-            ..Default::default()
-        };
+        let s = input(its, vals, vec![0]);
         let v = View::new(&s).expect("non-empty");
         let e = estimate(&v, -4.5, 500).expect("falling");
         assert!((e.iterations - 1000.0).abs() < 100.0, "{e:?}");
@@ -176,16 +169,11 @@ mod tests {
         for i in 754..=850i64 {
             let l = -0.002 * i as f64 + 0.8 * (-((i - 754) as f64) / 5.0).exp();
             its.push(i);
-            vals.push(10f64.powf(l + if i % 2 == 0 { 1e-3 } else { -1e-3 }));
+            vals.push(10f64.powf(l + wobble(i)));
         }
         let at = |k: usize| {
-            let s = SeriesInput {
-                name: Cow::Borrowed("p"),
-                iterations: Cow::Owned(its[..restart + k].to_vec()),
-                values: Cow::Owned(vals[..restart + k].to_vec()),
-                segment_starts: vec![0, restart],
-                ..Default::default()
-            };
+            let s =
+                input(its[..restart + k].to_vec(), vals[..restart + k].to_vec(), vec![0, restart]);
             let v = View::new(&s).expect("non-empty");
             estimate(&v, -4.0, 500)
         };

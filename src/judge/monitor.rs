@@ -239,8 +239,8 @@ fn date_all(
 /// transient within the evidence window — over a longer look-back, so that periods too long
 /// for five cycles in the evidence window are found.
 fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
-    let post = |long: &Window| {
-        let cut = stationarity::mser5(&long.vals).unwrap_or(0);
+    // The look-back from `cut` (its MSER-5 truncation) on, unless too little is left.
+    let post = |long: &Window, cut: usize| {
         let post = Window { its: long.its[cut..].to_vec(), vals: long.vals[cut..].to_vec() };
         if post.len() >= 64 { post } else { long.clone() }
     };
@@ -252,8 +252,9 @@ fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
     // included: a ring-down shows best over the longest stretch.
     let e = rc.evidence();
     let near_win = v.window(e);
-    let near =
-        oscillation::find(&post(&near_win)).map(|p| oscillation::with_envelope_over(p, &near_win));
+    let near_cut = stationarity::mser5_truncation(&near_win.vals);
+    let near_post = post(&near_win, near_cut.as_ref().map_or(0, |t| t.d));
+    let near = oscillation::find(&near_post).map(|p| oscillation::with_envelope_over(p, &near_win));
     // A component whose period is pinned at the longest the window resolves may be a longer
     // cycle seen at the wrong period (and so at too small an amplitude): it is kept, and a
     // longer look-back that finds the component unpinned replaces it.
@@ -275,12 +276,13 @@ fn periodic(v: &View<'_>, rc: &Resolved) -> Option<Periodic> {
     // whose shape, less the quadratic trend, reads as slow "cycles" (seen on a
     // pseudo-plateau run: period 191, ±0.56 %, `oscillating` while drag still moved 19 %).
     let span = v.last_it().saturating_sub(v.seg_first_it()) as usize;
-    let settling = stationarity::mser5_truncation(&near_win.vals).is_some_and(|t| t.at_limit());
+    let settling = near_cut.is_some_and(|t| t.at_limit());
     let mut mult = 2;
     while !settling && mult <= LONG_LOOKBACK_WINDOWS && span > mult * e / 2 + e {
         let far_win = v.window(mult * e);
-        let far = oscillation::find(&post(&far_win))
-            .map(|p| oscillation::with_envelope_over(p, &far_win));
+        let far =
+            oscillation::find(&post(&far_win, stationarity::mser5(&far_win.vals).unwrap_or(0)))
+                .map(|p| oscillation::with_envelope_over(p, &far_win));
         if good(&far) {
             if !pinned(&far) {
                 return far;

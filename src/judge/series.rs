@@ -212,11 +212,16 @@ pub fn block_medians(v: &[f64], offset: usize, f: impl Fn(f64) -> f64) -> Vec<(u
 }
 
 #[cfg(test)]
-mod tests {
+pub(in crate::judge) mod tests {
     use super::*;
     use std::borrow::Cow;
 
-    fn input(its: Vec<i64>, vals: Vec<f64>, segs: Vec<usize>) -> SeriesInput<'static> {
+    /// A series named `s` for tests, with its segment starts (indices).
+    pub(in crate::judge) fn input(
+        its: Vec<i64>,
+        vals: Vec<f64>,
+        segs: Vec<usize>,
+    ) -> SeriesInput<'static> {
         SeriesInput {
             name: Cow::Borrowed("s"),
             iterations: Cow::Owned(its),
