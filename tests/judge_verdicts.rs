@@ -1415,6 +1415,42 @@ fn a_departing_monitor_while_the_residuals_fall_is_a_note_and_an_approach_is_not
     assert_ne!(j.verdict, Verdict::Diverging, "{}", explain(&j));
 }
 
+#[test]
+fn a_monitor_leaving_its_plateau_at_a_kink_is_not_diverging() {
+    // A monitor drifts slowly off its plateau (+2 %, decay time 150 iterations, from it 420)
+    // and leaves it at a kink for a new level (+30 %, decay time 350, from it 700), judged
+    // 130 and 160 iterations after the kink while the residuals stand still. Its departure
+    // from the plateau rose, paused and rose again: the thirds' medians alone read that as
+    // acceleration (both were `diverging` before this rule); since the kink the
+    // log-departure rises ever more slowly, which an exponential never does.
+    for (seed, n) in [(737u64, 830usize), (738, 860)] {
+        let mut rng = Rng(seed);
+        let flat = |i: f64| -2.0 * (1.0 - (-i / 50.0).exp());
+        let mut run = Run::new();
+        for name in ["Ux", "p", "k"] {
+            run = run.add(name, Role::Residual, residual(&mut rng, n, 0.05, flat));
+        }
+        let kinked = monitor(&mut rng, n, 1e-3, |i| {
+            let drift = if i > 420.0 { 0.02 * (1.0 - (-(i - 420.0) / 150.0).exp()) } else { 0.0 };
+            1.0 + drift + if i > 700.0 { 0.3 * (1.0 - (-(i - 700.0) / 350.0).exp()) } else { 0.0 }
+        });
+        let j = run.add("drag", Role::Monitor, kinked).judge();
+        let departs = j.findings.iter().any(|f| f.statistic == "departure_growth_dec");
+        assert!(!departs, "n {n}\n{}", explain(&j));
+        assert_ne!(j.verdict, Verdict::Diverging, "n {n}\n{}", explain(&j));
+    }
+    // The synthetic pseudo-plateau scenario, dev seed 1: dp drifts off its plateau level
+    // (1660 → 1687 over it 377-627), leaves it at a kink near it 630 for its final level
+    // (about 2160), and at it 752 and 771 was `diverging` before this rule.
+    let run = synth::generate(Scenario::PseudoPlateauThenConverge, 1);
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    for k in [752, 771] {
+        let j = judge(&synth::prefix_input(&full, &run, k), &Criteria::default());
+        assert_eq!(j.verdict, Verdict::Converging, "it {k}\n{}", explain(&j));
+    }
+}
+
 /// Falling residuals and one monitor `1 + a·e^{(i−100)/τ}·sin(2πi/3)` from iteration 100 with
 /// `a = a0`, growing ×`per_cycle` every cycle, over `n` iterations.
 fn one_growing_cycle(seed: u64, n: usize, a0: f64, per_cycle: f64) -> Judgement {

@@ -373,6 +373,28 @@ pub fn grows_at(v: &View<'_>, residual: bool, period: f64, span: (i64, i64), lev
     }
 }
 
+/// Whether the log-departure's rate over the last sixth of its rise is at least
+/// [`EXP_GROWTH_KEEP`] of its rate over the sixth before (each fitted over at least three
+/// blocks). An exponential keeps one log-rate over any part of its rise; a monitor that
+/// left a plateau at a kink rises fastest just after the kink and ever more slowly as it
+/// approaches its new level, which the thirds alone miss when the first third is the slow
+/// drift before the kink.
+fn keeps_recent_rate(its: &[i64], logs: &[f64]) -> bool {
+    let q = (logs.len() / 6).max(3);
+    if logs.len() < 2 * q {
+        return true;
+    }
+    let slope = |r: std::ops::Range<usize>| {
+        let x: Vec<f64> = its[r.clone()].iter().map(|&i| i as f64).collect();
+        stats::ols(&x, &logs[r]).map(|f| f.slope)
+    };
+    let n = logs.len();
+    match (slope(n - 2 * q..n - q), slope(n - q..n)) {
+        (Some(prev), Some(last)) => prev <= 0.0 || last >= EXP_GROWTH_KEEP * prev,
+        _ => true,
+    }
+}
+
 /// The statistic of a [`departure_growth`] finding (the judge recognises it by this).
 pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
 
@@ -392,7 +414,8 @@ pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
 /// within half a decade of that noise. It decides when their rise there is significant, at
 /// least [`EXP_GROWTH_DEC`] decade and not slowing down ([`EXP_GROWTH_KEEP`], thirds: an
 /// approach to a new level, `a·(1 − e^{−t/τ})`, and any polynomial drift rise ever more
-/// slowly in the logarithm, an exponential does not), and the last departure is at least
+/// slowly in the logarithm, an exponential does not; and [`keeps_recent_rate`] at the end of
+/// the rise, where a two-step departure shows it), and the last departure is at least
 /// [`DEPARTURE_MATERIAL`] of the monitor's reference ([`scale::reference`]). The judge keeps
 /// it from deciding while most residuals fall (`departure_while_falling` in the judge).
 /// Returns true when a finding was pushed.
@@ -445,7 +468,10 @@ pub fn departure_growth(
         let third = logs.len() / 3;
         let m = |r: std::ops::Range<usize>| stats::median(&logs[r]).unwrap_or(f64::NAN);
         let (m1, m2, m3) = (m(0..third), m(third..2 * third), m(2 * third..logs.len()));
-        let keeps = m2 > m1 && m3 > m2 && (m3 - m2) >= EXP_GROWTH_KEEP * (m2 - m1);
+        let keeps = m2 > m1
+            && m3 > m2
+            && (m3 - m2) >= EXP_GROWTH_KEEP * (m2 - m1)
+            && keeps_recent_rate(its, logs);
         let now = 10f64.powf(logs[logs.len() - 1]);
         // The reference the drift and band limits use, at the start of the look-back.
         let (kind, r) = scale::reference(base, mag.at(its[0]), rc.scale);
