@@ -8,10 +8,17 @@
 //! 40-step monitor means from step `FROM`; `JUDGE_TRACE_WHOLE=1` with a range prints only
 //! each seed's verdict on the complete run (a quick sweep over many seeds); `JUDGE_TRACE_ETA=1`
 //! with a range prints each residual's remaining-iterations estimate at the halfway point the
-//! accuracy bench measures, against the truth.
+//! accuracy bench measures, against the truth; `JUDGE_TRACE_N=K` generates runs of about `K`
+//! iterations (at least 200) instead of the scenario's own length.
 
 use settle::judge::{self, Criteria, FindingKind, Verdict};
 use settle::synth::{self, Scenario};
+
+/// The run of `scenario` for `seed`, of the length `JUDGE_TRACE_N` asks for, if any.
+fn generate(scenario: Scenario, seed: u64) -> synth::SynthRun {
+    let iterations = std::env::var("JUDGE_TRACE_N").ok().and_then(|v| v.parse().ok());
+    synth::generate_with(scenario, seed, &synth::Options { iterations, ..Default::default() })
+}
 
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -28,7 +35,7 @@ fn main() {
             if eta_only {
                 eta_at_halfway(scenario, seed);
             } else if whole_only {
-                let run = synth::generate(scenario, seed);
+                let run = generate(scenario, seed);
                 let v = judge::judge(&synth::to_store(&run).judge_input(), &Criteria::default());
                 println!("seed {seed}: whole {:?} expected {:?}", v.verdict, scenario.expected());
             } else {
@@ -39,7 +46,7 @@ fn main() {
     }
     let seed: u64 = seeds.parse().unwrap_or(0);
     let every: usize = args.get(2).and_then(|s| s.parse().ok()).unwrap_or(0);
-    let run = synth::generate(scenario, seed);
+    let run = generate(scenario, seed);
     let store = synth::to_store(&run);
     let full = store.judge_input();
     let n = run.steps.len();
@@ -121,7 +128,7 @@ fn main() {
 /// One line per seed: the complete run's verdict, and the first prefix called `converged` in
 /// the latest segment against the true settling step.
 fn summary(scenario: Scenario, seed: u64) {
-    let run = synth::generate(scenario, seed);
+    let run = generate(scenario, seed);
     let store = synth::to_store(&run);
     let full = store.judge_input();
     let n = run.steps.len();
@@ -170,7 +177,7 @@ fn summary(scenario: Scenario, seed: u64) {
 /// 3-decade drop at the prefix halfway to the step where the residuals meet it
 /// (`JUDGE_TRACE_ETA=1` with a seed range).
 fn eta_at_halfway(scenario: Scenario, seed: u64) {
-    let run = synth::generate(scenario, seed);
+    let run = generate(scenario, seed);
     let store = synth::to_store(&run);
     let full = store.judge_input();
     let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).unwrap_or(0);

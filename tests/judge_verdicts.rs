@@ -1385,6 +1385,27 @@ fn a_monitor_departing_exponentially_while_residuals_wander_is_diverging() {
 }
 
 #[test]
+fn a_short_run_whose_monitors_depart_exponentially_is_diverging() {
+    // The synthetic silent-divergence scenario cut to 450 and 600 iterations (the run length
+    // is an option of the generator; its instability sets in at 30-50 % of the run): the
+    // monitors' departures grow ×2-3 every 40 iterations over the last 250 iterations while
+    // the residuals wander. The departure's look-back was one whole evidence window (500)
+    // after the 200-iteration start-up, which a run shorter than 650 iterations never had:
+    // these four were `converging`, `stalled` or `suspect` before this rule.
+    use settle::synth::Options;
+    for (n, seed) in [(450, 11u64), (600, 4), (600, 8), (600, 9)] {
+        let opts = Options { iterations: Some(n), case: None };
+        let run = synth::generate_with(Scenario::SilentDivergence, seed, &opts);
+        let j = judge(&synth::to_store(&run).judge_input(), &Criteria::default());
+        assert_eq!(j.verdict, Verdict::Diverging, "n {n} seed {seed}\n{}", explain(&j));
+        let f = &j.findings[j.causes[0]];
+        assert_eq!(f.statistic, "departure_growth_dec", "n {n} seed {seed}\n{}", explain(&j));
+        // The look-back starts after the start-up and holds what the run has since then.
+        assert!(f.first >= 200 && f.value >= 1.0, "n {n} seed {seed}\n{}", explain(&j));
+    }
+}
+
+#[test]
 fn a_departing_monitor_while_the_residuals_fall_is_a_note_and_an_approach_is_nothing() {
     // The same monitor while every residual still falls towards its target at 1 dec/kit:
     // the iteration contracts, the departure is noted, not deciding.

@@ -408,7 +408,9 @@ pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
 /// which stays flat until the disturbance reaches the monitor's own size: a monitor of level
 /// 1 growing to 10 moves `log|x|` by one decade only at the very end, while its departure has
 /// grown by four. The look-back is one, two and four evidence windows after the start-up
-/// (a slow instability needs more than one window to rise a decade above the noise). The
+/// (a slow instability needs more than one window to rise a decade above the noise); a run
+/// that has not yet had one window after its start-up is looked at over what it has, from
+/// [`DEPARTURE_BLOCK`]` × 10` values on (a 600-iteration run is no less able to blow up). The
 /// departure is clamped below at the noise about `b` (median |x − b| over the first fifth)
 /// and its block medians of [`DEPARTURE_BLOCK`] values are looked at since they last stood
 /// within half a decade of that noise. It decides when their rise there is significant, at
@@ -431,7 +433,9 @@ pub fn departure_growth(
     let w = rc.evidence();
     for k in [1usize, 2, 4] {
         let win = v.window_map(last_it, k * w, |x| x).from_iteration(startup_end);
-        if win.len() < 10 * DEPARTURE_BLOCK || (win.span() as f64) < 0.9 * (k * w) as f64 {
+        // A look-back the run cannot fill is asked once, over what the run has.
+        let filled = win.span() as f64 >= 0.9 * (k * w) as f64;
+        if win.len() < 10 * DEPARTURE_BLOCK || (k > 1 && !filled) {
             break;
         }
         let fifth = win.len() / 5;
