@@ -408,9 +408,10 @@ pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
 /// which stays flat until the disturbance reaches the monitor's own size: a monitor of level
 /// 1 growing to 10 moves `log|x|` by one decade only at the very end, while its departure has
 /// grown by four. The look-back is one, two and four evidence windows after the start-up
-/// (a slow instability needs more than one window to rise a decade above the noise); a run
+/// ([`series::startup_end_within`]: a fifth of a segment shorter than 1000 iterations; a
+/// slow instability needs more than one window to rise a decade above the noise); a run
 /// that has not yet had one window after its start-up is looked at over what it has, from
-/// [`DEPARTURE_BLOCK`]` × 10` values on (a 600-iteration run is no less able to blow up). The
+/// [`DEPARTURE_BLOCK`]` × 10` values on (a 300-iteration run is no less able to blow up). The
 /// departure is clamped below at the noise about `b` (median |x − b| over the first fifth)
 /// and its block medians of [`DEPARTURE_BLOCK`] values are looked at since they last stood
 /// within half a decade of that noise. It decides when their rise there is significant, at
@@ -429,7 +430,7 @@ pub fn departure_growth(
     sink: &mut Sink,
 ) -> bool {
     let last_it = v.last_it();
-    let startup_end = series::startup_end(v.seg_first_it());
+    let startup_end = series::startup_end_within(v.seg_first_it(), last_it);
     let w = rc.evidence();
     for k in [1usize, 2, 4] {
         let win = v.window_map(last_it, k * w, |x| x).from_iteration(startup_end);

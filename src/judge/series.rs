@@ -187,6 +187,17 @@ pub fn startup_end(seg_first: i64) -> i64 {
     seg_first.saturating_add(STARTUP_ITERATIONS)
 }
 
+/// End of the start-up of a segment that began at `seg_first` and has reached `last_it`:
+/// [`STARTUP_ITERATIONS`], or the segment's first fifth while it is shorter than five times
+/// that. A run of a few hundred iterations develops its flow in proportion (a short run's
+/// transients are short), and a fixed 200 iterations would leave a 300-iteration run a
+/// third of its length to be judged on; the stall test of a finished short run takes the
+/// same fifth.
+pub fn startup_end_within(seg_first: i64, last_it: i64) -> i64 {
+    let seg_len = last_it.saturating_sub(seg_first).saturating_add(1).max(0);
+    startup_end(seg_first).min(seg_first.saturating_add(seg_len / 5))
+}
+
 /// Medians of consecutive blocks of 5 values `f(x)` of `v` (a cheap outlier-proof summary for
 /// running minima); values whose `f(x)` is not finite and positive are skipped. Returns
 /// `(offset + index of the block's last value, median)`.
@@ -245,6 +256,20 @@ pub(in crate::judge) mod tests {
         assert_eq!(w.vals, vec![14.0, 15.0, 16.0, 18.0]);
         let all = v.window(1000);
         assert_eq!(all.its.first(), Some(&5));
+    }
+
+    #[test]
+    fn a_short_segment_has_a_fifth_of_it_for_its_start_up() {
+        // (first iteration, last iteration) → end of the start-up.
+        for ((first, last), end) in [
+            ((1, 300), 61),
+            ((1, 999), 200),
+            ((1, 1000), 201),
+            ((1, 4000), 201),
+            ((1001, 1300), 1061),
+        ] {
+            assert_eq!(startup_end_within(first, last), end, "{first}..{last}");
+        }
     }
 
     #[test]
