@@ -24,7 +24,10 @@
 //!   `oscillating` (target 0), and, separately, `suspect`.
 //!
 //! Prefixes are taken every `max(1, steps/160)` steps from step 30 (and every step near an
-//! early crash). `SETTLE_BENCH_SCENARIOS=stall,restart` limits the scenarios.
+//! early crash). `SETTLE_BENCH_SCENARIOS=stall,restart` limits the scenarios;
+//! `SETTLE_BENCH_ITERATIONS=600` cuts every run to about that many iterations (the
+//! generator's option; a scenario's label is written for its own length, so read a miss on
+//! a cut run against the run before calling it one).
 //!
 //! Run with `cargo bench --bench accuracy`. The numbers describe the judge on invented data;
 //! they are a regression guard and a map of weaknesses, not a validation.
@@ -136,8 +139,15 @@ fn run_eta(j: &Judgement) -> Option<f64> {
     Some(worst)
 }
 
-fn measure(s: Scenario, seed: u64, criteria: &Criteria, clock: &mut Clock, row: &mut Row) {
-    let run = synth::generate(s, seed);
+fn measure(
+    s: Scenario,
+    seed: u64,
+    criteria: &Criteria,
+    opts: &synth::Options,
+    clock: &mut Clock,
+    row: &mut Row,
+) {
+    let run = synth::generate_with(s, seed, opts);
     let store = synth::to_store(&run);
     let full = store.judge_input();
     let n = run.steps.len();
@@ -246,12 +256,15 @@ fn main() {
         .filter(|s| wanted.as_ref().is_none_or(|w| w.iter().any(|n| n == s.name())))
         .collect();
 
+    let iterations = env_u64("SETTLE_BENCH_ITERATIONS").map(|n| n as usize);
+    let opts = synth::Options { iterations, case: None };
     let criteria = Criteria::default();
     let mut clock = Clock::default();
     let started = Instant::now();
     println!(
-        "judge accuracy on synthetic runs: seeds {base}–{} per scenario, default criteria\n",
-        base + seeds - 1
+        "judge accuracy on synthetic runs: seeds {base}–{} per scenario, default criteria{}\n",
+        base + seeds - 1,
+        iterations.map_or_else(String::new, |n| format!(", runs cut to about {n} iterations"))
     );
     println!(
         "{:<28} {:<11} {:>6}  {:<22} {:>6} {:>6} {:>4} {:>5} {:>5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>6}",
@@ -277,7 +290,7 @@ fn main() {
     for &s in &scenarios {
         let mut row = Row::default();
         for seed in base..base + seeds {
-            measure(s, seed, &criteria, &mut clock, &mut row);
+            measure(s, seed, &criteria, &opts, &mut clock, &mut row);
         }
         row.delays.sort_unstable();
         row.leads.sort_unstable();
