@@ -1466,13 +1466,20 @@ fn a_monitor_leaving_its_plateau_at_a_kink_is_not_diverging() {
     // The synthetic pseudo-plateau scenario, dev seed 1: dp drifts off its plateau level
     // (1660 → 1687 over it 377-627), leaves it at a kink near it 630 for its final level
     // (about 2160), and at it 752 and 771 was `diverging` before this rule.
-    let run = synth::generate(Scenario::PseudoPlateauThenConverge, 1);
-    let store = synth::to_store(&run);
-    let full = store.judge_input();
-    for k in [752, 771] {
-        let j = judge(&synth::prefix_input(&full, &run, k), &Criteria::default());
+    for (k, j) in synth_prefixes(Scenario::PseudoPlateauThenConverge, 1, &[752, 771]) {
         assert_eq!(j.verdict, Verdict::Converging, "it {k}\n{}", explain(&j));
     }
+}
+
+/// The judgements of the first `ks` steps of the synthetic run of `scenario` for `seed`, as a
+/// watcher sees them (no end-of-run line), with the default criteria.
+fn synth_prefixes(scenario: Scenario, seed: u64, ks: &[usize]) -> Vec<(usize, Judgement)> {
+    let run = synth::generate(scenario, seed);
+    let store = synth::to_store(&run);
+    let full = store.judge_input();
+    ks.iter()
+        .map(|&k| (k, judge(&synth::prefix_input(&full, &run, k), &Criteria::default())))
+        .collect()
 }
 
 /// Falling residuals and one monitor `1 + a·e^{(i−100)/τ}·sin(2πi/3)` from iteration 100 with
@@ -1649,11 +1656,7 @@ fn a_monitor_still_on_its_way_to_a_new_level_is_not_oscillating() {
     // "cycle" of period 191 iterations and ±0.56 % (checked: before this rule both prefixes
     // were `oscillating`). A look-back longer than the evidence window is asked only once the
     // monitor has left its transient within the evidence window.
-    let run = synth::generate(Scenario::PseudoPlateauThenConverge, 10001);
-    let store = synth::to_store(&run);
-    let full = store.judge_input();
-    for k in [1250, 1270] {
-        let j = judge(&synth::prefix_input(&full, &run, k), &Criteria::default());
+    for (k, j) in synth_prefixes(Scenario::PseudoPlateauThenConverge, 10001, &[1250, 1270]) {
         assert_eq!(j.verdict, Verdict::Converging, "it {k}\n{}", explain(&j));
         let cycles = j.findings.iter().filter(|f| f.supports == Some(Verdict::Oscillating));
         assert_eq!(cycles.count(), 0, "it {k}\n{}", explain(&j));

@@ -108,19 +108,18 @@ mod tests {
         if i % 2 == 0 { 1e-3 } else { -1e-3 }
     }
 
+    /// A residual at `level(i)` decades at each iteration of `its`, with the [`wobble`].
+    fn wobbled(its: &[i64], level: impl Fn(f64) -> f64) -> Vec<f64> {
+        its.iter().map(|&i| 10f64.powf(level(i as f64) + wobble(i))).collect()
+    }
+
     #[test]
     fn the_recent_rate_decides_not_the_early_one() {
         // Slow for 600 iterations (−0.5 dec/kit), then −3 dec/kit for 400: from −1.5 at
         // it 1000 to a target of −4.5 it takes 1000 iterations at the recent rate.
         let its: Vec<i64> = (1..=1000).collect();
-        let vals: Vec<f64> = its
-            .iter()
-            .map(|&i| {
-                let i = i as f64;
-                let l = if i <= 600.0 { -0.0005 * i } else { -0.3 - 0.003 * (i - 600.0) };
-                10f64.powf(l + wobble(i as i64))
-            })
-            .collect();
+        let vals =
+            wobbled(&its, |i| if i <= 600.0 { -0.0005 * i } else { -0.3 - 0.003 * (i - 600.0) });
         let s = input(its, vals, vec![0]);
         let v = View::new(&s).expect("non-empty");
         let e = estimate(&v, -4.5, 500).expect("falling");
@@ -141,14 +140,7 @@ mod tests {
         // rate over its 751–1000, two thirds of it still plateau: about 1.1 dec/kit and
         // 2700 iterations. Halving while the rate keeps changing reaches the fall after it.
         let its: Vec<i64> = (1..=1000).collect();
-        let vals: Vec<f64> = its
-            .iter()
-            .map(|&i| {
-                let x = i as f64;
-                let l = -0.003 * x.min(400.0) - 0.003 * (x - 900.0).max(0.0);
-                10f64.powf(l + wobble(i))
-            })
-            .collect();
+        let vals = wobbled(&its, |x| -0.003 * x.min(400.0) - 0.003 * (x - 900.0).max(0.0));
         let s = input(its, vals, vec![0]);
         let v = View::new(&s).expect("non-empty");
         let e = estimate(&v, -4.5, 500).expect("falling");
@@ -166,11 +158,9 @@ mod tests {
         let mut its: Vec<i64> = (1..=900).collect();
         let mut vals: Vec<f64> = its.iter().map(|&i| 10f64.powf(-0.002 * i as f64)).collect();
         let restart = its.len();
-        for i in 754..=850i64 {
-            let l = -0.002 * i as f64 + 0.8 * (-((i - 754) as f64) / 5.0).exp();
-            its.push(i);
-            vals.push(10f64.powf(l + wobble(i)));
-        }
+        let after: Vec<i64> = (754..=850).collect();
+        vals.extend(wobbled(&after, |x| -0.002 * x + 0.8 * (-(x - 754.0) / 5.0).exp()));
+        its.extend(after);
         let at = |k: usize| {
             let s =
                 input(its[..restart + k].to_vec(), vals[..restart + k].to_vec(), vec![0, restart]);
