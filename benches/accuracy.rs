@@ -27,7 +27,9 @@
 //! early crash). `SETTLE_BENCH_SCENARIOS=stall,restart` limits the scenarios;
 //! `SETTLE_BENCH_ITERATIONS=600` cuts every run to about that many iterations (the
 //! generator's option; a scenario's label is written for its own length, so read a miss on
-//! a cut run against the run before calling it one).
+//! a cut run against the run before calling it one); `SETTLE_BENCH_EVERY=10` judges every
+//! run as a log written every 10 iterations shows it (`synth::sparse_input`; the truth stays
+//! the generator's, iteration by iteration).
 //!
 //! Run with `cargo bench --bench accuracy`. The numbers describe the judge on invented data;
 //! they are a regression guard and a map of weaknesses, not a validation.
@@ -144,6 +146,7 @@ fn measure(
     seed: u64,
     criteria: &Criteria,
     opts: &synth::Options,
+    every: i64,
     clock: &mut Clock,
     row: &mut Row,
 ) {
@@ -151,7 +154,7 @@ fn measure(
     let store = synth::to_store(&run);
     let full = store.judge_input();
     let n = run.steps.len();
-    let verdict = clock.judge(&full, criteria).verdict;
+    let verdict = clock.judge(&synth::sparse_input(full.clone(), every, true), criteria).verdict;
     row.runs += 1;
     if verdict == s.expected() {
         row.correct += 1;
@@ -173,7 +176,7 @@ fn measure(
     let mut first_converged: Option<usize> = None;
     for k in prefixes(&run) {
         let whole = k == n;
-        let input = synth::prefix_input(&full, &run, k);
+        let input = synth::sparse_input(synth::prefix_input(&full, &run, k), every, false);
         let v = if whole { verdict } else { clock.judge(&input, criteria).verdict };
         if let Some(o) = onset_step
             && k > o
@@ -226,7 +229,7 @@ fn measure(
         && !(seg_start > met / 2 && seg_start <= met)
     {
         let half = met / 2;
-        let input = synth::prefix_input(&full, &run, half + 1);
+        let input = synth::sparse_input(synth::prefix_input(&full, &run, half + 1), every, false);
         let j = clock.judge(&input, criteria);
         let truth = (met - half) as f64;
         match run_eta(&j) {
@@ -258,13 +261,15 @@ fn main() {
 
     let iterations = env_u64("SETTLE_BENCH_ITERATIONS").map(|n| n as usize);
     let opts = synth::Options { iterations, case: None };
+    let every = env_u64("SETTLE_BENCH_EVERY").map_or(1, |k| k as i64);
     let criteria = Criteria::default();
     let mut clock = Clock::default();
     let started = Instant::now();
     println!(
-        "judge accuracy on synthetic runs: seeds {base}–{} per scenario, default criteria{}\n",
+        "judge accuracy on synthetic runs: seeds {base}–{} per scenario, default criteria{}{}\n",
         base + seeds - 1,
-        iterations.map_or_else(String::new, |n| format!(", runs cut to about {n} iterations"))
+        iterations.map_or_else(String::new, |n| format!(", runs cut to about {n} iterations")),
+        if every > 1 { format!(", logs written every {every} iterations") } else { String::new() }
     );
     println!(
         "{:<28} {:<11} {:>6}  {:<22} {:>6} {:>6} {:>4} {:>5} {:>5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>6}",
@@ -290,7 +295,7 @@ fn main() {
     for &s in &scenarios {
         let mut row = Row::default();
         for seed in base..base + seeds {
-            measure(s, seed, &criteria, &opts, &mut clock, &mut row);
+            measure(s, seed, &criteria, &opts, every, &mut clock, &mut row);
         }
         row.delays.sort_unstable();
         row.leads.sort_unstable();

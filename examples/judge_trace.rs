@@ -9,7 +9,8 @@
 //! each seed's verdict on the complete run (a quick sweep over many seeds); `JUDGE_TRACE_ETA=1`
 //! with a range prints each residual's remaining-iterations estimate at the halfway point the
 //! accuracy bench measures, against the truth; `JUDGE_TRACE_N=K` generates runs of about `K`
-//! iterations (at least 200) instead of the scenario's own length.
+//! iterations (at least 200) instead of the scenario's own length; `JUDGE_TRACE_EVERY=K` judges
+//! the run as a log written every `K` iterations shows it ([`synth::sparse_input`]).
 
 use settle::judge::{self, Criteria, FindingKind, Verdict};
 use settle::synth::{self, Scenario};
@@ -36,7 +37,9 @@ fn main() {
                 eta_at_halfway(scenario, seed);
             } else if whole_only {
                 let run = generate(scenario, seed);
-                let v = judge::judge(&synth::to_store(&run).judge_input(), &Criteria::default());
+                let store = synth::to_store(&run);
+                let input = thinned(store.judge_input(), true);
+                let v = judge::judge(&input, &Criteria::default());
                 println!("seed {seed}: whole {:?} expected {:?}", v.verdict, scenario.expected());
             } else {
                 summary(scenario, seed);
@@ -88,7 +91,7 @@ fn main() {
         None => (30.min(n)..=n).step_by(stride).chain(std::iter::once(n)).collect(),
     };
     for k in ks {
-        let input = synth::prefix_input(&full, &run, k);
+        let input = thinned(synth::prefix_input(&full, &run, k), k >= n);
         let j = judge::judge(&input, &criteria);
         let changed = last != Some(j.verdict);
         last = Some(j.verdict);
@@ -138,6 +141,10 @@ fn summary(scenario: Scenario, seed: u64) {
     let mut first = None;
     let mut first_div: Option<usize> = None;
     let mut alarms = Vec::new();
+    // Prefixes judged after the first `converged` call that are not `converged` (a watcher
+    // sees the call withdrawn), and of those, how many come after the allowed delay.
+    let (mut lost, mut lost_late, mut after) = (0usize, 0usize, 0usize);
+    let allowed = 100.max(n / 5);
     let mut ks: Vec<usize> = (30.min(n)..n).step_by(stride).collect();
     if run.end == synth::End::Crash && n < 400 {
         ks.extend(n.saturating_sub(80)..n);
@@ -145,7 +152,7 @@ fn summary(scenario: Scenario, seed: u64) {
         ks.dedup();
     }
     for k in ks {
-        let input = synth::prefix_input(&full, &run, k);
+        let input = thinned(synth::prefix_input(&full, &run, k), false);
         let v = judge::judge(&input, &criteria).verdict;
         let call_from = match run.truth.settled {
             Some(t) if t < seg => 0,
@@ -157,18 +164,25 @@ fn summary(scenario: Scenario, seed: u64) {
         if v == Verdict::Diverging && first_div.is_none() {
             first_div = Some(k);
         }
+        if first.is_some_and(|f| k > f + 1) {
+            after += 1;
+            if v != Verdict::Converged {
+                lost += 1;
+                lost_late += usize::from(run.truth.settled.is_some_and(|t| k > t + allowed));
+            }
+        }
         if matches!(v, Verdict::Diverging | Verdict::Oscillating | Verdict::Stalled) {
             alarms.push((k, v));
         }
     }
-    let whole = judge::judge(&full, &criteria).verdict;
+    let whole = judge::judge(&thinned(full.clone(), true), &criteria).verdict;
     let delay = match (first, run.truth.settled) {
         (Some(f), Some(t)) => format!("{:+}", f as i64 - t as i64),
         _ => "-".into(),
     };
     let lead = first_div.map(|k| run.last_iteration() - run.steps[k - 1].iteration);
     println!(
-        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} lead {lead:?} alarms {:?}",
+        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} lead {lead:?} withdrawn {lost}/{after} (late {lost_late}) alarms {:?}",
         run.truth.settled, first, alarms
     );
 }
@@ -230,4 +244,11 @@ pub fn dump(run: &synth::SynthRun, from: usize) {
             .collect();
         println!("  steps {k:5}+40 it {:6}: {}", run.steps[k].iteration, rel.join(" "));
     }
+}
+
+/// `input` as a log written every `JUDGE_TRACE_EVERY` iterations shows it (all of it when
+/// unset); `whole`: the complete run, whose last iteration the solver prints.
+fn thinned(input: judge::RunInput<'_>, whole: bool) -> judge::RunInput<'_> {
+    let every = std::env::var("JUDGE_TRACE_EVERY").ok().and_then(|v| v.parse().ok());
+    synth::sparse_input(input, every.unwrap_or(1), whole)
 }

@@ -22,7 +22,9 @@ mod tarn;
 
 pub use samples::{settle_toml, write_history_csv, write_history_dat, write_samples};
 pub use scenario::Scenario;
-pub use store::{delay_prefixes, live_prefixes, prefix_input, to_store, to_store_prefix};
+pub use store::{
+    delay_prefixes, live_prefixes, prefix_input, sparse_input, to_store, to_store_prefix,
+};
 pub use tarn::{
     CSV_HEADER_FIELDS, SEPARATOR_WIDTH, csv_header, csv_row, fmt_sci, render_banner, render_end,
     render_step, write_forces_csv, write_tarn_log,

@@ -212,6 +212,45 @@ pub fn prefix_input<'a>(full: &'a RunInput<'_>, run: &SynthRun, steps: usize) ->
     }
 }
 
+/// `input` as a log written every `every` iterations shows it: only the values at iterations
+/// that are multiples of `every` are kept, with each segment's first value (a restarted
+/// solver prints its first iteration) and, when `last` is set, the final value of each
+/// series (a solver prints the iteration it stops at). Events are kept: warnings and marks
+/// are printed when they happen. `every` ≤ 1 returns `input` as it is.
+pub fn sparse_input(input: RunInput<'_>, every: i64, last: bool) -> RunInput<'_> {
+    if every <= 1 {
+        return input;
+    }
+    let series = input
+        .series
+        .into_iter()
+        .map(|s| {
+            let n = s.values.len().min(s.iterations.len());
+            let keep: Vec<usize> = (0..n)
+                .filter(|&i| {
+                    s.iterations[i] % every == 0
+                        || (last && i + 1 == n)
+                        || s.segment_starts.contains(&i)
+                })
+                .collect();
+            let segment_starts = s
+                .segment_starts
+                .iter()
+                .filter_map(|st| keep.iter().position(|i| i == st))
+                .collect();
+            SeriesInput {
+                iterations: Cow::Owned(keep.iter().map(|&i| s.iterations[i]).collect()),
+                values: Cow::Owned(keep.iter().map(|&i| s.values[i]).collect()),
+                segment_starts,
+                // The store's aggregates describe every value: the judge scans.
+                history: None,
+                ..s
+            }
+        })
+        .collect();
+    RunInput { series, ..input }
+}
+
 /// Step counts of the growing prefixes on which to look for the first detection of the
 /// labelled behaviour: from the first step at or after the onset to the whole run, at least
 /// `min_stride` steps apart and at most about `max_prefixes` of them (the last is always the
@@ -259,6 +298,43 @@ mod tests {
         );
         let healthy = generate_with(Scenario::Converging, 2, &Options::default());
         assert!(delay_prefixes(&healthy, 80, 25).is_empty());
+    }
+
+    #[test]
+    fn a_sparse_log_keeps_every_kth_iteration_segment_starts_and_the_last() {
+        // Restart seed 0: a restart from a checkpoint numbers its iterations on from there.
+        let run = generate_with(Scenario::Restart, 0, &Options::default());
+        let store = to_store(&run);
+        let full = store.judge_input();
+        let seg = run.steps.iter().rposition(|s| s.restart_from.is_some()).expect("restarted");
+        let sparse = sparse_input(full.clone(), 10, true);
+        fn drag<'a>(i: &'a RunInput<'_>) -> &'a SeriesInput<'a> {
+            i.series.iter().find(|s| s.name == "drag").expect("drag")
+        }
+        let (d, s) = (drag(&full), drag(&sparse));
+        let first_after = run.steps[seg].iteration;
+        for (k, it) in s.iterations.iter().enumerate() {
+            let at_start = s.segment_starts.contains(&k);
+            assert!(it % 10 == 0 || at_start || k + 1 == s.iterations.len(), "{it}");
+            // The value kept is the value at that iteration of that segment.
+            let seg_of = s.segment_starts.iter().filter(|&&st| st <= k).count() - 1;
+            let j = d.segment_starts[seg_of]
+                + d.iterations[d.segment_starts[seg_of]..]
+                    .iter()
+                    .position(|i| i == it)
+                    .expect("kept");
+            assert_eq!(s.values[k], d.values[j]);
+        }
+        assert_eq!(s.segment_starts.len(), d.segment_starts.len());
+        assert_eq!(s.iterations[s.segment_starts[1]], first_after);
+        assert_eq!(s.iterations.last(), d.iterations.last());
+        let tens = d.iterations.iter().filter(|i| *i % 10 == 0).count();
+        assert!(s.iterations.len() <= tens + 3, "{} {tens}", s.iterations.len());
+        // A prefix's last value is kept only when it is printed; every 1 changes nothing.
+        let p = sparse_input(prefix_input(&full, &run, 105), 10, false);
+        assert_eq!(drag(&p).iterations.last(), Some(&100));
+        assert_eq!(sparse_input(full.clone(), 1, true).series[0].values, full.series[0].values);
+        assert_eq!(sparse.events.len(), full.events.len());
     }
 
     #[test]
