@@ -10,7 +10,8 @@
 //! with a range prints each residual's remaining-iterations estimate at the halfway point the
 //! accuracy bench measures, against the truth; `JUDGE_TRACE_N=K` generates runs of about `K`
 //! iterations (at least 200) instead of the scenario's own length; `JUDGE_TRACE_EVERY=K` judges
-//! the run as a log written every `K` iterations shows it ([`synth::sparse_input`]).
+//! the run as a log written every `K` iterations shows it ([`synth::sparse_input`]);
+//! `JUDGE_TRACE_ALL=1` prints every finding, notes included.
 
 use settle::judge::{self, Criteria, FindingKind, Verdict};
 use settle::synth::{self, Scenario};
@@ -118,8 +119,9 @@ fn main() {
                 failing
             );
         }
+        let all = std::env::var("JUDGE_TRACE_ALL").is_ok();
         let shown = |f: &&settle::judge::Finding| {
-            f.supports.is_some()
+            all || f.supports.is_some()
                 || matches!(f.kind, FindingKind::Oscillation | FindingKind::GrowingOscillation)
         };
         for f in j.findings.iter().filter(shown) {
@@ -201,7 +203,10 @@ fn eta_at_halfway(scenario: Scenario, seed: u64) {
         return;
     };
     let half = met / 2;
-    let j = judge::judge(&synth::prefix_input(&full, &run, half + 1), &Criteria::default());
+    let j = judge::judge(
+        &thinned(synth::prefix_input(&full, &run, half + 1), false),
+        &Criteria::default(),
+    );
     let truth = (met - half) as f64;
     let mut worst: Option<f64> = Some(0.0);
     let mut parts = Vec::new();

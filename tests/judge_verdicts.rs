@@ -1409,6 +1409,41 @@ fn a_short_run_whose_monitors_depart_exponentially_is_diverging() {
 }
 
 #[test]
+fn a_log_written_every_few_iterations_is_judged_as_the_run() {
+    // Synthetic runs as a log written every 5 or 10 iterations shows them (long runs are often
+    // printed so). Each of these was misjudged when windows were counted in iterations only:
+    // a window cut to 50 iterations of a log printed every 5 held 10 values, under the 20 its
+    // statistics then asked for, and half of a 350-iteration run printed every 10 holds 17,
+    // so the monitors were never judged (`converging` for a false convergence or a converged
+    // run); and a departure's block medians of 10 values spanned 100 iterations, too coarse
+    // to see a rise over 380 (`stalled`, `suspect`); a stall window of 500 iterations
+    // printed every 20 held 25 values, under the 30 a stall is read from (`converging`,
+    // `suspect`). A window now holds at least ten values however far apart (its drift and
+    // band need no more), a stall window 30, and a departure block ten iterations' worth.
+    let cases: [(Scenario, i64, &[u64], Verdict); 5] = [
+        (Scenario::FalseConvergence, 5, &[2, 10, 12, 17], Verdict::Suspect),
+        (Scenario::SilentDivergence, 10, &[4, 6, 11, 18, 19], Verdict::Diverging),
+        (Scenario::ShortLaminar, 10, &[0, 2, 6, 7, 10], Verdict::Converged),
+        (Scenario::Stall, 20, &[0, 1, 2, 3], Verdict::Stalled),
+        (Scenario::HighResidualStall, 20, &[0, 1, 2, 3], Verdict::Stalled),
+    ];
+    for (scenario, every, seeds, expected) in cases {
+        for &seed in seeds {
+            let run = synth::generate(scenario, seed);
+            let store = synth::to_store(&run);
+            let input = synth::sparse_input(store.judge_input(), every, true);
+            let drag = input.series.iter().find(|s| s.name == "drag").expect("drag");
+            assert!(drag.values.len() <= run.steps.len() / every as usize + 2);
+            let j = judge(&input, &Criteria::default());
+            let name = scenario.name();
+            assert_eq!(j.verdict, expected, "{name} every {every} seed {seed}\n{}", explain(&j));
+            // The monitors were judged: a drift is reported for each.
+            assert!(j.monitors.iter().all(|m| m.drift_pct.is_finite()), "{name} seed {seed}");
+        }
+    }
+}
+
+#[test]
 fn a_departing_monitor_while_the_residuals_fall_is_a_note_and_an_approach_is_nothing() {
     // The same monitor while every residual still falls towards its target at 1 dec/kit:
     // the iteration contracts, the departure is noted, not deciding.

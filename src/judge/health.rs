@@ -411,9 +411,11 @@ pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
 /// ([`series::startup_end_within`]: a fifth of a segment shorter than 1000 iterations; a
 /// slow instability needs more than one window to rise a decade above the noise); a run
 /// that has not yet had one window after its start-up is looked at over what it has, from
-/// [`DEPARTURE_BLOCK`]` × 10` values on (a 300-iteration run is no less able to blow up). The
-/// departure is clamped below at the noise about `b` (median |x − b| over the first fifth)
-/// and its block medians of [`DEPARTURE_BLOCK`] values are looked at since they last stood
+/// ten blocks on (a 300-iteration run is no less able to blow up). The departure is clamped
+/// below at the noise about `b` (median |x − b| over the first fifth) and its medians over
+/// blocks of [`DEPARTURE_BLOCK`] iterations (their values, at least three: a log printed
+/// every few iterations has fewer values per block, not longer blocks) are looked at since
+/// they last stood
 /// within half a decade of that noise. It decides when their rise there is significant, at
 /// least [`EXP_GROWTH_DEC`] decade and not slowing down ([`EXP_GROWTH_KEEP`], thirds: an
 /// approach to a new level, `a·(1 − e^{−t/τ})`, and any polynomial drift rise ever more
@@ -436,7 +438,11 @@ pub fn departure_growth(
         let win = v.window_map(last_it, k * w, |x| x).from_iteration(startup_end);
         // A look-back the run cannot fill is asked once, over what the run has.
         let filled = win.span() as f64 >= 0.9 * (k * w) as f64;
-        if win.len() < 10 * DEPARTURE_BLOCK || (k > 1 && !filled) {
+        // Blocks of DEPARTURE_BLOCK iterations' values (at least three for a median): a log
+        // written every few iterations has fewer values per block, not longer blocks.
+        let block =
+            ((DEPARTURE_BLOCK as f64 / win.spacing()).round() as usize).clamp(3, DEPARTURE_BLOCK);
+        if win.len() < 10 * block || (k > 1 && !filled) {
             break;
         }
         let fifth = win.len() / 5;
@@ -447,9 +453,8 @@ pub fn departure_growth(
         // Block medians of log10 departure, clamped at the noise.
         let mut its = Vec::new();
         let mut logs = Vec::new();
-        for (c_its, c_vals) in win.its.chunks(DEPARTURE_BLOCK).zip(win.vals.chunks(DEPARTURE_BLOCK))
-        {
-            if c_vals.len() < DEPARTURE_BLOCK {
+        for (c_its, c_vals) in win.its.chunks(block).zip(win.vals.chunks(block)) {
+            if c_vals.len() < block {
                 continue;
             }
             let d: Vec<f64> =

@@ -25,6 +25,11 @@ pub const MIN_EVIDENCE_WINDOW: usize = 500;
 /// only the evidence window: no later fall can come.
 pub const STALL_MIN_ITERATIONS: usize = 1000;
 
+/// Fewest values a stall window, and the recent part of it that shows a plateau falling
+/// again, are read from (ours: a trend and its interval over fewer autocorrelated values
+/// mean little). A log printed every few iterations gets windows that many values long.
+pub const STALL_MIN_VALUES: usize = 30;
+
 /// Significance level of the oscillation test per series. 1 % rather than 5 % because a run
 /// has several series and a false "oscillating" costs the user a look (our choice).
 pub const OSC_ALPHA: f64 = 0.01;
@@ -101,8 +106,9 @@ pub const BLOWUP_DEC: f64 = 2.0;
 /// in decades, significantly positive and not slowing down (ours).
 pub const EXP_GROWTH_DEC: f64 = 1.0;
 
-/// Values per block median of a monitor's departure from its level ([`super::health::departure_growth`]):
-/// ten values, so that noise and zero crossings do not count (ours).
+/// Iterations per block median of a monitor's departure from its level
+/// ([`super::health::departure_growth`]): ten values of a log printed every iteration, so
+/// that noise and zero crossings do not count (ours).
 pub const DEPARTURE_BLOCK: usize = 10;
 
 /// A monitor's exponentially growing departure from its level decides once it is at least

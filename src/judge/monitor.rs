@@ -15,11 +15,11 @@
 //! **Band** is `max − min` over the window. Both are percent of the reference, or absolute
 //! when the series has an absolute limit.
 //!
-//! A window must hold 20 values and, unless the user set `window`, the segment must hold
-//! [`window::required`] iterations of data before the criteria are computed; before that they
-//! are NaN and not met (the run, or the segment after a restart, is too young to tell: a few
-//! tens of iterations after a restart show the kick the restart gave, not where the monitor
-//! goes).
+//! A window must hold [`window::MIN_VALUES`] values and, unless the user set `window`, the
+//! segment must hold [`window::required`] iterations of data before the criteria are
+//! computed; before that they are NaN and not met (the run, or the segment after a restart,
+//! is too young to tell: a few tens of iterations after a restart show the kick the restart
+//! gave, not where the monitor goes).
 
 use super::criteria::{self, Limit, Resolved};
 use super::iterative;
@@ -71,12 +71,13 @@ impl Stats {
     }
 }
 
-/// Statistics of the fitted window `f` (`None` with fewer than 20 values, or an adaptive
+/// Statistics of the fitted window `f` (`None` with fewer than [`window::MIN_VALUES`] values,
+/// or an adaptive
 /// window whose segment is too young, [`window::Fitted::young`]). The CI only with `with_ci`
 /// (it costs an FFT).
 fn window_stats(f: &window::Fitted, magnitude: f64, rc: &Resolved, with_ci: bool) -> Option<Stats> {
     let win = &f.window;
-    if win.len() < 20 || (!rc.window_explicit && f.young) {
+    if win.len() < window::MIN_VALUES || (!rc.window_explicit && f.young) {
         return None;
     }
     let x = win.its_f64();

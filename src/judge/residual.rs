@@ -291,6 +291,8 @@ enum Ended {
 /// Slow wander (red noise with a correlation time of hundreds of iterations) can read as a
 /// significant fall over the stall window too: a finished run whose last fall ends no lower
 /// than the residual already was earlier in that window is stalled ([`wandered_back`]).
+/// Every window, and the recent part that shows a live plateau falling again, holds at
+/// least [`STALL_MIN_VALUES`] values: a log printed every 20 iterations gets windows of 600.
 fn stall(
     name: &str,
     v: &View<'_>,
@@ -317,10 +319,14 @@ fn stall(
             startup = v.seg_first_it().saturating_add((seg_len / 5) as i64);
         }
     }
+    // A log printed every few iterations: the window holds STALL_MIN_VALUES of its values,
+    // and so does the recent part the live test below reads.
+    let min_span = (STALL_MIN_VALUES as f64 * v.spacing_at(last_it)).ceil() as usize;
+    let w = w.max(min_span);
     let win = v
         .window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN })
         .from_iteration(startup);
-    if !(win.span() as f64 >= 0.9 * w as f64 && win.len() >= 30) {
+    if !(win.span() as f64 >= 0.9 * w as f64 && win.len() >= STALL_MIN_VALUES) {
         return None;
     }
     let t = trend::fit(&win.its, &win.vals)?;
@@ -339,11 +345,11 @@ fn stall(
     // three quarters before it showed (a pseudo-plateau of a developing flow ends so; the
     // wander of a stall dips, but not out of its own range). A finished run has no later to
     // fall in: its plateau is judged whole.
-    let split = last_it.saturating_sub((w / 4) as i64);
+    let split = last_it.saturating_sub((w / 4).max(min_span) as i64);
     let recent = win.from_iteration(split);
     let before_min = lowest(&win, win.len() - recent.len()).map_or(f64::INFINITY, |l| l.1);
     if !ended
-        && recent.len() >= 30
+        && recent.len() >= STALL_MIN_VALUES
         && trend::fit(&recent.its, &recent.vals)
             .is_some_and(|r| r.falling(MIN_FALL_DEC_PER_KIT) && r.fitted_last < before_min)
     {

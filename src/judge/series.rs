@@ -108,6 +108,16 @@ impl<'s> View<'s> {
         self.its[self.seg]
     }
 
+    /// Mean iterations between the latest segment's values up to `t` (1 for a log printed
+    /// every iteration, 10 for one printed every tenth; 1 with fewer than two values).
+    pub fn spacing_at(&self, t: i64) -> f64 {
+        let count = self.end_at(t).saturating_sub(self.seg);
+        if count < 2 {
+            return 1.0;
+        }
+        t.saturating_sub(self.seg_first_it()) as f64 / (count - 1) as f64
+    }
+
     /// Index one past the last value with iteration ≤ `t` in the latest segment.
     pub fn end_at(&self, t: i64) -> usize {
         self.seg + self.its[self.seg..].partition_point(|&i| i <= t)

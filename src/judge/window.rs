@@ -19,8 +19,10 @@
 //!    within the drift tolerance of the value it is heading for, and the window keeps what
 //!    follows.
 //! 3. **Lower bound** `L`: at least [`MIN_WINDOW`] iterations (enough values for the drift
-//!    regression and the 20 batch means of the confidence interval), and at least two
-//!    periods of a periodic component found in the monitor, so the band sees whole cycles.
+//!    regression and the 20 batch means of the confidence interval), at least
+//!    [`MIN_VALUES`] values however far apart a sparse log prints them (the upper bound
+//!    grows to hold them too, as far as the solution is old), and at least two periods of a
+//!    periodic component found in the monitor, so the band sees whole cycles.
 //!
 //! 4. **Enough data**: the upper window is as long as the solution is old (a restart from a
 //!    checkpoint numbers its iterations on, so the run's first iteration dates it), but only
@@ -38,6 +40,13 @@ use super::stats;
 /// Fewest iterations of an adaptive window (ours: 20 batch means of at least 2 values, and a
 /// regression over 50 points has a slope standard error small enough for 0.1 %).
 pub const MIN_WINDOW: usize = 50;
+
+/// Fewest values a window's drift and band are computed from (ours: a regression slope over
+/// ten values, and their range; the optional confidence interval of the mean asks for 20 of
+/// its own, [`stationarity::mean_ci_half`]). A log written every few iterations needs a
+/// window that many samples long, not [`MIN_WINDOW`] iterations: 50 iterations of a log
+/// printed every 10 hold five values.
+pub const MIN_VALUES: usize = 10;
 
 /// A short segment's adaptive window spans at most this share of it (ours: the second half
 /// of a short run).
@@ -76,7 +85,15 @@ pub fn upper(v: &View<'_>, t: i64, rc: &Resolved) -> usize {
     // iterations on from there, so the run's first iteration (not the segment's) dates the
     // start-up; a restart from scratch starts again at a low number.
     let first = v.its[0].min(v.seg_first_it());
-    upper_for(rc.window, rc.window_explicit, t.saturating_sub(first).saturating_add(1))
+    let age = t.saturating_sub(first).saturating_add(1);
+    let u = upper_for(rc.window, rc.window_explicit, age);
+    if rc.window_explicit {
+        return u;
+    }
+    // A log written every few iterations: the upper window holds MIN_VALUES of the segment's
+    // samples (as far as the solution is old), however many iterations that spans.
+    let samples = (MIN_VALUES as f64 * v.spacing_at(t)).ceil() as usize;
+    u.max(samples.min(usize::try_from(age).unwrap_or(0)))
 }
 
 /// The upper bound for a configured `window` on a solution `age` iterations old.
@@ -243,7 +260,9 @@ pub fn fit(
         return Fitted { window: outer, clean, transient_end, length: u, projection, young };
     }
     let cycles = cycle.filter(|c| c.decisive).map_or(0, |c| (2.0 * c.period).ceil() as usize);
-    let lower = MIN_WINDOW.max(cycles).min(u) as i64;
+    // A sparse log's samples: the window keeps MIN_VALUES of them, however far apart.
+    let samples = (MIN_VALUES as f64 * outer.spacing()).ceil() as usize;
+    let lower = MIN_WINDOW.max(cycles).max(samples).min(u) as i64;
     let cut = outer.its[d].min(t.saturating_sub(lower - 1));
     let window = outer.from_iteration(cut);
     let clean = clean.map(|c| c.from_iteration(cut));
@@ -329,6 +348,35 @@ mod tests {
         assert!(!f.young && f.window.its[0] > 1500, "{f:?}");
         assert_eq!(required(500), 250);
         assert_eq!(required(60), 50);
+    }
+
+    #[test]
+    fn a_log_printed_every_ten_iterations_gets_windows_of_ten_values() {
+        // A monitor printed at it 10, 20, …, 150: 2 before it 120, then 1 (a start-up MSER-5
+        // would cut), with a tiny alternation.
+        let its: Vec<i64> = (1..=15).map(|k| 10 * k).collect();
+        let vals: Vec<f64> = its
+            .iter()
+            .map(|&i| if i < 120 { 2.0 } else { 1.0 + if i % 20 == 0 { 1e-6 } else { 0.0 } })
+            .collect();
+        let s = SeriesInput {
+            name: Cow::Borrowed("m"),
+            iterations: Cow::Owned(its),
+            values: Cow::Owned(vals),
+            segment_starts: vec![0],
+            ..Default::default()
+        };
+        let v = View::new(&s).expect("non-empty");
+        let rc = criteria::resolve(&Criteria::default(), "m", Role::Monitor);
+        // Half the run (70 iterations) holds 7 values: the upper window is 10 values.
+        assert_eq!(upper(&v, 150, &rc), 100);
+        let f = fit(&v, 150, &rc, None, &|_| 1e-3);
+        // The lower bound keeps 10 values where MSER would have kept the last 4.
+        assert_eq!((f.window.len(), f.window.its[0]), (MIN_VALUES, 60));
+        // Printed every iteration, the same run keeps its half-run upper window.
+        let dense = input((1..=150).map(|i| if i < 120 { 2.0 } else { 1.0 }).collect());
+        let v = View::new(&dense).expect("non-empty");
+        assert_eq!(upper(&v, 150, &rc), 75);
     }
 
     #[test]
