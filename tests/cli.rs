@@ -117,6 +117,40 @@ fn parse_csv_history_with_zero_configuration() {
 }
 
 #[test]
+fn check_a_history_printed_every_twentieth_iteration() {
+    // samples/plain/history.dat (documented `converged`) as a solver printing every 20th
+    // iteration would have written it: its header, the first row and every row whose
+    // iteration is a multiple of 20 (90 rows of 1788). Windows counted in iterations only
+    // held five of its values and the monitors were never judged (`converging`).
+    let text = std::fs::read_to_string(samples().join("plain/history.dat")).unwrap();
+    let kept: Vec<&str> = text
+        .lines()
+        .enumerate()
+        .filter(|(i, l)| {
+            *i < 2
+                || l.split_whitespace()
+                    .next()
+                    .and_then(|w| w.parse::<i64>().ok())
+                    .is_some_and(|it| it % 20 == 0)
+        })
+        .map(|(_, l)| l)
+        .collect();
+    assert_eq!(kept.len(), 2 + 1780 / 20);
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("history.dat");
+    std::fs::write(&path, kept.join("\n") + "\n").unwrap();
+    let o = settle(&["check", "--json", path.to_str().unwrap()]);
+    let v: Value = serde_json::from_str(&stdout(&o)).unwrap();
+    assert_eq!(v["verdict"], "converged", "{}", stdout(&o));
+    assert_eq!(v["iterations"], 1780);
+    // Every monitor criterion was judged, on a window of at least ten printed values.
+    let monitors: Vec<&Value> =
+        v["criteria"].as_array().unwrap().iter().filter(|c| c["name"] == "drift").collect();
+    assert_eq!(monitors.len(), 2, "{}", stdout(&o));
+    assert!(monitors.iter().all(|c| c["met"] == true && c["window"].as_u64() >= Some(200)));
+}
+
+#[test]
 fn parse_the_committed_samples() {
     // Counts as written by the generator (samples/README.md, checked byte for byte against
     // the generator by a unit test of the synth module).

@@ -415,15 +415,14 @@ pub const DEPARTURE_STATISTIC: &str = "departure_growth_dec";
 /// below at the noise about `b` (median |x − b| over the first fifth) and its medians over
 /// blocks of [`DEPARTURE_BLOCK`] iterations (their values, at least three: a log printed
 /// every few iterations has fewer values per block, not longer blocks) are looked at since
-/// they last stood
-/// within half a decade of that noise. It decides when their rise there is significant, at
-/// least [`EXP_GROWTH_DEC`] decade and not slowing down ([`EXP_GROWTH_KEEP`], thirds: an
-/// approach to a new level, `a·(1 − e^{−t/τ})`, and any polynomial drift rise ever more
-/// slowly in the logarithm, an exponential does not; and [`keeps_recent_rate`] at the end of
-/// the rise, where a two-step departure shows it), and the last departure is at least
-/// [`DEPARTURE_MATERIAL`] of the monitor's reference ([`scale::reference`]). The judge keeps
-/// it from deciding while most residuals fall (`departure_while_falling` in the judge).
-/// Returns true when a finding was pushed.
+/// they last stood within half a decade of that noise. It decides when their rise there is
+/// significant, at least [`EXP_GROWTH_DEC`] decade and not slowing down
+/// ([`EXP_GROWTH_KEEP`], thirds: an approach to a new level, `a·(1 − e^{−t/τ})`, and any
+/// polynomial drift rise ever more slowly in the logarithm, an exponential does not; and
+/// [`keeps_recent_rate`] at the end of the rise, where a two-step departure shows it), and
+/// the last departure is at least [`DEPARTURE_MATERIAL`] of the monitor's reference
+/// ([`scale::reference`]). The judge keeps it from deciding while most residuals fall
+/// (`departure_while_falling` in the judge). Returns true when a finding was pushed.
 pub fn departure_growth(
     name: &str,
     v: &View<'_>,

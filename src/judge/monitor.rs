@@ -72,9 +72,8 @@ impl Stats {
 }
 
 /// Statistics of the fitted window `f` (`None` with fewer than [`window::MIN_VALUES`] values,
-/// or an adaptive
-/// window whose segment is too young, [`window::Fitted::young`]). The CI only with `with_ci`
-/// (it costs an FFT).
+/// or an adaptive window whose segment is too young, [`window::Fitted::young`]). The CI only
+/// with `with_ci` (it costs an FFT).
 fn window_stats(f: &window::Fitted, magnitude: f64, rc: &Resolved, with_ci: bool) -> Option<Stats> {
     let win = &f.window;
     if win.len() < window::MIN_VALUES || (!rc.window_explicit && f.young) {
