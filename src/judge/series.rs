@@ -65,6 +65,10 @@ impl Window {
     }
 }
 
+/// Values [`View::spacing_at`] reads a log's cadence from (ours: as many as a stall window
+/// asks for).
+pub const SPACING_VALUES: usize = 30;
+
 /// A borrowed view of one series with its latest segment located.
 #[derive(Debug, Clone, Copy)]
 pub struct View<'s> {
@@ -108,14 +112,17 @@ impl<'s> View<'s> {
         self.its[self.seg]
     }
 
-    /// Mean iterations between the latest segment's values up to `t` (1 for a log printed
-    /// every iteration, 10 for one printed every tenth; 1 with fewer than two values).
+    /// Mean iterations between the latest segment's last [`SPACING_VALUES`] values up to `t`
+    /// (1 for a log printed every iteration, 10 for one printed every tenth; 1 with fewer
+    /// than two values). The latest values, because a solver may change how often it prints
+    /// (every iteration at the start, every tenth later).
     pub fn spacing_at(&self, t: i64) -> f64 {
-        let count = self.end_at(t).saturating_sub(self.seg);
-        if count < 2 {
+        let end = self.end_at(t);
+        let from = end.saturating_sub(SPACING_VALUES).max(self.seg);
+        if end < from + 2 {
             return 1.0;
         }
-        t.saturating_sub(self.seg_first_it()) as f64 / (count - 1) as f64
+        self.its[end - 1].saturating_sub(self.its[from]) as f64 / (end - 1 - from) as f64
     }
 
     /// Index one past the last value with iteration ≤ `t` in the latest segment.
@@ -250,6 +257,29 @@ pub(in crate::judge) mod tests {
             segment_starts: segs,
             ..Default::default()
         }
+    }
+
+    #[test]
+    fn the_spacing_is_the_latest_cadence_of_the_latest_segment() {
+        // Printed every iteration to it 100, then every tenth to it 600; a restart at it 300
+        // printed every fifth to it 450.
+        let mut its: Vec<i64> = (1..=100).collect();
+        its.extend((11..=60).map(|k| 10 * k));
+        let restart = its.len();
+        its.extend((60..=90).map(|k| 5 * k));
+        let vals = vec![1.0; its.len()];
+        let first = input(its[..restart].to_vec(), vals[..restart].to_vec(), vec![0]);
+        let v = View::new(&first).expect("non-empty");
+        assert_eq!(v.spacing_at(600), 10.0);
+        assert_eq!(v.spacing_at(100), 1.0);
+        // Over the last 30 values up to it 300: 20 printed every tenth, ten every iteration.
+        assert!((v.spacing_at(300) - 209.0 / 29.0).abs() < 1e-12);
+        let both = input(its, vals, vec![0, restart]);
+        let v = View::new(&both).expect("non-empty");
+        assert_eq!(v.spacing_at(450), 5.0);
+        // A segment of one value has no cadence yet.
+        let one = input(vec![7], vec![1.0], vec![0]);
+        assert_eq!(View::new(&one).expect("non-empty").spacing_at(7), 1.0);
     }
 
     #[test]
