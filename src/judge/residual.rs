@@ -321,7 +321,7 @@ fn stall(
     }
     // A log printed every few iterations: the window holds STALL_MIN_VALUES of its values,
     // and so does the recent part the live test below reads.
-    let min_span = (STALL_MIN_VALUES as f64 * v.spacing_at(last_it)).ceil() as usize;
+    let min_span = v.span_of(STALL_MIN_VALUES, last_it);
     let w = w.max(min_span);
     let win = v
         .window_map(last_it, w, |x| if x > 0.0 { x.log10() } else { f64::NAN })

@@ -125,6 +125,12 @@ impl<'s> View<'s> {
         self.its[end - 1].saturating_sub(self.its[from]) as f64 / (end - 1 - from) as f64
     }
 
+    /// Iterations that `values` values span at the log's latest cadence up to `t`
+    /// ([`Self::spacing_at`]): how long a window must be to hold that many of them.
+    pub fn span_of(&self, values: usize, t: i64) -> usize {
+        (values as f64 * self.spacing_at(t)).ceil() as usize
+    }
+
     /// Index one past the last value with iteration ≤ `t` in the latest segment.
     pub fn end_at(&self, t: i64) -> usize {
         self.seg + self.its[self.seg..].partition_point(|&i| i <= t)

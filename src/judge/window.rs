@@ -92,8 +92,7 @@ pub fn upper(v: &View<'_>, t: i64, rc: &Resolved) -> usize {
     }
     // A log written every few iterations: the upper window holds MIN_VALUES of the segment's
     // samples (as far as the solution is old), however many iterations that spans.
-    let samples = (MIN_VALUES as f64 * v.spacing_at(t)).ceil() as usize;
-    u.max(samples.min(usize::try_from(age).unwrap_or(0)))
+    u.max(v.span_of(MIN_VALUES, t).min(usize::try_from(age).unwrap_or(0)))
 }
 
 /// The upper bound for a configured `window` on a solution `age` iterations old.
@@ -261,8 +260,7 @@ pub fn fit(
     }
     let cycles = cycle.filter(|c| c.decisive).map_or(0, |c| (2.0 * c.period).ceil() as usize);
     // A sparse log's samples: the window keeps MIN_VALUES of them, however far apart.
-    let samples = (MIN_VALUES as f64 * outer.spacing()).ceil() as usize;
-    let lower = MIN_WINDOW.max(cycles).max(samples).min(u) as i64;
+    let lower = MIN_WINDOW.max(cycles).max(v.span_of(MIN_VALUES, t)).min(u) as i64;
     let cut = outer.its[d].min(t.saturating_sub(lower - 1));
     let window = outer.from_iteration(cut);
     let clean = clean.map(|c| c.from_iteration(cut));
@@ -359,13 +357,7 @@ mod tests {
             .iter()
             .map(|&i| if i < 120 { 2.0 } else { 1.0 + if i % 20 == 0 { 1e-6 } else { 0.0 } })
             .collect();
-        let s = SeriesInput {
-            name: Cow::Borrowed("m"),
-            iterations: Cow::Owned(its),
-            values: Cow::Owned(vals),
-            segment_starts: vec![0],
-            ..Default::default()
-        };
+        let s = crate::judge::series::tests::input(its, vals, vec![0]);
         let v = View::new(&s).expect("non-empty");
         let rc = criteria::resolve(&Criteria::default(), "m", Role::Monitor);
         // Half the run (70 iterations) holds 7 values: the upper window is 10 values.
