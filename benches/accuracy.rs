@@ -21,7 +21,9 @@
 //!   prefix halfway to that step, the judge's estimate of the remaining
 //!   iterations (the slowest residual's) against the true remainder, |error| in percent;
 //! * **false alarms** (healthy runs): the share of prefixes judged `diverging`, `stalled` or
-//!   `oscillating` (target 0), and, separately, `suspect`.
+//!   `oscillating` (target 0), and, separately, `suspect`;
+//! * **calls taken back** (healthy runs): the share of the prefixes after the first
+//!   `converged` call that are judged otherwise again (a watcher sees the call withdrawn).
 //!
 //! Prefixes are taken every `max(1, steps/160)` steps from step 30 (and every step near an
 //! early crash). `SETTLE_BENCH_SCENARIOS=stall,restart` limits the scenarios;
@@ -87,6 +89,8 @@ struct Row {
     alarm_prefixes: usize,
     suspect_prefixes: usize,
     alarm_kinds: BTreeMap<Verdict, usize>,
+    after_call: usize,
+    taken_back: usize,
 }
 
 /// The prefix step counts judged for a run: every `stride` steps from [`PREFIX_FROM`], every
@@ -188,6 +192,10 @@ fn measure(
         if v == Verdict::Converged && first_converged.is_none() && k > call_from {
             first_converged = Some(k);
         }
+        if s.healthy() && !whole && first_converged.is_some_and(|f| k > f) {
+            row.after_call += 1;
+            row.taken_back += usize::from(v != Verdict::Converged);
+        }
         if s.healthy() && !whole {
             row.prefixes += 1;
             if is_alarm(v) {
@@ -272,7 +280,7 @@ fn main() {
         if every > 1 { format!(", logs written every {every} iterations") } else { String::new() }
     );
     println!(
-        "{:<28} {:<11} {:>6}  {:<22} {:>6} {:>6} {:>4} {:>5} {:>5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>6}",
+        "{:<28} {:<11} {:>6}  {:<22} {:>6} {:>6} {:>4} {:>5} {:>5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>6} {:>6}",
         "scenario",
         "expected",
         "acc %",
@@ -289,7 +297,8 @@ fn main() {
         "eta50",
         "eta90",
         "alarm%",
-        "susp%"
+        "susp%",
+        "back%"
     );
     let mut rows: Vec<(Scenario, Row)> = Vec::new();
     for &s in &scenarios {
@@ -308,7 +317,7 @@ fn main() {
             quantile_f(&row.eta_errors, q).map_or_else(|| "-".into(), |e| format!("{e:.0}"))
         };
         println!(
-            "{:<28} {:<11} {:>6.1}  {:<22} {:>6} {:>6} {:>4} {:>5} {:>5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>6}",
+            "{:<28} {:<11} {:>6.1}  {:<22} {:>6} {:>6} {:>4} {:>5} {:>5} {:>6} {:>6} {:>5} {:>5} {:>6} {:>6} {:>6} {:>6} {:>6}",
             s.name(),
             s.expected().as_str(),
             pct(row.correct, row.runs),
@@ -334,6 +343,11 @@ fn main() {
             } else {
                 "-".into()
             },
+            if row.after_call > 0 {
+                format!("{:.1}", pct(row.taken_back, row.after_call))
+            } else {
+                "-".into()
+            },
         );
         if row.eta_missing > 0 {
             println!("{:<28} (no estimate at the halfway point in {} runs)", "", row.eta_missing);
@@ -352,6 +366,8 @@ fn main() {
     let h_prefixes: usize = healthy.iter().map(|r| r.prefixes).sum();
     let h_alarms: usize = healthy.iter().map(|r| r.alarm_prefixes).sum();
     let h_suspect: usize = healthy.iter().map(|r| r.suspect_prefixes).sum();
+    let h_after: usize = healthy.iter().map(|r| r.after_call).sum();
+    let h_back: usize = healthy.iter().map(|r| r.taken_back).sum();
     println!();
     println!("overall accuracy on complete runs: {:.1} % of {runs} runs", pct(correct, runs));
     println!(
@@ -359,6 +375,11 @@ fn main() {
          suspect on {h_suspect} ({:.2} %)",
         pct(h_alarms, h_prefixes),
         pct(h_suspect, h_prefixes)
+    );
+    println!(
+        "converged calls taken back: {h_back} of {h_after} healthy prefixes after the first \
+         call ({:.2} %)",
+        pct(h_back, h_after)
     );
     let per_call = clock.spent.as_secs_f64() * 1e6 / clock.calls.max(1) as f64;
     println!(
@@ -374,6 +395,7 @@ fn main() {
          called converged before it; late: runs called later than max(100, 20 % of the run) \
          or never; eta50/eta90: |error| % of the remaining-iterations estimate at the halfway \
          point; alarm%/susp%: share of healthy prefixes judged diverging/stalled/oscillating, \
-         and suspect"
+         and suspect; back%: share of the prefixes after the first `converged` call judged \
+         otherwise again"
     );
 }

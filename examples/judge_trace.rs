@@ -146,6 +146,8 @@ fn summary(scenario: Scenario, seed: u64) {
     // Prefixes judged after the first `converged` call that are not `converged` (a watcher
     // sees the call withdrawn), and of those, how many come after the allowed delay.
     let (mut lost, mut lost_late, mut after) = (0usize, 0usize, 0usize);
+    // What was unmet on the withdrawn prefixes (series:criterion, or the verdict).
+    let mut why: std::collections::BTreeMap<String, usize> = Default::default();
     let allowed = 100.max(n / 5);
     let mut ks: Vec<usize> = (30.min(n)..n).step_by(stride).collect();
     if run.end == synth::End::Crash && n < 400 {
@@ -155,7 +157,8 @@ fn summary(scenario: Scenario, seed: u64) {
     }
     for k in ks {
         let input = thinned(synth::prefix_input(&full, &run, k), false);
-        let v = judge::judge(&input, &criteria).verdict;
+        let j = judge::judge(&input, &criteria);
+        let v = j.verdict;
         let call_from = match run.truth.settled {
             Some(t) if t < seg => 0,
             _ => seg,
@@ -170,6 +173,14 @@ fn summary(scenario: Scenario, seed: u64) {
             after += 1;
             if v != Verdict::Converged {
                 lost += 1;
+                let unmet: Vec<String> = j
+                    .criteria
+                    .iter()
+                    .filter(|c| !c.met)
+                    .map(|c| format!("{}:{}", c.series, c.name))
+                    .collect();
+                let key = if unmet.is_empty() { format!("{v:?}") } else { unmet.join("+") };
+                *why.entry(key).or_default() += 1;
                 lost_late += usize::from(run.truth.settled.is_some_and(|t| k > t + allowed));
             }
         }
@@ -184,8 +195,8 @@ fn summary(scenario: Scenario, seed: u64) {
     };
     let lead = first_div.map(|k| run.last_iteration() - run.steps[k - 1].iteration);
     println!(
-        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} lead {lead:?} withdrawn {lost}/{after} (late {lost_late}) alarms {:?}",
-        run.truth.settled, first, alarms
+        "seed {seed:3}: n {n:5} seg {seg:5} whole {whole:?} settled {:?} first conv {:?} delay {delay} lead {lead:?} withdrawn {lost}/{after} (late {lost_late}) alarms {:?} why {:?}",
+        run.truth.settled, first, alarms, why
     );
 }
 
