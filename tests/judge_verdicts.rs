@@ -1697,3 +1697,28 @@ fn a_monitor_still_on_its_way_to_a_new_level_is_not_oscillating() {
         assert_eq!(cycles.count(), 0, "it {k}\n{}", explain(&j));
     }
 }
+
+#[test]
+fn a_converged_call_is_taken_back_when_a_monitor_creeps_again() {
+    // Converged by it 2500 (Cd settles with a decay time of 250 iterations), then Cd creeps
+    // by 0.1 % every 250 iterations. A held drift is kept on its best estimate of the change
+    // still to come, which a creep raises as much as the cautious projection: the call is
+    // taken back before the creep has moved Cd by the drift limit.
+    let n = 3200;
+    let mut rng = Rng(41);
+    let creep = |i: f64| 1.0 + 1e-3 * ((i - 2500.0) / 250.0).max(0.0);
+    let cd = monitor(&mut rng, n, 1e-4, |i| settling(0.0312, 250.0)(i) * creep(i));
+    let run = Run::new()
+        .add("res_p", Role::Residual, residual(&mut rng, n, 0.05, converging(2.5, -6.0)))
+        .add("res_U", Role::Residual, residual(&mut rng, n, 0.05, converging(3.0, -6.5)))
+        .add("Cd", Role::Monitor, cd);
+    let j = prefix(&run, 2500).judge();
+    assert_eq!(j.verdict, Verdict::Converged, "{}", explain(&j));
+    let back = (2500..=n)
+        .step_by(10)
+        .find(|&k| prefix(&run, k).judge().verdict != Verdict::Converged)
+        .expect("taken back");
+    assert!(back <= 2750, "still converged at {back}");
+    let j = prefix(&run, back).judge();
+    assert!(has(&j, FindingKind::FalseConvergence, "Cd"), "{back}\n{}", explain(&j));
+}

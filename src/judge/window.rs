@@ -140,6 +140,11 @@ pub struct Projection {
     pub limit: f64,
     /// The slope shrinks significantly from the middle to the last third (a decay was seen).
     pub decaying: bool,
+    /// Signed change still to come, best estimate: while the slopes of the three thirds
+    /// shrink, the decay they give counted from the window's end, without a margin
+    /// (otherwise `remaining`). It keeps a call made ([`super::monitor`]), it does not make
+    /// one.
+    pub central: f64,
 }
 
 /// A clear decay is projected over at most this many upper windows (ours: a slow approach
@@ -183,7 +188,19 @@ pub fn project(outer: &Window) -> Option<Projection> {
         if follows { s3.abs().min(s23.abs()).copysign(s3) } else { 0.0 }
     };
     let remaining = rate * horizon * margin;
-    Some(Projection { remaining, limit: end + remaining, decaying })
+    // The best estimate: the decay time from the first and last thirds' slopes (twice as far
+    // apart as neighbours, so the same noise in the slopes moves it about half as much), the
+    // slope at the window's end rather than at the last third's centre.
+    let shrinking = s1 * s2 > 0.0 && s2 * s3 > 0.0 && s1.abs() > s2.abs() && s2.abs() > s3.abs();
+    let central = match early {
+        Some((_, _, c1, _)) if shrinking && c3 > c1 => {
+            let tau = ((c3 - c1) / (s1 / s3).ln()).min(cap);
+            let h = x[n - 1] - c3;
+            s3 * tau * (-h / tau).exp()
+        }
+        _ => remaining,
+    };
+    Some(Projection { remaining, limit: end + remaining, decaying, central })
 }
 
 /// Least-squares slope of `y` against `x` with its standard error widened for the
@@ -414,5 +431,23 @@ mod tests {
         assert_eq!(project(&window_of(500, turn)).expect("projection").remaining, 0.0);
         // A last-third slope within two standard errors projects nothing.
         assert_eq!(project(&window_of(500, at)).expect("projection").remaining, 0.0);
+        // No decay: the best estimate is the projection itself.
+        let p = project(&window_of(500, |i| 2e-6 * i + at(i))).expect("projection");
+        assert_eq!(p.central, p.remaining);
+    }
+
+    #[test]
+    fn the_best_estimate_of_an_approach_is_counted_from_the_window_end() {
+        // 1 + 0.01·e^{−i/300} over 600 iterations: the change still to come after it 600 is
+        // −0.01·e^{−2} = −1.353e-3 (exact). Thirds of 200 iterations; the projection that
+        // guards a call, s₃·τ, starts at the last third's centre (it 500.5): 39 % more. The least-squares slope of an exponential over 200
+        // iterations is its slope at the centre × (1 + (200/300)²/40 + …) = 1.011 (Taylor
+        // series, hand calculation), in every third alike.
+        let p = project(&window_of(600, |i| 0.01 * (-i / 300.0).exp())).expect("projection");
+        assert!(p.decaying);
+        let exact = -0.01 * (-2.0f64).exp();
+        assert!((p.central / exact - 1.011).abs() < 0.002, "{} {exact}", p.central);
+        // The guard starts 99.5 iterations earlier and adds a margin for the slopes' errors.
+        assert!(p.remaining / p.central > (99.5f64 / 300.0).exp(), "{} {}", p.remaining, p.central);
     }
 }
