@@ -186,7 +186,9 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
     let mut window_iterations = 0usize;
     // Monitors whose criteria have not all held for the hold span.
     let mut unheld: Vec<String> = Vec::new();
-    // Iterations every criterion must have held before a live run is `converged`.
+    // Iterations every criterion must have held before a live run is `converged` (`hold`),
+    // and before a monitor's criterion is kept met on its best estimate (`keep`, a finished
+    // run's too: `monitor::Hold`).
     let keep = match (first_it, last_it) {
         (Some(f), Some(l)) => {
             window::hold(window, criteria.window.is_some(), l.saturating_sub(f).saturating_add(1))
@@ -194,6 +196,7 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
         _ => 0,
     };
     let hold = if input.ended { 0 } else { keep };
+    let monitor_hold = monitor::Hold { call: hold, keep };
 
     // The series to judge, with their criteria and views; monitors with their magnitude, so
     // that a round-off-only monitor can be told from its companions.
@@ -246,8 +249,8 @@ pub fn try_judge(input: &RunInput<'_>, criteria: &Criteria) -> Result<Judgement,
                     .map(|(_, m)| *m)
                     .fold(0.0f64, f64::max);
                 let round_off = scale::round_off(mag.max(), companions).then_some(companions);
-                let hold = monitor::Hold { call: hold, keep };
-                let facts = monitor::analyse(name, view, rc, mag, round_off, hold, &mut sink);
+                let facts =
+                    monitor::analyse(name, view, rc, mag, round_off, monitor_hold, &mut sink);
                 if !facts.held && round_off.is_none() {
                     unheld.push(name.to_string());
                 }
