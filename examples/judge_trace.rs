@@ -220,6 +220,7 @@ fn eta_at_halfway(scenario: Scenario, seed: u64) {
     );
     let truth = (met - half) as f64;
     let mut worst: Option<f64> = Some(0.0);
+    let mut range = (0.0f64, 0.0f64);
     let mut parts = Vec::new();
     for r in &j.residuals {
         let met = j.criteria.iter().filter(|c| c.series == r.series).all(|c| c.met);
@@ -229,13 +230,20 @@ fn eta_at_halfway(scenario: Scenario, seed: u64) {
                 (Some(w), Some(e)) => Some(w.max(e)),
                 _ => None,
             };
+            if let Some((lo, hi)) = r.eta_range {
+                range = (range.0.max(lo), range.1.max(hi));
+            }
         }
         parts.push(format!("{} {}", r.series, e.map_or("-".into(), |e| format!("{e:.0}"))));
     }
     let err = worst.map_or("-".into(), |w| format!("{:+.0} %", 100.0 * (w - truth) / truth));
+    // The slowest residual's range: the largest of the residuals' fewest and most.
+    let covered = if range.0 <= truth && truth <= range.1 { "in" } else { "out" };
     println!(
-        "seed {seed:3}: met {met} half {half} truth {truth:.0} est {} err {err} [{}]",
+        "seed {seed:3}: met {met} half {half} truth {truth:.0} est {} err {err} range {:.0}–{:.0} {covered} [{}]",
         worst.map_or("-".into(), |w| format!("{w:.0}")),
+        range.0,
+        range.1,
         parts.join(", ")
     );
 }

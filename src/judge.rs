@@ -99,6 +99,7 @@ pub mod iterative;
 pub mod limits;
 mod monitor;
 pub mod oscillation;
+pub mod peak;
 mod residual;
 pub mod scale;
 pub mod series;

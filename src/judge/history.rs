@@ -4,7 +4,8 @@
 //! Every windowed test already looks at a bounded tail. What used to need the whole run:
 //!
 //! * the residual's peak and its first and last positive values (the drop is measured from
-//!   the peak of the whole run), and the largest single-step fall after the peak;
+//!   the peak of the whole run), and the largest single-step fall after the peak, isolated
+//!   glitches left out ([`super::peak`]);
 //! * non-finite values: the first of the run, and the first, last and count in the latest
 //!   segment;
 //! * the backward scan that dates the residual criteria (`since`): the last value of the
@@ -31,6 +32,7 @@
 //! series judged under another role (a `role` override in `settle.toml`) falls back to the
 //! scan for what its history lacks.
 
+use super::peak::Peak;
 use super::series::View;
 use crate::record::Role;
 
@@ -61,17 +63,12 @@ pub struct Tally {
     pub seg_nf_first: Option<usize>,
     pub seg_nf_last: Option<usize>,
     pub seg_nf_count: usize,
-    /// Residuals: the peak (first index of the largest positive finite value), the first
-    /// positive finite value's index and the last positive finite value.
-    pub peak: f64,
-    pub peak_idx: usize,
+    /// Residuals: the peak and the largest single-step fall after it, glitches left out
+    /// ([`Peak`]), the first positive finite value's index and the last positive finite
+    /// value.
+    pub peak: Peak,
     pub first_pos: Option<usize>,
     pub last_pos: f64,
-    /// Residuals: the largest ratio `previous / value` between consecutive positive finite
-    /// values after the peak (1 when none is larger), and the index of the later value.
-    pub step_ratio: f64,
-    pub step_idx: usize,
-    prev_pos: Option<f64>,
     /// Monitors: the block-median process of the latest segment (blocks of 5 finite
     /// non-zero |value|), its running maximum and completed blocks.
     mag_buf: [f64; 5],
@@ -134,13 +131,9 @@ impl History {
                 seg_nf_first: None,
                 seg_nf_last: None,
                 seg_nf_count: 0,
-                peak: f64::NEG_INFINITY,
-                peak_idx: 0,
+                peak: Peak::default(),
                 first_pos: None,
                 last_pos: 0.0,
-                step_ratio: 1.0,
-                step_idx: 0,
-                prev_pos: None,
                 mag_buf: [0.0; 5],
                 mag_k: 0,
                 mag_best: 0.0,
@@ -210,22 +203,8 @@ impl History {
             if x.is_finite() && x > 0.0 {
                 t.first_pos.get_or_insert(i);
                 t.last_pos = x;
-                if x > t.peak {
-                    t.peak = x;
-                    t.peak_idx = i;
-                    t.step_ratio = 1.0;
-                    t.step_idx = 0;
-                } else if let Some(p) = t.prev_pos {
-                    let r = p / x;
-                    if r > t.step_ratio {
-                        t.step_ratio = r;
-                        t.step_idx = i;
-                    }
-                }
-                t.prev_pos = Some(x);
-            } else {
-                t.prev_pos = None;
             }
+            t.peak.push(i, x);
             let k = key(x);
             if k > t.block_max {
                 t.block_max = k;

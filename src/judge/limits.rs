@@ -144,6 +144,13 @@ pub const FROZEN_MIN_REPEATS: usize = 20;
 /// the drop criterion depends on it (ours).
 pub const STEP_DROP_DEC: f64 = 3.0;
 
+/// A single residual value at least this many decades above both the value before it and the
+/// value after it is a glitch (a failed solve), left out of the peak the drop is measured
+/// from ([`super::peak`]): an order of magnitude up in one step and back down in the next,
+/// where a residual history moves by a few tenths of a decade from step to step (common
+/// practice, no source).
+pub const GLITCH_DEC: f64 = 1.0;
+
 /// A first value at least this many decades below the later peak is a "low start" (ours).
 pub const LOW_START_DEC: f64 = 2.0;
 

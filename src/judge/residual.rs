@@ -10,6 +10,7 @@ use super::criteria::{self, Resolved};
 use super::eta;
 use super::limits::*;
 use super::oscillation;
+use super::peak::Peak;
 use super::series::{self, View};
 use super::stats;
 use super::text::{dec, its, num, pct};
@@ -39,37 +40,42 @@ pub struct StallFacts {
     pub ci: (f64, f64),
 }
 
-/// Peak and last positive finite value of the whole run.
+/// Peak, largest step fall after it, and last positive finite value of the whole run.
 struct Levels {
     peak: f64,
     peak_idx: usize,
+    /// Largest `previous / value` ratio after the peak, and the later value's index.
+    step: (f64, usize),
+    /// Glitches left out of the peak, and the largest (index, decades above its neighbours).
+    glitches: (usize, Option<(usize, f64)>),
     first_idx: usize,
     last_pos: f64,
 }
 
 /// From the store's running aggregates when given ([`super::history`]), else one pass.
 fn levels(v: &View<'_>) -> Option<Levels> {
+    let of = |p: &Peak, first_idx: Option<usize>, last_pos: Option<f64>| {
+        Some(Levels {
+            peak: p.value,
+            peak_idx: p.idx,
+            step: (p.step_ratio, p.step_idx),
+            glitches: (p.glitches, p.largest),
+            first_idx: first_idx?,
+            last_pos: last_pos?,
+        })
+    };
     if let Some(t) = v.history.filter(|h| h.has_levels()).map(|h| h.tally()) {
-        return Some(Levels {
-            peak: t.peak,
-            peak_idx: t.peak_idx,
-            first_idx: t.first_pos?,
-            last_pos: t.last_pos,
-        });
+        return of(&t.peak, t.first_pos, Some(t.last_pos));
     }
-    let mut peak = (f64::NEG_INFINITY, 0usize);
     let mut first_idx = None;
     let mut last_pos = None;
     for (i, &x) in v.vals.iter().enumerate() {
         if x.is_finite() && x > 0.0 {
             first_idx.get_or_insert(i);
             last_pos = Some(x);
-            if x > peak.0 {
-                peak = (x, i);
-            }
         }
     }
-    Some(Levels { peak: peak.0, peak_idx: peak.1, first_idx: first_idx?, last_pos: last_pos? })
+    of(&Peak::of(v.vals), first_idx, last_pos)
 }
 
 /// Judge one residual series; pushes criteria, findings and the summary into `sink`.
@@ -203,6 +209,7 @@ pub fn analyse(
     }
     frozen(name, v, sink);
     step_drop(name, v, &lv, drop, rc.drop.value, drop_since.is_some(), sink);
+    glitch_note(name, v, &lv, sink);
     low_start(name, v, &lv, met, sink);
 
     sink.residuals.push(ResidualSummary {
@@ -680,27 +687,9 @@ fn step_drop(
         sink.findings.push(f);
         return;
     }
-    // Largest single-step fall ratio after the peak, between consecutive positive values:
-    // kept by the store as values arrive ([`super::history`]), else one O(n) pass (a
-    // division per value, the logarithm only for the winner).
-    let kept = v.history.filter(|h| h.has_levels()).map(|h| h.tally());
-    let mut best = kept.map_or((1.0f64, 0usize), |t| (t.step_ratio, t.step_idx));
-    let mut prev: Option<f64> = None;
-    for i in (lv.peak_idx..n).filter(|_| kept.is_none()) {
-        let x = v.vals[i];
-        if !(x.is_finite() && x > 0.0) {
-            prev = None;
-            continue;
-        }
-        if let Some(p) = prev {
-            let r = p / x;
-            if r > best.0 {
-                best = (r, i);
-            }
-        }
-        prev = Some(x);
-    }
-    let best = (best.0.log10(), best.1);
+    // Largest single-step fall ratio after the peak, between consecutive positive values,
+    // glitches skipped ([`super::peak`]).
+    let best = (lv.step.0.log10(), lv.step.1);
     if !(best.0 >= STEP_DROP_DEC) {
         return;
     }
@@ -721,6 +710,27 @@ fn step_drop(
     } else {
         format!("{name} fell {} decades in one step at it {}", dec(best.0), v.its[i])
     };
+    sink.findings.push(f);
+}
+
+/// Say that glitches were left out of the peak, naming the largest.
+fn glitch_note(name: &str, v: &View<'_>, lv: &Levels, sink: &mut Sink) {
+    let (count, Some((i, height))) = lv.glitches else { return };
+    let it = v.its[i];
+    let mut f = finding(FindingKind::Glitch, name, it, it, "glitch_dec");
+    f.value = height;
+    f.threshold = Some(STEP_DROP_DEC);
+    let others = match count {
+        1 => String::new(),
+        2 => " (and 1 smaller one)".to_string(),
+        k => format!(" (and {} smaller ones)", k - 1),
+    };
+    f.detail = format!(
+        "{name} printed {} at it {it}, {} decades above the values on both sides, then went on \
+         as before: a one-iteration glitch{others}, left out of the peak the drop is measured from",
+        num(v.vals[i]),
+        dec(height),
+    );
     sink.findings.push(f);
 }
 

@@ -136,6 +136,9 @@ pub enum FindingKind {
     FrozenResidual,
     /// A drop of many decades in one step (reset or normalisation artefact).
     StepDrop,
+    /// One value many decades above both its neighbours (a failed solve), left out of the
+    /// peak the drop is measured from (informational).
+    Glitch,
     /// The drop is measured from a first value far below the later peak.
     LowStart,
     /// Warnings (for instance clipping) in most records.
@@ -174,6 +177,7 @@ impl FindingKind {
             FindingKind::SolverStoppedEarly => "solver_stopped_early",
             FindingKind::FrozenResidual => "frozen_residual",
             FindingKind::StepDrop => "step_drop",
+            FindingKind::Glitch => "glitch",
             FindingKind::LowStart => "low_start",
             FindingKind::FrequentWarnings => "frequent_warnings",
             FindingKind::Trend => "trend",

@@ -76,6 +76,7 @@ pub fn kind_words(k: FindingKind) -> &'static str {
         FindingKind::SolverStoppedEarly => "solver stopped early",
         FindingKind::FrozenResidual => "frozen residual",
         FindingKind::StepDrop => "drop in one step",
+        FindingKind::Glitch => "one-iteration glitch",
         FindingKind::LowStart => "low start",
         FindingKind::FrequentWarnings => "frequent warnings",
         FindingKind::Trend => "trend",

@@ -258,6 +258,8 @@ pub(super) fn generate(scenario: Scenario, seed: u64, options: &Options) -> Synt
     let mut common = Common::draw(&mut prng, scenario, options);
     let plan = plan::build(scenario, &mut common, &mut prng);
     let (mut run, mon_nf) = simulate(&common, &plan, nrng);
+    // Printed over the run after its truth is dated: a practitioner reads through them.
+    glitch(&mut run.steps, &plan.glitches);
     run.scenario = scenario;
     run.seed = seed;
     if scenario == Scenario::FalseConvergence {
@@ -271,6 +273,27 @@ pub(super) fn generate(scenario: Scenario, seed: u64, options: &Options) -> Synt
         };
     }
     run
+}
+
+/// Print each glitch over its step: the residuals at their glitch level, their linear
+/// solvers at the sweep limit.
+fn glitch(steps: &mut [Step], glitches: &[plan::Glitch]) {
+    for g in glitches {
+        let Some(st) = steps.get_mut(g.step) else { continue };
+        let all: Vec<usize> = (0..st.residuals.len()).collect();
+        let eqs = if g.equations.is_empty() { &all } else { &g.equations };
+        for &e in eqs {
+            let Some(r) = st.residuals.get_mut(e) else { continue };
+            r.1 = round_sig(10f64.powf(g.level), 4);
+            if let Some(s) = st.sweeps.get_mut(e) {
+                *s = SWEEP_LIMIT;
+                st.warnings.push(format!(
+                    "linear solver for {} reached sweep limit ({SWEEP_LIMIT})",
+                    EQUATIONS[e]
+                ));
+            }
+        }
+    }
 }
 
 /// First iteration at which every residual is at least 3 decades below its running peak

@@ -60,9 +60,12 @@ pub enum Scenario {
     /// A short run that reaches a noisy linear-solver floor early; every linear solver then
     /// reports zero sweeps.
     FloorZeroSweeps,
+    /// A converging run whose log shows one to three one-iteration glitches: failed linear
+    /// solves that print a residual near or above the start's level, then back on the trend.
+    ResidualGlitches,
 }
 
-const ALL: [Scenario; 22] = [
+const ALL: [Scenario; 23] = [
     Scenario::Converging,
     Scenario::Stall,
     Scenario::ResidualLimitCycle,
@@ -85,6 +88,7 @@ const ALL: [Scenario; 22] = [
     Scenario::HighResidualStall,
     Scenario::LongPeriodCycle,
     Scenario::FloorZeroSweeps,
+    Scenario::ResidualGlitches,
 ];
 
 impl Scenario {
@@ -118,6 +122,7 @@ impl Scenario {
             Scenario::HighResidualStall => "high-residual-stall",
             Scenario::LongPeriodCycle => "long-period-cycle",
             Scenario::FloorZeroSweeps => "floor-zero-sweeps",
+            Scenario::ResidualGlitches => "residual-glitches",
         }
     }
 
@@ -137,7 +142,8 @@ impl Scenario {
             | Scenario::ShortLaminar
             | Scenario::NearZeroMonitors
             | Scenario::RingDown
-            | Scenario::FloorZeroSweeps => Verdict::Converged,
+            | Scenario::FloorZeroSweeps
+            | Scenario::ResidualGlitches => Verdict::Converged,
             Scenario::StillConverging => Verdict::Converging,
             Scenario::Stall | Scenario::HighResidualStall => Verdict::Stalled,
             Scenario::ResidualLimitCycle
@@ -257,6 +263,11 @@ impl Scenario {
                 "a run of 500 to 1200 iterations that reaches a noisy linear-solver floor in \
                  its first half; from then on every linear solver reports zero sweeps"
             }
+            Scenario::ResidualGlitches => {
+                "converges to its targets, but one to three iterations print a residual from a \
+                 third of the start's level to thirty times it, with the linear solver at its \
+                 sweep limit (a failed solve); the next iteration is back on the trend"
+            }
         }
     }
 }
@@ -280,7 +291,7 @@ mod tests {
         }
         names.sort();
         names.dedup();
-        assert_eq!(names.len(), 22);
+        assert_eq!(names.len(), 23);
         assert_eq!(Scenario::parse("Converging"), None);
     }
 
@@ -300,7 +311,8 @@ mod tests {
                 "short-laminar",
                 "near-zero-monitors",
                 "ring-down",
-                "floor-zero-sweeps"
+                "floor-zero-sweeps",
+                "residual-glitches"
             ]
         );
         assert_eq!(Scenario::CrashNoNan.expected(), Verdict::Diverging);

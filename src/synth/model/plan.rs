@@ -215,6 +215,18 @@ pub(super) struct Plan {
     /// Steps simulated beyond `n_max` only to find when the residuals would meet their
     /// criteria (a live run stopped before): never part of the run.
     pub continuation: usize,
+    /// One-step glitches printed over the simulated residuals (failed linear solves).
+    pub glitches: Vec<Glitch>,
+}
+
+/// One iteration whose linear solves failed: the residuals of `equations` (all when empty)
+/// print `level` (log10, the normalised start is 0) and their solvers report the sweep
+/// limit; the next iteration is back on the trend.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Glitch {
+    pub step: usize,
+    pub equations: Vec<usize>,
+    pub level: f64,
 }
 
 impl Plan {
@@ -248,6 +260,7 @@ impl Plan {
             laminar: false,
             zero_sweeps: false,
             continuation: 0,
+            glitches: Vec::new(),
         }
     }
 
@@ -649,6 +662,21 @@ pub(super) fn build(scenario: Scenario, c: &mut Common, r: &mut Rng) -> Plan {
             }
             plan.cycle = Some(cy);
             plan.onset = Some(onset as i64 + 1);
+            plan
+        }
+        Scenario::ResidualGlitches => {
+            let d = r.range(4.5, 6.0);
+            let mut plan = converging_to_target(c, r, d, n);
+            // One to three failed linear solves anywhere after the start-up, each printing a
+            // residual from a third of the start's level to thirty times it, in one equation
+            // or in all of them.
+            let count = r.pick(&[1usize, 2, 3]);
+            for _ in 0..count {
+                let step = (r.range(0.15, 0.95) * nf) as usize;
+                let equations =
+                    if r.chance(0.4) { Vec::new() } else { vec![r.pick(&[0, 1, 2, 3])] };
+                plan.glitches.push(Glitch { step, equations, level: r.range(-0.5, 1.5) });
+            }
             plan
         }
         Scenario::FloorZeroSweeps => {
