@@ -9,7 +9,9 @@
 //! ([`super::limits::STEP_DROP_DEC`]), reads as a reset or a broken normalisation for the
 //! rest of the run. A glitch is one positive value at least
 //! [`super::limits::GLITCH_DEC`] (a decade) above both the value before it and the value
-//! after it. It is known only once the value after it arrives; until then it counts, because
+//! after it, the value before being the last one that was not a glitch itself: a recovery
+//! that falls a decade or more per step (10, then 0.1, then back on the trend) is a chain of
+//! glitches. It is known only once the value after it arrives; until then it counts, because
 //! the newest value of a live run may be the first of a blow-up.
 //!
 //! One pass, O(1) per value: the store folds values in as they arrive
@@ -194,6 +196,18 @@ mod tests {
         started.extend(cycle);
         let p = Peak::of(&started);
         assert_eq!((p.value, p.idx, p.glitches), (1.0, 0, 0));
+    }
+
+    #[test]
+    fn a_recovery_that_falls_a_decade_a_step_is_a_chain_of_glitches() {
+        // 10, then 0.1, then back on the trend (10^−2.52): each value a decade above the
+        // value before the excursion and the one after it, so both are left out.
+        let mut v = falling(400);
+        v[250] = 10.0;
+        v[251] = 0.1;
+        let p = Peak::of(&v);
+        assert_eq!((p.value, p.idx), (1.0, 0));
+        assert!(p.step_ratio.log10() < 0.05, "{p:?}");
     }
 
     #[test]
