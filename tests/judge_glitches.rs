@@ -45,6 +45,8 @@ fn a_run_with_glitches_is_converged_and_says_where_they_were() {
         }
         for f in j.findings.iter().filter(|f| f.kind == FindingKind::Glitch) {
             assert!(f.supports.is_none() && f.value >= 1.0, "seed {seed}: {f:?}");
+            // The threshold is the glitch's decade, not the step drop's three.
+            assert_eq!(f.threshold, Some(1.0), "seed {seed}");
         }
     }
 }

@@ -40,32 +40,18 @@ pub struct StallFacts {
     pub ci: (f64, f64),
 }
 
-/// Peak, largest step fall after it, and last positive finite value of the whole run.
+/// Peak (with the largest step fall after it and the glitches left out, [`Peak`]) and the
+/// first and last positive finite values of the whole run.
 struct Levels {
-    peak: f64,
-    peak_idx: usize,
-    /// Largest `previous / value` ratio after the peak, and the later value's index.
-    step: (f64, usize),
-    /// Glitches left out of the peak, and the largest (index, decades above its neighbours).
-    glitches: (usize, Option<(usize, f64)>),
+    peak: Peak,
     first_idx: usize,
     last_pos: f64,
 }
 
 /// From the store's running aggregates when given ([`super::history`]), else one pass.
 fn levels(v: &View<'_>) -> Option<Levels> {
-    let of = |p: &Peak, first_idx: Option<usize>, last_pos: Option<f64>| {
-        Some(Levels {
-            peak: p.value,
-            peak_idx: p.idx,
-            step: (p.step_ratio, p.step_idx),
-            glitches: (p.glitches, p.largest),
-            first_idx: first_idx?,
-            last_pos: last_pos?,
-        })
-    };
     if let Some(t) = v.history.filter(|h| h.has_levels()).map(|h| h.tally()) {
-        return of(&t.peak, t.first_pos, Some(t.last_pos));
+        return Some(Levels { peak: t.peak, first_idx: t.first_pos?, last_pos: t.last_pos });
     }
     let mut first_idx = None;
     let mut last_pos = None;
@@ -75,7 +61,7 @@ fn levels(v: &View<'_>) -> Option<Levels> {
             last_pos = Some(x);
         }
     }
-    of(&Peak::of(v.vals), first_idx, last_pos)
+    Some(Levels { peak: Peak::of(v.vals), first_idx: first_idx?, last_pos: last_pos? })
 }
 
 /// Judge one residual series; pushes criteria, findings and the summary into `sink`.
@@ -133,8 +119,8 @@ pub fn analyse(
     };
 
     // Drop from the peak of the whole run, dated within the latest segment.
-    let drop_level = lv.peak / 10f64.powf(rc.drop.value);
-    let drop = if last_raw.is_finite() { (lv.peak / lv.last_pos).log10() } else { f64::NAN };
+    let drop_level = lv.peak.value / 10f64.powf(rc.drop.value);
+    let drop = if last_raw.is_finite() { (lv.peak.value / lv.last_pos).log10() } else { f64::NAN };
     let drop_since = since_at_most(v, drop_level);
     let drop_res =
         criteria::result("drop", name, Comparison::AtLeast, rc.drop, drop, "dec", drop_since);
@@ -215,7 +201,7 @@ pub fn analyse(
     sink.residuals.push(ResidualSummary {
         series: name.into(),
         last: last_raw,
-        peak: lv.peak,
+        peak: lv.peak.value,
         drop_dec: drop,
         slope_dec_per_kit: tr.map_or(f64::NAN, |t| t.slope_dec_per_kit),
         slope_ci: tr.map_or((f64::NAN, f64::NAN), |t| t.ci),
@@ -689,7 +675,7 @@ fn step_drop(
     }
     // Largest single-step fall ratio after the peak, between consecutive positive values,
     // glitches skipped ([`super::peak`]).
-    let best = (lv.step.0.log10(), lv.step.1);
+    let best = (lv.peak.step_ratio.log10(), lv.peak.step_idx);
     if !(best.0 >= STEP_DROP_DEC) {
         return;
     }
@@ -715,11 +701,11 @@ fn step_drop(
 
 /// Say that glitches were left out of the peak, naming the largest.
 fn glitch_note(name: &str, v: &View<'_>, lv: &Levels, sink: &mut Sink) {
-    let (count, Some((i, height))) = lv.glitches else { return };
+    let (count, Some((i, height))) = (lv.peak.glitches, lv.peak.largest) else { return };
     let it = v.its[i];
     let mut f = finding(FindingKind::Glitch, name, it, it, "glitch_dec");
     f.value = height;
-    f.threshold = Some(STEP_DROP_DEC);
+    f.threshold = Some(GLITCH_DEC);
     let others = match count {
         1 => String::new(),
         2 => " (and 1 smaller one)".to_string(),
@@ -736,7 +722,7 @@ fn glitch_note(name: &str, v: &View<'_>, lv: &Levels, sink: &mut Sink) {
 
 fn low_start(name: &str, v: &View<'_>, lv: &Levels, met: bool, sink: &mut Sink) {
     let first = v.vals[lv.first_idx];
-    let below = (lv.peak / first).log10();
+    let below = (lv.peak.value / first).log10();
     if below < LOW_START_DEC {
         return;
     }
@@ -745,7 +731,7 @@ fn low_start(name: &str, v: &View<'_>, lv: &Levels, met: bool, sink: &mut Sink) 
         FindingKind::LowStart,
         name,
         v.its[lv.first_idx],
-        v.its[lv.peak_idx],
+        v.its[lv.peak.idx],
         "decades_below_peak",
     );
     f.value = below;
@@ -756,14 +742,14 @@ fn low_start(name: &str, v: &View<'_>, lv: &Levels, met: bool, sink: &mut Sink) 
             "{name} started at {}, {} decades below its later peak {}, and is still above its start: the drop is measured from a start-up spike",
             num(first),
             dec(below),
-            num(lv.peak),
+            num(lv.peak.value),
         )
     } else {
         format!(
             "{name} started at {}, {} decades below its later peak {}; the drop is measured from the peak",
             num(first),
             dec(below),
-            num(lv.peak),
+            num(lv.peak.value),
         )
     };
     sink.findings.push(f);

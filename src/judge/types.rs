@@ -136,8 +136,8 @@ pub enum FindingKind {
     FrozenResidual,
     /// A drop of many decades in one step (reset or normalisation artefact).
     StepDrop,
-    /// One value many decades above both its neighbours (a failed solve), left out of the
-    /// peak the drop is measured from (informational).
+    /// One value a decade or more above both its neighbours (a failed solve), left out of
+    /// the peak the drop is measured from (informational).
     Glitch,
     /// The drop is measured from a first value far below the later peak.
     LowStart,
